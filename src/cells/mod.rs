@@ -1,0 +1,372 @@
+//! The cell library. A cell is defined once, here, with its pins, its logic function (used by
+//! the Verilog view and the bit-parallel check) and its sized transistor schematic (used by
+//! the SPICE view and the ratio check). Adding a cell is one edit: a [`CellKind`] variant and
+//! a constructor in [`static_cmos`] or [`manchester`], wired into [`Library::cell`].
+
+pub mod manchester;
+pub mod static_cmos;
+pub mod switch;
+
+use crate::spec::Sizing;
+use crate::tech::Technology;
+use serde::Serialize;
+
+/// Every cell the generator can place. The order is the order cells are printed in.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash, Serialize)]
+pub enum CellKind {
+    /// Static inverter, sized as a carry-path buffer.
+    Inv,
+    /// Non-inverting buffer: an inverter pair.
+    Buf,
+    /// 28-transistor mirror full adder.
+    FullAdder,
+    /// Propagate/generate/kill cell feeding a chain that holds the inverted carry.
+    PgInverted,
+    /// Propagate/generate/kill cell feeding a chain that holds the true carry.
+    PgTrue,
+    /// Generate/propagate cell for a dynamic chain.
+    PgDynamic,
+    /// Static Manchester carry cell, node holds the inverted carry.
+    ChainInverted,
+    /// Static Manchester carry cell, node holds the true carry.
+    ChainTrue,
+    /// Dynamic Manchester carry cell (precharge, footed generate, pass NMOS).
+    ChainDynamic,
+    /// Dynamic Manchester carry cell with a keeper.
+    ChainDynamicKeeper,
+    /// Dynamic chain start: precharged node discharged by a true-polarity input.
+    DynamicStart,
+    /// Dynamic chain start with a keeper.
+    DynamicStartKeeper,
+    /// Sum cell reading a node that holds the inverted carry.
+    SumInverted,
+    /// Sum cell reading a node that holds the true carry.
+    SumTrue,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Dir {
+    In,
+    Out,
+}
+
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Pin {
+    pub name: &'static str,
+    pub dir: Dir,
+    /// A pass-transistor chain node: both ways at transistor level, one way in the logic view.
+    pub chain: bool,
+}
+
+/// A logic function over a cell's pins (indices into `Cell::pins`).
+#[derive(Debug, Clone, PartialEq)]
+pub enum Expr {
+    Pin(usize),
+    Const(bool),
+    Not(Box<Expr>),
+    And(Vec<Expr>),
+    Or(Vec<Expr>),
+    Xor(Vec<Expr>),
+    /// `sel ? one : zero`
+    Mux(Box<Expr>, Box<Expr>, Box<Expr>),
+}
+
+impl Expr {
+    pub fn eval(&self, v: &dyn Fn(usize) -> bool) -> bool {
+        match self {
+            Expr::Pin(i) => v(*i),
+            Expr::Const(b) => *b,
+            Expr::Not(e) => !e.eval(v),
+            Expr::And(es) => es.iter().all(|e| e.eval(v)),
+            Expr::Or(es) => es.iter().any(|e| e.eval(v)),
+            Expr::Xor(es) => es.iter().fold(false, |acc, e| acc ^ e.eval(v)),
+            Expr::Mux(s, a, b) => {
+                if s.eval(v) {
+                    a.eval(v)
+                } else {
+                    b.eval(v)
+                }
+            }
+        }
+    }
+    /// Pins this expression reads.
+    pub fn pins(&self, out: &mut Vec<usize>) {
+        match self {
+            Expr::Pin(i) => out.push(*i),
+            Expr::Const(_) => {}
+            Expr::Not(e) => e.pins(out),
+            Expr::And(es) | Expr::Or(es) | Expr::Xor(es) => es.iter().for_each(|e| e.pins(out)),
+            Expr::Mux(s, a, b) => {
+                s.pins(out);
+                a.pins(out);
+                b.pins(out);
+            }
+        }
+    }
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Mos {
+    N,
+    P,
+}
+
+/// What a device does in its stage; the ratio check looks for keepers.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Role {
+    Logic,
+    Pass,
+    Precharge,
+    Footer,
+    Keeper,
+}
+
+/// One MOSFET. Node names are pin names, `vdd`, `vss`, or cell-internal nodes.
+/// The body ties to `vss` (NMOS) or `vdd` (PMOS).
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Device {
+    pub name: String,
+    pub mos: Mos,
+    pub d: String,
+    pub g: String,
+    pub s: String,
+    /// Width and length, µm.
+    pub w: f64,
+    pub l: f64,
+    pub role: Role,
+}
+
+impl Device {
+    pub fn strength(&self) -> f64 {
+        self.w / self.l
+    }
+}
+
+#[derive(Debug, Clone, PartialEq)]
+pub struct Cell {
+    pub kind: CellKind,
+    /// Short name; the views print it as `<design>_<base>`.
+    pub base: &'static str,
+    pub summary: &'static str,
+    pub pins: Vec<Pin>,
+    /// (output pin, function of the inputs).
+    pub logic: Vec<(usize, Expr)>,
+    pub devices: Vec<Device>,
+    /// Input combinations the cell is designed for (e.g. `g` and `p` never both high);
+    /// the switch-level self-check of the cell skips the others. `None`: all combinations.
+    pub care: Option<Expr>,
+    /// Dynamic cells: the pin that clocks precharge (low) and evaluate (high).
+    pub clock: Option<usize>,
+}
+
+impl Cell {
+    pub fn pin(&self, name: &str) -> usize {
+        self.pins
+            .iter()
+            .position(|p| p.name == name)
+            .unwrap_or_else(|| panic!("cell {} has no pin {name}", self.base))
+    }
+    pub fn inputs(&self) -> impl Iterator<Item = usize> + '_ {
+        self.pins
+            .iter()
+            .enumerate()
+            .filter(|(_, p)| p.dir == Dir::In)
+            .map(|(i, _)| i)
+    }
+}
+
+/// Resolved device sizes for one design (µm).
+#[derive(Debug, Clone, PartialEq)]
+pub struct Sizes {
+    pub l: f64,
+    pub w_min: f64,
+    /// Unit NMOS and PMOS widths.
+    pub n: f64,
+    pub p: f64,
+    /// Keeper width and length (strength = keeper fraction of a unit NMOS); None: no keeper.
+    pub keeper: Option<(f64, f64)>,
+    pub buffer: f64,
+}
+
+impl Sizes {
+    pub fn new(tech: &Technology, sizing: &Sizing) -> Sizes {
+        let l = tech.l_min;
+        let keeper = if sizing.keeper > 0.0 {
+            // Target W/L = keeper * (unit_n / l). Use the smallest width and a longer channel
+            // when that reaches the target; otherwise a short channel and a narrow width.
+            let target = sizing.keeper * sizing.unit_n / l;
+            let w = tech.w_min;
+            let len = w / target;
+            if len >= l {
+                Some((w, round3(len)))
+            } else {
+                Some((round3(target * l), l))
+            }
+        } else {
+            None
+        };
+        Sizes {
+            l,
+            w_min: tech.w_min,
+            n: sizing.unit_n,
+            p: round3(sizing.unit_n * sizing.pn_ratio),
+            keeper,
+            buffer: sizing.buffer,
+        }
+    }
+}
+
+fn round3(x: f64) -> f64 {
+    (x * 1000.0).round() / 1000.0
+}
+
+/// Builds a transistor schematic with readable device names.
+pub struct Schematic<'a> {
+    pub sizes: &'a Sizes,
+    pub devices: Vec<Device>,
+}
+
+impl<'a> Schematic<'a> {
+    pub fn new(sizes: &'a Sizes) -> Self {
+        Schematic {
+            sizes,
+            devices: vec![],
+        }
+    }
+    fn push(&mut self, name: &str, mos: Mos, d: &str, g: &str, s: &str, w: f64, l: f64, role: Role) {
+        let prefix = match mos {
+            Mos::N => "mn",
+            Mos::P => "mp",
+        };
+        self.devices.push(Device {
+            name: format!("{prefix}_{name}"),
+            mos,
+            d: d.into(),
+            g: g.into(),
+            s: s.into(),
+            w: round3(w),
+            l,
+            role,
+        });
+    }
+    /// NMOS of `mult` unit widths.
+    pub fn n(&mut self, name: &str, d: &str, g: &str, s: &str, mult: f64, role: Role) {
+        let (w, l) = (self.sizes.n * mult, self.sizes.l);
+        self.push(name, Mos::N, d, g, s, w, l, role);
+    }
+    /// PMOS of `mult` unit widths.
+    pub fn p(&mut self, name: &str, d: &str, g: &str, s: &str, mult: f64, role: Role) {
+        let (w, l) = (self.sizes.p * mult, self.sizes.l);
+        self.push(name, Mos::P, d, g, s, w, l, role);
+    }
+    pub fn keeper(&mut self, name: &str, d: &str, g: &str) {
+        let (w, l) = self.sizes.keeper.expect("keeper sizes");
+        self.push(name, Mos::P, d, g, "vdd", w, l, Role::Keeper);
+    }
+    pub fn inv(&mut self, name: &str, a: &str, y: &str, mult: f64) {
+        self.n(name, y, a, "vss", mult, Role::Logic);
+        self.p(name, y, a, "vdd", mult, Role::Logic);
+    }
+    /// Two-input NAND: series NMOS at twice the unit width (stack sizing, common practice).
+    pub fn nand2(&mut self, name: &str, a: &str, b: &str, y: &str) {
+        let x = format!("{name}_x");
+        self.n(&format!("{name}_a"), y, a, &x, 2.0, Role::Logic);
+        self.n(&format!("{name}_b"), &x, b, "vss", 2.0, Role::Logic);
+        self.p(&format!("{name}_a"), y, a, "vdd", 1.0, Role::Logic);
+        self.p(&format!("{name}_b"), y, b, "vdd", 1.0, Role::Logic);
+    }
+    /// Two-input NOR: series PMOS at twice the unit width.
+    pub fn nor2(&mut self, name: &str, a: &str, b: &str, y: &str) {
+        let x = format!("{name}_x");
+        self.n(&format!("{name}_a"), y, a, "vss", 1.0, Role::Logic);
+        self.n(&format!("{name}_b"), y, b, "vss", 1.0, Role::Logic);
+        self.p(&format!("{name}_a"), y, a, &x, 2.0, Role::Logic);
+        self.p(&format!("{name}_b"), &x, b, "vdd", 2.0, Role::Logic);
+    }
+    /// Transmission gate between `x` and `y`: NMOS gated by `on`, PMOS by `on_n`.
+    pub fn tg(&mut self, name: &str, x: &str, y: &str, on: &str, on_n: &str, mult: f64) {
+        self.n(name, x, on, y, mult, Role::Pass);
+        self.p(name, x, on_n, y, mult, Role::Pass);
+    }
+}
+
+/// Shorthands for writing logic functions.
+pub mod expr {
+    use super::Expr;
+    pub fn v(i: usize) -> Expr {
+        Expr::Pin(i)
+    }
+    pub fn not(e: Expr) -> Expr {
+        Expr::Not(Box::new(e))
+    }
+    pub fn and(es: Vec<Expr>) -> Expr {
+        Expr::And(es)
+    }
+    pub fn or(es: Vec<Expr>) -> Expr {
+        Expr::Or(es)
+    }
+    pub fn xor(es: Vec<Expr>) -> Expr {
+        Expr::Xor(es)
+    }
+    pub fn mux(s: Expr, one: Expr, zero: Expr) -> Expr {
+        Expr::Mux(Box::new(s), Box::new(one), Box::new(zero))
+    }
+}
+
+/// Pins in a compact form: `pins(&[("a", In), ...])`.
+pub fn pins(list: &[(&'static str, Dir, bool)]) -> Vec<Pin> {
+    list.iter()
+        .map(|&(name, dir, chain)| Pin { name, dir, chain })
+        .collect()
+}
+
+/// The cells of one design, all built from the same sizes.
+pub struct Library {
+    pub sizes: Sizes,
+}
+
+impl Library {
+    pub fn new(sizes: Sizes) -> Self {
+        Library { sizes }
+    }
+    pub fn cell(&self, kind: CellKind) -> Cell {
+        let s = &self.sizes;
+        match kind {
+            CellKind::Inv => static_cmos::inv(s),
+            CellKind::Buf => static_cmos::buf(s),
+            CellKind::FullAdder => static_cmos::mirror_full_adder(s),
+            CellKind::PgInverted => manchester::pg_inverted(s),
+            CellKind::PgTrue => manchester::pg_true(s),
+            CellKind::PgDynamic => manchester::pg_dynamic(s),
+            CellKind::ChainInverted => manchester::chain_static(s, false),
+            CellKind::ChainTrue => manchester::chain_static(s, true),
+            CellKind::ChainDynamic => manchester::chain_dynamic(s, false),
+            CellKind::ChainDynamicKeeper => manchester::chain_dynamic(s, true),
+            CellKind::DynamicStart => manchester::dynamic_start(s, false),
+            CellKind::DynamicStartKeeper => manchester::dynamic_start(s, true),
+            CellKind::SumInverted => manchester::sum(s, false),
+            CellKind::SumTrue => manchester::sum(s, true),
+        }
+    }
+}
+
+/// All kinds, for tests and documentation.
+pub const ALL_KINDS: &[CellKind] = &[
+    CellKind::Inv,
+    CellKind::Buf,
+    CellKind::FullAdder,
+    CellKind::PgInverted,
+    CellKind::PgTrue,
+    CellKind::PgDynamic,
+    CellKind::ChainInverted,
+    CellKind::ChainTrue,
+    CellKind::ChainDynamic,
+    CellKind::ChainDynamicKeeper,
+    CellKind::DynamicStart,
+    CellKind::DynamicStartKeeper,
+    CellKind::SumInverted,
+    CellKind::SumTrue,
+];

@@ -1,0 +1,96 @@
+//! Static complementary CMOS cells: inverter, buffer, mirror full adder.
+
+use super::expr::*;
+use super::{pins, Cell, CellKind, Dir::*, Role, Schematic, Sizes};
+
+/// Inverter sized as a carry-path buffer (`sizing.buffer` unit widths).
+pub fn inv(s: &Sizes) -> Cell {
+    let mut sch = Schematic::new(s);
+    sch.inv("y", "a", "y", s.buffer);
+    Cell {
+        kind: CellKind::Inv,
+        base: "inv",
+        summary: "inverter, carry-path buffer strength",
+        pins: pins(&[("a", In, false), ("y", Out, false)]),
+        logic: vec![(1, not(v(0)))],
+        devices: sch.devices,
+        care: None,
+        clock: None,
+    }
+}
+
+/// Non-inverting buffer: a unit inverter driving a buffer-strength inverter.
+pub fn buf(s: &Sizes) -> Cell {
+    let mut sch = Schematic::new(s);
+    sch.inv("x", "a", "x", 1.0);
+    sch.inv("y", "x", "y", s.buffer);
+    Cell {
+        kind: CellKind::Buf,
+        base: "buf",
+        summary: "inverter pair (non-inverting buffer)",
+        pins: pins(&[("a", In, false), ("y", Out, false)]),
+        logic: vec![(1, v(0))],
+        devices: sch.devices,
+        care: None,
+        clock: None,
+    }
+}
+
+/// The mirror full adder (Weste & Harris, CMOS VLSI Design, 4th ed., §11.2): a 24-transistor
+/// inverting core whose pull-up network mirrors the pull-down, plus two output inverters.
+/// Devices in a series stack of depth k get k unit widths (common practice).
+pub fn mirror_full_adder(s: &Sizes) -> Cell {
+    let mut sch = Schematic::new(s);
+    // Carry core: con = ~(a·b + ci·(a + b)).
+    sch.n("c_ci", "con", "ci", "cn1", 2.0, Role::Logic);
+    sch.n("c_a1", "cn1", "a", "vss", 2.0, Role::Logic);
+    sch.n("c_b1", "cn1", "b", "vss", 2.0, Role::Logic);
+    sch.n("c_a2", "con", "a", "cn2", 2.0, Role::Logic);
+    sch.n("c_b2", "cn2", "b", "vss", 2.0, Role::Logic);
+    sch.p("c_ci", "con", "ci", "cp1", 2.0, Role::Logic);
+    sch.p("c_a1", "cp1", "a", "vdd", 2.0, Role::Logic);
+    sch.p("c_b1", "cp1", "b", "vdd", 2.0, Role::Logic);
+    sch.p("c_a2", "con", "a", "cp2", 2.0, Role::Logic);
+    sch.p("c_b2", "cp2", "b", "vdd", 2.0, Role::Logic);
+    // Sum core: sn = ~(a·b·ci + con·(a + b + ci)).
+    sch.n("s_co", "sn", "con", "sn1", 2.0, Role::Logic);
+    sch.n("s_a1", "sn1", "a", "vss", 2.0, Role::Logic);
+    sch.n("s_b1", "sn1", "b", "vss", 2.0, Role::Logic);
+    sch.n("s_c1", "sn1", "ci", "vss", 2.0, Role::Logic);
+    sch.n("s_a2", "sn", "a", "sn2", 3.0, Role::Logic);
+    sch.n("s_b2", "sn2", "b", "sn3", 3.0, Role::Logic);
+    sch.n("s_c2", "sn3", "ci", "vss", 3.0, Role::Logic);
+    sch.p("s_co", "sn", "con", "sp1", 2.0, Role::Logic);
+    sch.p("s_a1", "sp1", "a", "vdd", 2.0, Role::Logic);
+    sch.p("s_b1", "sp1", "b", "vdd", 2.0, Role::Logic);
+    sch.p("s_c1", "sp1", "ci", "vdd", 2.0, Role::Logic);
+    sch.p("s_a2", "sn", "a", "sp2", 3.0, Role::Logic);
+    sch.p("s_b2", "sp2", "b", "sp3", 3.0, Role::Logic);
+    sch.p("s_c2", "sp3", "ci", "vdd", 3.0, Role::Logic);
+    // Output inverters restore true polarity.
+    sch.inv("co", "con", "co", 1.0);
+    sch.inv("s", "sn", "s", 1.0);
+    let (a, b, ci) = (v(0), v(1), v(2));
+    Cell {
+        kind: CellKind::FullAdder,
+        base: "fa",
+        summary: "28-transistor mirror full adder",
+        pins: pins(&[
+            ("a", In, false),
+            ("b", In, false),
+            ("ci", In, false),
+            ("s", Out, false),
+            ("co", Out, false),
+        ]),
+        logic: vec![
+            (3, xor(vec![a.clone(), b.clone(), ci.clone()])),
+            (
+                4,
+                or(vec![and(vec![a.clone(), b.clone()]), and(vec![ci, or(vec![a, b])])]),
+            ),
+        ],
+        devices: sch.devices,
+        care: None,
+        clock: None,
+    }
+}

@@ -1,0 +1,108 @@
+//! Views of the one netlist. Rust builds a plain context from the IR; the Tera templates
+//! under `templates/` only print it.
+
+pub mod spice;
+pub mod summary;
+pub mod vectors;
+pub mod verilog;
+
+use crate::error::{Error, Result};
+use crate::netlist::Design;
+use crate::spec::Spec;
+use std::sync::OnceLock;
+use tera::Tera;
+
+pub const VERSION: &str = env!("CARGO_PKG_VERSION");
+
+fn tera() -> &'static Tera {
+    static T: OnceLock<Tera> = OnceLock::new();
+    T.get_or_init(|| {
+        let mut t = Tera::default();
+        t.autoescape_on(vec![]);
+        t.add_raw_templates(vec![
+            ("verilog/design.v", include_str!("../../templates/verilog/design.v.tera")),
+            ("verilog/testbench.v", include_str!("../../templates/verilog/testbench.v.tera")),
+            ("spice/cells.sp", include_str!("../../templates/spice/cells.sp.tera")),
+            ("spice/deck.sp", include_str!("../../templates/spice/deck.sp.tera")),
+        ])
+        .expect("the built-in templates parse");
+        t
+    })
+}
+
+pub(crate) fn render(template: &str, ctx: &impl serde::Serialize) -> Result<String> {
+    let ctx = tera::Context::from_serialize(ctx)
+        .map_err(|e| Error::Output(format!("template context for {template}: {e}")))?;
+    tera().render(template, &ctx).map_err(|e| {
+        let mut msg = e.to_string();
+        let mut src = std::error::Error::source(&e);
+        while let Some(s) = src {
+            msg.push_str(": ");
+            msg.push_str(&s.to_string());
+            src = s.source();
+        }
+        Error::Output(format!("rendering {template}: {msg}"))
+    })
+}
+
+/// One line saying what the design is.
+pub fn title(spec: &Spec) -> String {
+    let mut t = format!(
+        "{}-bit {} adder, {} style",
+        spec.width,
+        spec.architecture.as_str(),
+        spec.style.as_str()
+    );
+    if spec.architecture == crate::spec::Architecture::Manchester {
+        t.push_str(&format!(", block {}", spec.block));
+        if spec.buffers.positions.is_empty() {
+            t.push_str(", no buffers");
+        } else {
+            let kind = if spec.style == crate::spec::Style::Dynamic {
+                "domino boundaries"
+            } else if spec.buffers.inverting {
+                "inverting buffers"
+            } else {
+                "non-inverting buffers"
+            };
+            t.push_str(&format!(
+                ", {kind} at bits {}",
+                itertools::join(&spec.buffers.positions, ",")
+            ));
+        }
+    }
+    t
+}
+
+/// Every output file, in memory: (file name, contents).
+pub fn render_all(spec: &Spec, design: &Design) -> Result<Vec<(String, String)>> {
+    let plan = vectors::plan(spec.width, spec.testbench.random, spec.testbench.seed);
+    let deck = spice::DeckPlan::new(spec, &plan);
+    let n = &spec.name;
+    Ok(vec![
+        (format!("{n}.v"), verilog::design(spec, design)?),
+        (format!("{n}_tb.v"), verilog::testbench(spec, &plan)?),
+        (format!("{n}.sp"), spice::subcircuits(spec, design)?),
+        (format!("{n}_tb.sp"), spice::deck(spec, design, &deck)?),
+        (format!("{n}.json"), summary::json(spec, design, &plan, &deck)?),
+    ])
+}
+
+/// Wrap words into lines of at most `width` characters (for SPICE continuation lines).
+pub(crate) fn wrap(words: &[String], width: usize) -> Vec<String> {
+    let mut lines: Vec<String> = vec![];
+    let mut cur = String::new();
+    for w in words {
+        if !cur.is_empty() && cur.len() + 1 + w.len() > width {
+            lines.push(std::mem::take(&mut cur));
+        }
+        if !cur.is_empty() {
+            cur.push(' ');
+        }
+        cur.push_str(w);
+    }
+    if !cur.is_empty() || lines.is_empty() {
+        lines.push(cur);
+    }
+    lines
+}

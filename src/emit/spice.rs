@@ -1,0 +1,403 @@
+//! Transistor-level SPICE view (`NAME.sp`, subcircuits only) and the runnable ngspice deck
+//! (`NAME_tb.sp`: models, supplies, stimulus, `.tran`, and a `.control` block that measures
+//! the worst-case carry delay and supply power, samples every output and exits non-zero on
+//! a failed measurement or a wrong level).
+
+use super::vectors::{Labeled, WORST_CASE_FALL, WORST_CASE_RISE};
+use super::{render, title, wrap, VERSION};
+use crate::cells::Mos;
+use crate::error::Result;
+use crate::netlist::{Design, Master};
+use crate::spec::{fmt_si, trim_num, Architecture, Spec, Style};
+use crate::tech::Models;
+use serde::Serialize;
+
+const LINE: usize = 78;
+
+#[derive(Serialize)]
+struct CellCtx {
+    name: String,
+    comment: String,
+    pins: String,
+    devices: Vec<String>,
+}
+
+#[derive(Serialize)]
+struct InstCtx {
+    lines: Vec<String>,
+}
+
+#[derive(Serialize)]
+struct ModuleCtx {
+    name: String,
+    comment: String,
+    pins: Vec<String>,
+    instances: Vec<InstCtx>,
+}
+
+#[derive(Serialize)]
+struct SubcktCtx {
+    title: String,
+    version: &'static str,
+    name: String,
+    origin: String,
+    nmos: String,
+    pmos: String,
+    width: usize,
+    dynamic: bool,
+    cells: Vec<CellCtx>,
+    modules: Vec<ModuleCtx>,
+}
+
+fn um(x: f64) -> String {
+    format!("{}u", trim_num(x))
+}
+
+/// Pin names of a master in connection order, plus the supplies.
+fn pin_words(design: &Design, master: Master) -> Vec<String> {
+    let mut out: Vec<String> = match master {
+        Master::Cell(k) => design.cells[&k].pins.iter().map(|p| p.name.to_string()).collect(),
+        Master::Module(i) => {
+            let m = &design.modules[i];
+            m.pin_dirs().iter().map(|(id, _)| m.net_name(*id).to_string()).collect()
+        }
+    };
+    out.push("vdd".into());
+    out.push("vss".into());
+    out
+}
+
+/// `NAME.sp`.
+pub fn subcircuits(spec: &Spec, design: &Design) -> Result<String> {
+    let tech = &spec.technology;
+    let cells = design
+        .cells
+        .values()
+        .map(|c| CellCtx {
+            name: format!("{}_{}", design.name, c.base),
+            comment: format!("cell {}: {} ({} transistors)", c.base, c.summary, c.devices.len()),
+            pins: c.pins.iter().map(|p| p.name).collect::<Vec<_>>().join(" "),
+            devices: c
+                .devices
+                .iter()
+                .map(|d| {
+                    let (bulk, model) = match d.mos {
+                        Mos::N => ("vss", &tech.nmos),
+                        Mos::P => ("vdd", &tech.pmos),
+                    };
+                    format!(
+                        "{} {} {} {} {} {} w={} l={}",
+                        d.name,
+                        d.d,
+                        d.g,
+                        d.s,
+                        bulk,
+                        model,
+                        um(d.w),
+                        um(d.l)
+                    )
+                })
+                .collect(),
+        })
+        .collect();
+    let last = design.modules.len() - 1;
+    let modules = design
+        .modules
+        .iter()
+        .enumerate()
+        .map(|(i, m)| {
+            let mut words = vec![m.name.clone()];
+            words.extend(pin_words(design, Master::Module(i)));
+            let mut pins = wrap(&words[1..], LINE - m.name.len() - 9);
+            if pins.is_empty() {
+                pins.push(String::new());
+            }
+            ModuleCtx {
+                name: m.name.clone(),
+                comment: format!(
+                    "{} {}: {} transistors",
+                    if i == last { "top" } else { "block" },
+                    m.name,
+                    design.transistors(Master::Module(i))
+                ),
+                pins,
+                instances: m
+                    .instances
+                    .iter()
+                    .map(|inst| {
+                        let mut w = vec![inst.name.clone()];
+                        w.extend(inst.conns.iter().map(|c| m.net_name(*c).to_string()));
+                        w.push("vdd".into());
+                        w.push("vss".into());
+                        w.push(design.master_name(inst.master));
+                        InstCtx { lines: wrap(&w, LINE) }
+                    })
+                    .collect(),
+            }
+        })
+        .collect();
+    render(
+        "spice/cells.sp",
+        &SubcktCtx {
+            title: title(spec),
+            version: VERSION,
+            name: spec.name.clone(),
+            origin: tech.origin.clone(),
+            nmos: tech.nmos.clone(),
+            pmos: tech.pmos.clone(),
+            width: spec.width,
+            dynamic: design.dynamic,
+            cells,
+            modules,
+        },
+    )
+}
+
+/// Timing of the deck: how long each vector lasts, where the strobes are, what is measured.
+#[derive(Debug, Clone, Serialize)]
+pub struct DeckPlan {
+    /// Vector period, seconds.
+    pub period: f64,
+    pub period_from_spec: bool,
+    pub step: f64,
+    pub slew: f64,
+    pub tstop: f64,
+    /// The vectors the deck applies: the directed ones and up to 8 of the random ones.
+    #[serde(skip)]
+    pub vectors: Vec<Labeled>,
+    /// Fraction of the period at which outputs are sampled (evaluate phase in dynamic).
+    pub strobe: f64,
+    /// Dynamic designs: fraction of the period at which cout is sampled in precharge.
+    pub precharge_strobe: Option<f64>,
+    pub delay_from: &'static str,
+}
+
+/// Random vectors the transistor-level deck adds to the directed ones.
+pub const DECK_RANDOM: usize = 8;
+
+impl DeckPlan {
+    pub fn new(spec: &Spec, plan: &[Labeled]) -> DeckPlan {
+        let n_directed = super::vectors::directed(spec.width).len();
+        let take = n_directed + spec.testbench.random.min(DECK_RANDOM);
+        let vectors: Vec<Labeled> = plan.iter().take(take).cloned().collect();
+        let dynamic = spec.style == Style::Dynamic;
+        let period = spec.testbench.period.unwrap_or_else(|| default_period(spec));
+        let step = spec.testbench.step.unwrap_or(spec.technology.step).min(period / 20.0);
+        DeckPlan {
+            period,
+            period_from_spec: spec.testbench.period.is_some(),
+            step,
+            slew: spec.technology.slew,
+            tstop: period * vectors.len() as f64,
+            vectors,
+            strobe: if dynamic { 0.95 } else { 0.9 },
+            precharge_strobe: dynamic.then_some(0.45),
+            delay_from: if dynamic { "clk" } else { "cin" },
+        }
+    }
+}
+
+/// A conservative vector period from a rough delay bound (not a timing model): the square
+/// law of the longest unbuffered chain (Elmore; Rabaey et al. 2003, from memory) plus a
+/// fixed cost per restoring stage, with margin. Dynamic designs split it into precharge and
+/// evaluate halves.
+pub fn default_period(spec: &Spec) -> f64 {
+    let ns = 1e-9;
+    let w = spec.width as f64;
+    let t = match spec.architecture {
+        Architecture::Ripple => 0.35 * ns * w + 1.0 * ns,
+        Architecture::Manchester => {
+            let mut cuts = vec![0];
+            cuts.extend(&spec.buffers.positions);
+            cuts.push(spec.width);
+            let longest = cuts.windows(2).map(|c| c[1] - c[0]).max().unwrap_or(spec.width) as f64;
+            0.025 * ns * longest * longest + 0.15 * ns * (cuts.len() - 1) as f64 + 1.0 * ns
+        }
+    };
+    let mut p = (2.5 * t / ns).ceil() * ns;
+    if spec.style == Style::Dynamic {
+        p *= 2.0;
+    }
+    p.max(2.0 * ns)
+}
+
+#[derive(Serialize)]
+struct SourceCtx {
+    lines: Vec<String>,
+}
+
+#[derive(Serialize)]
+struct SampleCtx {
+    var: String,
+    node: String,
+    at: String,
+    expect: bool,
+    expect_text: &'static str,
+}
+
+#[derive(Serialize)]
+struct DeckCtx {
+    title: String,
+    version: &'static str,
+    name: String,
+    origin: String,
+    dynamic: bool,
+    vdd: String,
+    half_vdd: String,
+    hi_level: String,
+    lo_level: String,
+    load: String,
+    slew: String,
+    period: String,
+    half: String,
+    high: String,
+    step: String,
+    tstop: String,
+    vector_count: usize,
+    strobe_note: String,
+    model_lines: Vec<String>,
+    sources: Vec<SourceCtx>,
+    dut: Vec<String>,
+    outputs: Vec<String>,
+    trig: &'static str,
+    rise_td: String,
+    fall_td: String,
+    measure_fall: bool,
+    delay_note: String,
+    samples: Vec<SampleCtx>,
+}
+
+fn s(x: f64) -> String {
+    fmt_si(x, 's')
+}
+
+/// `NAME_tb.sp`.
+pub fn deck(spec: &Spec, design: &Design, plan: &DeckPlan) -> Result<String> {
+    let tech = &spec.technology;
+    let w = spec.width;
+    let vdd = tech.vdd;
+    let dynamic = design.dynamic;
+    let t = plan.period;
+    // Inputs change just after the start of each period (after clk has fallen in dynamic).
+    let change = if dynamic { 2.0 * plan.slew } else { 0.0 };
+    let bit = |x: u128, i: usize| (x >> i) & 1 == 1;
+    let mut sources = vec![];
+    let mut add_source = |node: String, level: &dyn Fn(&Labeled) -> bool| {
+        let mut pts: Vec<String> = vec![];
+        let v0 = level(&plan.vectors[0]);
+        pts.push(format!("0 {}", if v0 { trim_num(vdd) } else { "0".into() }));
+        let mut prev = v0;
+        for (k, v) in plan.vectors.iter().enumerate().skip(1) {
+            let now = level(v);
+            if now != prev {
+                let t0 = k as f64 * t + change;
+                let lv = |b: bool| if b { trim_num(vdd) } else { "0".into() };
+                pts.push(format!("{} {}", s(t0), lv(prev)));
+                pts.push(format!("{} {}", s(t0 + plan.slew), lv(now)));
+                prev = now;
+            }
+        }
+        let mut words = vec![format!("v{node}"), node.clone(), "0".into(), "pwl(".into()];
+        words.extend(pts);
+        words.push(")".into());
+        sources.push(SourceCtx { lines: wrap(&words, LINE) });
+    };
+    for i in 0..w {
+        add_source(format!("a{i}"), &|v: &Labeled| bit(v.v.a, i));
+    }
+    for i in 0..w {
+        add_source(format!("b{i}"), &|v: &Labeled| bit(v.v.b, i));
+    }
+    add_source("cin".into(), &|v: &Labeled| v.v.cin);
+
+    let top = design.top();
+    let mut dut = vec!["xdut".to_string()];
+    dut.extend(top.pin_dirs().iter().map(|(id, _)| top.net_name(*id).to_string()));
+    dut.push("vdd".into());
+    dut.push("vss".into());
+    dut.push(spec.name.clone());
+    let mut outputs: Vec<String> = (0..w).map(|i| format!("s{i}")).collect();
+    outputs.push("cout".into());
+
+    let mut samples = vec![];
+    for (k, v) in plan.vectors.iter().enumerate() {
+        let at = k as f64 * t + plan.strobe * t;
+        for (i, o) in outputs.iter().enumerate() {
+            let expect = if i < w { bit(v.v.s, i) } else { v.v.cout };
+            samples.push(SampleCtx {
+                var: format!("v_{o}_{k}"),
+                node: o.clone(),
+                at: s(at),
+                expect,
+                expect_text: if expect { "1" } else { "0" },
+            });
+        }
+        if let Some(p) = plan.precharge_strobe {
+            samples.push(SampleCtx {
+                var: format!("pre_cout_{k}"),
+                node: "cout".into(),
+                at: s(k as f64 * t + p * t),
+                expect: false,
+                expect_text: "0 (precharge)",
+            });
+        }
+    }
+    let model_lines = match &tech.models {
+        Models::Inline(text) => {
+            let mut l = vec!["* Illustrative level-1 models (not a real process):".to_string()];
+            l.extend(text.lines().map(str::to_string));
+            l
+        }
+        Models::Files { include, lib } => include
+            .iter()
+            .map(|p| format!(".include {p}"))
+            .chain(lib.iter().map(|(p, sec)| format!(".lib {p} {sec}")))
+            .collect(),
+    };
+    let rise_td = WORST_CASE_RISE as f64 * t;
+    let fall_td = WORST_CASE_FALL as f64 * t;
+    let ctx = DeckCtx {
+        title: title(spec),
+        version: VERSION,
+        name: spec.name.clone(),
+        origin: tech.origin.clone(),
+        dynamic,
+        vdd: trim_num(vdd),
+        half_vdd: trim_num(vdd / 2.0),
+        hi_level: trim_num(0.8 * vdd),
+        lo_level: trim_num(0.2 * vdd),
+        load: fmt_si(spec.testbench.load, 'F'),
+        slew: s(plan.slew),
+        period: s(t),
+        half: s(t / 2.0),
+        high: s(t / 2.0 - plan.slew),
+        step: s(plan.step),
+        tstop: s(plan.tstop),
+        vector_count: plan.vectors.len(),
+        strobe_note: match plan.precharge_strobe {
+            Some(p) => format!(
+                "{}% of each period (evaluate) and cout at {}% (precharge)",
+                trim_num(plan.strobe * 100.0),
+                trim_num(p * 100.0)
+            ),
+            None => format!("{}% of each period", trim_num(plan.strobe * 100.0)),
+        },
+        model_lines,
+        sources,
+        dut: wrap(&dut, LINE),
+        outputs,
+        trig: plan.delay_from,
+        rise_td: s(rise_td),
+        fall_td: s(fall_td),
+        measure_fall: !dynamic,
+        delay_note: if dynamic {
+            format!("clk rise to cout rise, all propagate with cin = 1 (vector {WORST_CASE_RISE})")
+        } else {
+            format!(
+                "cin to cout, all propagate (vector {WORST_CASE_RISE} rising, vector {WORST_CASE_FALL} falling)"
+            )
+        },
+        samples,
+    };
+    render("spice/deck.sp", &ctx)
+}

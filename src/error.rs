@@ -1,0 +1,38 @@
+//! Errors and their exit codes: 2 for bad input or usage, 1 for a failed check.
+
+use std::fmt;
+
+/// Every failure the library reports. The message is one line, ready to print.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Error {
+    /// Bad spec, technology file or command-line value (exit code 2).
+    Input(String),
+    /// A structural or logic check of a built netlist failed (exit code 1).
+    Check(String),
+    /// Writing the outputs failed (exit code 2: the destination is unusable).
+    Output(String),
+}
+
+impl Error {
+    pub fn exit_code(&self) -> i32 {
+        match self {
+            Error::Check(_) => 1,
+            Error::Input(_) | Error::Output(_) => 2,
+        }
+    }
+    pub fn message(&self) -> &str {
+        match self {
+            Error::Input(m) | Error::Check(m) | Error::Output(m) => m,
+        }
+    }
+}
+
+impl fmt::Display for Error {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(self.message())
+    }
+}
+
+impl std::error::Error for Error {}
+
+pub type Result<T> = std::result::Result<T, Error>;

@@ -1,0 +1,474 @@
+//! The netlist IR that every view renders: modules with ports, scalar nets and instances of
+//! cells or other modules, plus the structural checks that run before anything is written.
+
+use crate::cells::{Cell, CellKind, Dir, Library, Mos, Role};
+use crate::error::{Error, Result};
+use std::collections::{BTreeMap, HashMap};
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord)]
+pub struct NetId(pub u32);
+
+#[derive(Debug, Clone, PartialEq)]
+pub struct Net {
+    /// The scalar name, identical in every view (`c4_n`, `a3`).
+    pub name: String,
+    /// Set for a bit of a bus port of the top module: (bus name, bit). Verilog prints
+    /// `a[3]`, SPICE prints the scalar name `a3`.
+    pub bus: Option<(String, usize)>,
+}
+
+#[derive(Debug, Clone, PartialEq)]
+pub struct Port {
+    pub name: String,
+    pub dir: Dir,
+    /// Bits, least significant first; one entry for a scalar port.
+    pub bits: Vec<NetId>,
+    pub bus: bool,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Master {
+    Cell(CellKind),
+    /// Index into `Design::modules`.
+    Module(usize),
+}
+
+#[derive(Debug, Clone, PartialEq)]
+pub struct Instance {
+    pub name: String,
+    pub master: Master,
+    /// One net per pin of the master, in pin order (ports' bits flattened for modules).
+    pub conns: Vec<NetId>,
+}
+
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct Module {
+    pub name: String,
+    pub ports: Vec<Port>,
+    pub nets: Vec<Net>,
+    pub instances: Vec<Instance>,
+    names: HashMap<String, NetId>,
+}
+
+impl Module {
+    pub fn new(name: impl Into<String>) -> Self {
+        Module {
+            name: name.into(),
+            ..Default::default()
+        }
+    }
+    /// A new net; names are unique within a module.
+    pub fn net(&mut self, name: impl Into<String>) -> NetId {
+        let name = name.into();
+        assert!(!self.names.contains_key(&name), "net {name} defined twice in {}", self.name);
+        let id = NetId(self.nets.len() as u32);
+        self.names.insert(name.clone(), id);
+        self.nets.push(Net { name, bus: None });
+        id
+    }
+    pub fn port(&mut self, name: &str, dir: Dir) -> NetId {
+        let id = self.net(name);
+        self.ports.push(Port {
+            name: name.into(),
+            dir,
+            bits: vec![id],
+            bus: false,
+        });
+        id
+    }
+    /// A bus port of `width` bits whose bit nets are named `<name><bit>`.
+    pub fn bus(&mut self, name: &str, dir: Dir, width: usize) -> Vec<NetId> {
+        let bits: Vec<NetId> = (0..width)
+            .map(|i| {
+                let id = self.net(format!("{name}{i}"));
+                self.nets[id.0 as usize].bus = Some((name.to_string(), i));
+                id
+            })
+            .collect();
+        self.ports.push(Port {
+            name: name.into(),
+            dir,
+            bits: bits.clone(),
+            bus: true,
+        });
+        bits
+    }
+    pub fn inst(&mut self, name: impl Into<String>, master: Master, conns: Vec<NetId>) {
+        self.instances.push(Instance {
+            name: name.into(),
+            master,
+            conns,
+        });
+    }
+    pub fn net_name(&self, id: NetId) -> &str {
+        &self.nets[id.0 as usize].name
+    }
+    /// Port bits in declaration order, with their direction.
+    pub fn pin_dirs(&self) -> Vec<(NetId, Dir)> {
+        self.ports
+            .iter()
+            .flat_map(|p| p.bits.iter().map(move |&b| (b, p.dir)))
+            .collect()
+    }
+}
+
+/// A whole design: the cells it uses and its modules, children before parents, top last.
+#[derive(Debug, Clone)]
+pub struct Design {
+    pub name: String,
+    pub cells: BTreeMap<CellKind, Cell>,
+    pub modules: Vec<Module>,
+    /// Dynamic designs have `clk` as the first top port.
+    pub dynamic: bool,
+}
+
+impl Design {
+    pub fn top(&self) -> &Module {
+        self.modules.last().expect("a design has a top module")
+    }
+    /// Name printed for a cell or module master.
+    pub fn master_name(&self, m: Master) -> String {
+        match m {
+            Master::Cell(k) => format!("{}_{}", self.name, self.cells[&k].base),
+            Master::Module(i) => self.modules[i].name.clone(),
+        }
+    }
+    /// Pin directions of a master, in connection order.
+    pub fn master_dirs(&self, m: Master) -> Vec<Dir> {
+        match m {
+            Master::Cell(k) => self.cells[&k].pins.iter().map(|p| p.dir).collect(),
+            Master::Module(i) => self.modules[i].pin_dirs().into_iter().map(|(_, d)| d).collect(),
+        }
+    }
+    /// Transistor count of a master, recursively.
+    pub fn transistors(&self, m: Master) -> usize {
+        match m {
+            Master::Cell(k) => self.cells[&k].devices.len(),
+            Master::Module(i) => self.modules[i]
+                .instances
+                .iter()
+                .map(|x| self.transistors(x.master))
+                .sum(),
+        }
+    }
+    /// Number of leaf cell instances of each kind in the whole design.
+    pub fn cell_counts(&self) -> BTreeMap<CellKind, usize> {
+        let mut out = BTreeMap::new();
+        self.count_into(self.modules.len() - 1, 1, &mut out);
+        out
+    }
+    fn count_into(&self, m: usize, mult: usize, out: &mut BTreeMap<CellKind, usize>) {
+        for inst in &self.modules[m].instances {
+            match inst.master {
+                Master::Cell(k) => *out.entry(k).or_default() += mult,
+                Master::Module(c) => self.count_into(c, mult, out),
+            }
+        }
+    }
+
+    /// Flatten to leaf cell instances over global net ids.
+    pub fn flatten(&self) -> Flat {
+        let mut flat = Flat::default();
+        let top = self.modules.len() - 1;
+        let ports: Vec<u32> = self.modules[top]
+            .pin_dirs()
+            .iter()
+            .map(|(id, _)| flat.new_net(self.modules[top].net_name(*id).to_string()))
+            .collect();
+        flat.top_ports = ports.clone();
+        self.flatten_into(top, &ports, "", &mut flat);
+        flat
+    }
+    fn flatten_into(&self, m: usize, port_nets: &[u32], prefix: &str, flat: &mut Flat) {
+        let module = &self.modules[m];
+        let mut map: HashMap<NetId, u32> = HashMap::new();
+        for ((id, _), &g) in module.pin_dirs().iter().zip(port_nets) {
+            map.insert(*id, g);
+        }
+        for (i, net) in module.nets.iter().enumerate() {
+            map.entry(NetId(i as u32))
+                .or_insert_with(|| flat.new_net(format!("{prefix}{}", net.name)));
+        }
+        for inst in &module.instances {
+            let conns: Vec<u32> = inst.conns.iter().map(|c| map[c]).collect();
+            let path = format!("{prefix}{}.", inst.name);
+            match inst.master {
+                Master::Cell(kind) => flat.leaves.push(Leaf {
+                    path: format!("{prefix}{}", inst.name),
+                    kind,
+                    nets: conns,
+                }),
+                Master::Module(c) => self.flatten_into(c, &conns, &path, flat),
+            }
+        }
+    }
+
+    /// Structural checks of every module and the ratio rule on the flattened transistors.
+    pub fn check(&self) -> Result<()> {
+        for (mi, m) in self.modules.iter().enumerate() {
+            self.check_module(mi, m)?;
+        }
+        let flat = self.flatten();
+        flat.order(self)?;
+        self.check_ratio(&flat)
+    }
+
+    fn check_module(&self, mi: usize, m: &Module) -> Result<()> {
+        let fail = |msg: String| Err(Error::Check(format!("{}: {msg}", m.name)));
+        let mut drivers = vec![0usize; m.nets.len()];
+        let mut readers = vec![0usize; m.nets.len()];
+        for (id, dir) in m.pin_dirs() {
+            match dir {
+                Dir::In => drivers[id.0 as usize] += 1,
+                Dir::Out => readers[id.0 as usize] += 1,
+            }
+        }
+        for inst in &m.instances {
+            if let Master::Module(c) = inst.master {
+                if c >= mi {
+                    return fail(format!("instance {} refers to a later module", inst.name));
+                }
+            }
+            let dirs = self.master_dirs(inst.master);
+            if dirs.len() != inst.conns.len() {
+                return fail(format!(
+                    "instance {} has {} connections for {} pins",
+                    inst.name,
+                    inst.conns.len(),
+                    dirs.len()
+                ));
+            }
+            for (c, d) in inst.conns.iter().zip(dirs) {
+                match d {
+                    Dir::In => readers[c.0 as usize] += 1,
+                    Dir::Out => drivers[c.0 as usize] += 1,
+                }
+            }
+        }
+        for (i, net) in m.nets.iter().enumerate() {
+            if drivers[i] != 1 {
+                return fail(format!(
+                    "net {} has {} drivers (each net needs exactly one)",
+                    net.name, drivers[i]
+                ));
+            }
+            if readers[i] == 0 {
+                return fail(format!("net {} is driven but never used", net.name));
+            }
+        }
+        Ok(())
+    }
+
+    /// Ratio rule (common practice): where a keeper holds a node, every pull-down path that
+    /// must discharge that node is stronger (series W/L) than the keeper (W/L).
+    fn check_ratio(&self, flat: &Flat) -> Result<()> {
+        // Flatten to devices over global nodes.
+        let mut devs: Vec<(u32, u32, u32, Mos, Role, f64)> = vec![];
+        let mut node_names = flat.names.clone();
+        let vss = node_names.len() as u32;
+        node_names.push("vss".into());
+        let vdd = node_names.len() as u32;
+        node_names.push("vdd".into());
+        for leaf in &flat.leaves {
+            let cell = &self.cells[&leaf.kind];
+            let mut local: HashMap<String, u32> = HashMap::new();
+            for (p, &g) in cell.pins.iter().zip(&leaf.nets) {
+                local.insert(p.name.to_string(), g);
+            }
+            local.insert("vss".into(), vss);
+            local.insert("vdd".into(), vdd);
+            let mut node = |n: &str, names: &mut Vec<String>| -> u32 {
+                *local.entry(n.to_string()).or_insert_with(|| {
+                    names.push(format!("{}.{n}", leaf.path));
+                    (names.len() - 1) as u32
+                })
+            };
+            for d in &cell.devices {
+                let dn = node(&d.d, &mut node_names);
+                let sn = node(&d.s, &mut node_names);
+                let gn = node(&d.g, &mut node_names);
+                devs.push((dn, gn, sn, d.mos, d.role, d.strength()));
+            }
+        }
+        let n_nodes = node_names.len();
+        let mut adj: Vec<Vec<(u32, f64)>> = vec![vec![]; n_nodes];
+        for &(d, _, s, m, role, st) in &devs {
+            if m == Mos::N && role != Role::Keeper {
+                adj[d as usize].push((s, st));
+                adj[s as usize].push((d, st));
+            }
+        }
+        for &(d, _, _, m, role, st) in &devs {
+            if m != Mos::P || role != Role::Keeper {
+                continue;
+            }
+            // Weakest simple NMOS path from the kept node to vss (series conductance).
+            let mut weakest: Option<f64> = None;
+            let mut visited = vec![false; n_nodes];
+            let mut budget = 100_000usize;
+            fn dfs(
+                x: u32,
+                inv_sum: f64,
+                vss: u32,
+                vdd: u32,
+                adj: &[Vec<(u32, f64)>],
+                visited: &mut [bool],
+                weakest: &mut Option<f64>,
+                budget: &mut usize,
+            ) {
+                if *budget == 0 {
+                    return;
+                }
+                *budget -= 1;
+                if x == vss {
+                    let s = 1.0 / inv_sum;
+                    if weakest.map_or(true, |w| s < w) {
+                        *weakest = Some(s);
+                    }
+                    return;
+                }
+                if x == vdd {
+                    return;
+                }
+                visited[x as usize] = true;
+                for &(y, st) in &adj[x as usize] {
+                    if !visited[y as usize] {
+                        dfs(y, inv_sum + 1.0 / st, vss, vdd, adj, visited, weakest, budget);
+                    }
+                }
+                visited[x as usize] = false;
+            }
+            dfs(d, 0.0, vss, vdd, &adj, &mut visited, &mut weakest, &mut budget);
+            if budget == 0 {
+                return Err(Error::Check(format!(
+                    "ratio check: too many pull-down paths at node {}",
+                    node_names[d as usize]
+                )));
+            }
+            match weakest {
+                None => {
+                    return Err(Error::Check(format!(
+                        "ratio rule: keeper at node {} fights no pull-down path",
+                        node_names[d as usize]
+                    )))
+                }
+                Some(w) if w <= st => {
+                    return Err(Error::Check(format!(
+                        "ratio rule: at node {} the weakest pull-down path (W/L {:.2}) is not stronger than its keeper (W/L {:.2}); shorten the block or lower sizing.keeper",
+                        node_names[d as usize], w, st
+                    )))
+                }
+                Some(_) => {}
+            }
+        }
+        Ok(())
+    }
+}
+
+/// A leaf cell instance over global nets.
+#[derive(Debug, Clone)]
+pub struct Leaf {
+    pub path: String,
+    pub kind: CellKind,
+    pub nets: Vec<u32>,
+}
+
+#[derive(Debug, Clone, Default)]
+pub struct Flat {
+    pub names: Vec<String>,
+    pub leaves: Vec<Leaf>,
+    /// Global nets of the top module's port bits, in port order.
+    pub top_ports: Vec<u32>,
+}
+
+impl Flat {
+    fn new_net(&mut self, name: String) -> u32 {
+        self.names.push(name);
+        (self.names.len() - 1) as u32
+    }
+    /// Leaves in evaluation order (every input computed before it is read), or the net on a
+    /// combinational loop.
+    pub fn order(&self, design: &Design) -> Result<Vec<usize>> {
+        let n = self.names.len();
+        let mut driver: Vec<Option<usize>> = vec![None; n];
+        for (li, leaf) in self.leaves.iter().enumerate() {
+            let cell = &design.cells[&leaf.kind];
+            for (p, &g) in cell.pins.iter().zip(&leaf.nets) {
+                if p.dir == Dir::Out {
+                    driver[g as usize] = Some(li);
+                }
+            }
+        }
+        let mut indeg = vec![0usize; self.leaves.len()];
+        let mut users: Vec<Vec<usize>> = vec![vec![]; self.leaves.len()];
+        for (li, leaf) in self.leaves.iter().enumerate() {
+            let cell = &design.cells[&leaf.kind];
+            for (p, &g) in cell.pins.iter().zip(&leaf.nets) {
+                if p.dir == Dir::In {
+                    if let Some(d) = driver[g as usize] {
+                        indeg[li] += 1;
+                        users[d].push(li);
+                    }
+                }
+            }
+        }
+        let mut ready: Vec<usize> = (0..self.leaves.len()).filter(|&i| indeg[i] == 0).collect();
+        ready.reverse();
+        let mut out = Vec::with_capacity(self.leaves.len());
+        while let Some(i) = ready.pop() {
+            out.push(i);
+            for &u in users[i].iter().rev() {
+                indeg[u] -= 1;
+                if indeg[u] == 0 {
+                    ready.push(u);
+                }
+            }
+        }
+        if out.len() != self.leaves.len() {
+            let stuck = (0..self.leaves.len()).find(|&i| indeg[i] > 0).unwrap_or(0);
+            return Err(Error::Check(format!(
+                "combinational loop through {}",
+                self.leaves[stuck].path
+            )));
+        }
+        Ok(out)
+    }
+}
+
+/// Collects the cells a builder uses.
+pub struct DesignBuilder<'a> {
+    pub name: String,
+    pub lib: &'a Library,
+    pub cells: BTreeMap<CellKind, Cell>,
+    pub modules: Vec<Module>,
+}
+
+impl<'a> DesignBuilder<'a> {
+    pub fn new(name: &str, lib: &'a Library) -> Self {
+        DesignBuilder {
+            name: name.into(),
+            lib,
+            cells: BTreeMap::new(),
+            modules: vec![],
+        }
+    }
+    /// A cell master, registering the cell on first use.
+    pub fn cell(&mut self, kind: CellKind) -> Master {
+        self.cells.entry(kind).or_insert_with(|| self.lib.cell(kind));
+        Master::Cell(kind)
+    }
+    pub fn add_module(&mut self, m: Module) -> Master {
+        self.modules.push(m);
+        Master::Module(self.modules.len() - 1)
+    }
+    pub fn finish(self, top: Module, dynamic: bool) -> Design {
+        let mut modules = self.modules;
+        modules.push(top);
+        Design {
+            name: self.name,
+            cells: self.cells,
+            modules,
+            dynamic,
+        }
+    }
+}
