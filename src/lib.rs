@@ -99,7 +99,9 @@ pub fn write_outputs(dir: &Path, files: &[(String, String)]) -> Result<()> {
 pub fn stale_files(dir: &Path, files: &[(String, String)]) -> Vec<String> {
     files
         .iter()
-        .filter(|(name, text)| std::fs::read_to_string(dir.join(name)).ok().as_deref() != Some(text))
+        .filter(|(name, text)| {
+            std::fs::read_to_string(dir.join(name)).ok().as_deref() != Some(text)
+        })
         .map(|(name, _)| name.clone())
         .collect()
 }

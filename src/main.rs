@@ -73,7 +73,11 @@ fn run(cli: Cli) -> Result<ExitCode> {
                 c.transistors,
                 c.cells,
                 g.check.vectors,
-                if g.check.exhaustive { " (exhaustive)" } else { "" }
+                if g.check.exhaustive {
+                    " (exhaustive)"
+                } else {
+                    ""
+                }
             );
             for (name, _) in &g.files {
                 println!("  wrote {}", out.join(name).display());

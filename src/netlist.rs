@@ -60,7 +60,11 @@ impl Module {
     /// A new net; names are unique within a module.
     pub fn net(&mut self, name: impl Into<String>) -> NetId {
         let name = name.into();
-        assert!(!self.names.contains_key(&name), "net {name} defined twice in {}", self.name);
+        assert!(
+            !self.names.contains_key(&name),
+            "net {name} defined twice in {}",
+            self.name
+        );
         let id = NetId(self.nets.len() as u32);
         self.names.insert(name.clone(), id);
         self.nets.push(Net { name, bus: None });
@@ -137,7 +141,11 @@ impl Design {
     pub fn master_dirs(&self, m: Master) -> Vec<Dir> {
         match m {
             Master::Cell(k) => self.cells[&k].pins.iter().map(|p| p.dir).collect(),
-            Master::Module(i) => self.modules[i].pin_dirs().into_iter().map(|(_, d)| d).collect(),
+            Master::Module(i) => self.modules[i]
+                .pin_dirs()
+                .into_iter()
+                .map(|(_, d)| d)
+                .collect(),
         }
     }
     /// Transistor count of a master, recursively.
@@ -333,12 +341,30 @@ impl Design {
                 visited[x as usize] = true;
                 for &(y, st) in &adj[x as usize] {
                     if !visited[y as usize] {
-                        dfs(y, inv_sum + 1.0 / st, vss, vdd, adj, visited, weakest, budget);
+                        dfs(
+                            y,
+                            inv_sum + 1.0 / st,
+                            vss,
+                            vdd,
+                            adj,
+                            visited,
+                            weakest,
+                            budget,
+                        );
                     }
                 }
                 visited[x as usize] = false;
             }
-            dfs(d, 0.0, vss, vdd, &adj, &mut visited, &mut weakest, &mut budget);
+            dfs(
+                d,
+                0.0,
+                vss,
+                vdd,
+                &adj,
+                &mut visited,
+                &mut weakest,
+                &mut budget,
+            );
             if budget == 0 {
                 return Err(Error::Check(format!(
                     "ratio check: too many pull-down paths at node {}",
@@ -454,7 +480,9 @@ impl<'a> DesignBuilder<'a> {
     }
     /// A cell master, registering the cell on first use.
     pub fn cell(&mut self, kind: CellKind) -> Master {
-        self.cells.entry(kind).or_insert_with(|| self.lib.cell(kind));
+        self.cells
+            .entry(kind)
+            .or_insert_with(|| self.lib.cell(kind));
         Master::Cell(kind)
     }
     pub fn add_module(&mut self, m: Module) -> Master {

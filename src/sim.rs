@@ -53,7 +53,11 @@ impl Evaluator {
                 Dir::Out => outputs.push(g),
             }
         }
-        let width = top.ports.iter().find(|p| p.name == "a").map_or(0, |p| p.bits.len());
+        let width = top
+            .ports
+            .iter()
+            .find(|p| p.name == "a")
+            .map_or(0, |p| p.bits.len());
         Ok(Evaluator {
             ops,
             values: vec![0; values_len as usize],
@@ -207,7 +211,11 @@ pub fn check(
     } else {
         (vectors::directed(w).len() + random) as u64
     };
-    let directed = if exhaustive { vec![] } else { vectors::directed(w) };
+    let directed = if exhaustive {
+        vec![]
+    } else {
+        vectors::directed(w)
+    };
     let mut rng = vectors::Rng::new(seed);
     let mask = vectors::mask(w);
     let vector_at = |i: u64, rng: &mut vectors::Rng| -> Vector {
@@ -241,7 +249,11 @@ pub fn check(
         let n = (total - i).min(64) as usize;
         for k in 0..64 {
             // Pad the last word by repeating its first vector.
-            lanes[k] = if k < n { vector_at(i + k as u64, &mut rng) } else { lanes[0] };
+            lanes[k] = if k < n {
+                vector_at(i + k as u64, &mut rng)
+            } else {
+                lanes[0]
+            };
         }
         let mut cin = 0u64;
         let mut cout = 0u64;
@@ -286,7 +298,9 @@ pub fn check(
                 if report.first_mismatch.is_none() {
                     let k = bad.trailing_zeros() as usize;
                     let v = &lanes[k];
-                    let got_s = (0..w).fold(0u128, |acc, bit| acc | (((outputs[bit] >> k) & 1) as u128) << bit);
+                    let got_s = (0..w).fold(0u128, |acc, bit| {
+                        acc | (((outputs[bit] >> k) & 1) as u128) << bit
+                    });
                     let got_c = (outputs[w] >> k) & 1;
                     report.first_mismatch = Some(format!(
                         "{}: a={:#x} b={:#x} cin={} gives s={:#x} cout={}, expected s={:#x} cout={}",

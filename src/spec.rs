@@ -332,10 +332,7 @@ fn validate(raw: RawSpec, src: &Source, base: &Path, opts: &LoadOptions) -> Resu
             return Err(src.error("block", format!("must be at least 1, got {b}")));
         }
         Some(b) if b as usize > width => {
-            return Err(src.error(
-                "block",
-                format!("{b} exceeds the width ({width} bits)"),
-            ));
+            return Err(src.error("block", format!("{b} exceeds the width ({width} bits)")));
         }
         Some(b) => b as usize,
     };
@@ -402,20 +399,23 @@ fn validate(raw: RawSpec, src: &Source, base: &Path, opts: &LoadOptions) -> Resu
             format!("must be between 0 and 1000000, got {random}"),
         ));
     }
-    let quantity = |key: &str, v: &Option<serde_yaml::Value>, unit: char, lo: f64, hi: f64| {
-        match v {
-            None => Ok(None),
-            Some(v) => {
-                let path = format!("testbench.{key}");
-                let x = parse_quantity(v, unit).map_err(|m| src.error(&path, m))?;
-                if !(lo..=hi).contains(&x) {
-                    return Err(src.error(
-                        &path,
-                        format!("must be between {} and {}", fmt_si(lo, unit), fmt_si(hi, unit)),
-                    ));
-                }
-                Ok(Some(x))
+    let quantity = |key: &str, v: &Option<serde_yaml::Value>, unit: char, lo: f64, hi: f64| match v
+    {
+        None => Ok(None),
+        Some(v) => {
+            let path = format!("testbench.{key}");
+            let x = parse_quantity(v, unit).map_err(|m| src.error(&path, m))?;
+            if !(lo..=hi).contains(&x) {
+                return Err(src.error(
+                    &path,
+                    format!(
+                        "must be between {} and {}",
+                        fmt_si(lo, unit),
+                        fmt_si(hi, unit)
+                    ),
+                ));
             }
+            Ok(Some(x))
         }
     };
     let load = quantity("load", &rt.load, 'F', 0.0, 10e-12)?.unwrap_or(10e-15);
@@ -423,10 +423,7 @@ fn validate(raw: RawSpec, src: &Source, base: &Path, opts: &LoadOptions) -> Resu
     let step = quantity("step", &rt.step, 's', 0.1e-12, 1e-9)?;
     if let (Some(p), Some(s)) = (period, step) {
         if s * 20.0 > p {
-            return Err(src.error(
-                "testbench.step",
-                "must be at most 1/20 of testbench.period",
-            ));
+            return Err(src.error("testbench.step", "must be at most 1/20 of testbench.period"));
         }
     }
 
@@ -552,32 +549,206 @@ fn parse_buffers(
 /// that SPICE decks treat specially (ngspice manual; common practice).
 const RESERVED: &[&str] = &[
     // IEEE 1364-2005 keywords
-    "always", "and", "assign", "automatic", "begin", "buf", "bufif0", "bufif1", "case", "casex",
-    "casez", "cell", "cmos", "config", "deassign", "default", "defparam", "design", "disable",
-    "edge", "else", "end", "endcase", "endconfig", "endfunction", "endgenerate", "endmodule",
-    "endprimitive", "endspecify", "endtable", "endtask", "event", "for", "force", "forever",
-    "fork", "function", "generate", "genvar", "highz0", "highz1", "if", "ifnone", "incdir",
-    "include", "initial", "inout", "input", "instance", "integer", "join", "large", "liblist",
-    "library", "localparam", "macromodule", "medium", "module", "nand", "negedge", "nmos",
-    "nor", "noshowcancelled", "not", "notif0", "notif1", "or", "output", "parameter", "pmos",
-    "posedge", "primitive", "pull0", "pull1", "pulldown", "pullup", "pulsestyle_onevent",
-    "pulsestyle_ondetect", "rcmos", "real", "realtime", "reg", "release", "repeat", "rnmos",
-    "rpmos", "rtran", "rtranif0", "rtranif1", "scalared", "showcancelled", "signed", "small",
-    "specify", "specparam", "strong0", "strong1", "supply0", "supply1", "table", "task", "time",
-    "tran", "tranif0", "tranif1", "tri", "tri0", "tri1", "triand", "trior", "trireg", "unsigned",
-    "use", "uwire", "vectored", "wait", "wand", "weak0", "weak1", "while", "wire", "wor", "xnor",
+    "always",
+    "and",
+    "assign",
+    "automatic",
+    "begin",
+    "buf",
+    "bufif0",
+    "bufif1",
+    "case",
+    "casex",
+    "casez",
+    "cell",
+    "cmos",
+    "config",
+    "deassign",
+    "default",
+    "defparam",
+    "design",
+    "disable",
+    "edge",
+    "else",
+    "end",
+    "endcase",
+    "endconfig",
+    "endfunction",
+    "endgenerate",
+    "endmodule",
+    "endprimitive",
+    "endspecify",
+    "endtable",
+    "endtask",
+    "event",
+    "for",
+    "force",
+    "forever",
+    "fork",
+    "function",
+    "generate",
+    "genvar",
+    "highz0",
+    "highz1",
+    "if",
+    "ifnone",
+    "incdir",
+    "include",
+    "initial",
+    "inout",
+    "input",
+    "instance",
+    "integer",
+    "join",
+    "large",
+    "liblist",
+    "library",
+    "localparam",
+    "macromodule",
+    "medium",
+    "module",
+    "nand",
+    "negedge",
+    "nmos",
+    "nor",
+    "noshowcancelled",
+    "not",
+    "notif0",
+    "notif1",
+    "or",
+    "output",
+    "parameter",
+    "pmos",
+    "posedge",
+    "primitive",
+    "pull0",
+    "pull1",
+    "pulldown",
+    "pullup",
+    "pulsestyle_onevent",
+    "pulsestyle_ondetect",
+    "rcmos",
+    "real",
+    "realtime",
+    "reg",
+    "release",
+    "repeat",
+    "rnmos",
+    "rpmos",
+    "rtran",
+    "rtranif0",
+    "rtranif1",
+    "scalared",
+    "showcancelled",
+    "signed",
+    "small",
+    "specify",
+    "specparam",
+    "strong0",
+    "strong1",
+    "supply0",
+    "supply1",
+    "table",
+    "task",
+    "time",
+    "tran",
+    "tranif0",
+    "tranif1",
+    "tri",
+    "tri0",
+    "tri1",
+    "triand",
+    "trior",
+    "trireg",
+    "unsigned",
+    "use",
+    "uwire",
+    "vectored",
+    "wait",
+    "wand",
+    "weak0",
+    "weak1",
+    "while",
+    "wire",
+    "wor",
+    "xnor",
     "xor",
     // SystemVerilog words that tools reject as names (common practice)
-    "bit", "logic", "byte", "int", "shortint", "longint", "string", "class", "interface",
-    "package", "program", "property", "sequence", "type", "void", "enum", "struct", "union",
-    "typedef", "import", "export", "final", "unique", "priority", "alias", "chandle", "const",
-    "context", "cover", "dist", "do", "extends", "extern", "local", "new", "null", "packed",
-    "protected", "pure", "rand", "randc", "ref", "return", "static", "super", "this", "var",
-    "virtual", "with",
+    "bit",
+    "logic",
+    "byte",
+    "int",
+    "shortint",
+    "longint",
+    "string",
+    "class",
+    "interface",
+    "package",
+    "program",
+    "property",
+    "sequence",
+    "type",
+    "void",
+    "enum",
+    "struct",
+    "union",
+    "typedef",
+    "import",
+    "export",
+    "final",
+    "unique",
+    "priority",
+    "alias",
+    "chandle",
+    "const",
+    "context",
+    "cover",
+    "dist",
+    "do",
+    "extends",
+    "extern",
+    "local",
+    "new",
+    "null",
+    "packed",
+    "protected",
+    "pure",
+    "rand",
+    "randc",
+    "ref",
+    "return",
+    "static",
+    "super",
+    "this",
+    "var",
+    "virtual",
+    "with",
     // SPICE / ngspice words (ngspice manual)
-    "subckt", "ends", "model", "control", "endc", "param", "lib", "endl", "tran", "op", "dc",
-    "ac", "meas", "measure", "print", "plot", "run", "quit", "options", "option", "global",
-    "temp", "gnd", "vdd", "vss",
+    "subckt",
+    "ends",
+    "model",
+    "control",
+    "endc",
+    "param",
+    "lib",
+    "endl",
+    "tran",
+    "op",
+    "dc",
+    "ac",
+    "meas",
+    "measure",
+    "print",
+    "plot",
+    "run",
+    "quit",
+    "options",
+    "option",
+    "global",
+    "temp",
+    "gnd",
+    "vdd",
+    "vss",
 ];
 
 /// A name is a plain identifier, not a keyword of either view, short enough for tools.
@@ -641,7 +812,11 @@ pub fn parse_quantity(v: &serde_yaml::Value, unit: char) -> std::result::Result<
                 .ok_or_else(|| "not a finite number".to_string())
         }
         serde_yaml::Value::String(s) => s.trim().to_string(),
-        _ => return Err(format!("expected a number with an optional suffix such as 10f or 5n")),
+        _ => {
+            return Err(format!(
+                "expected a number with an optional suffix such as 10f or 5n"
+            ))
+        }
     };
     let lower = text.to_ascii_lowercase();
     let unit_l = unit.to_ascii_lowercase();
@@ -674,7 +849,14 @@ pub fn fmt_si(x: f64, unit: char) -> String {
     if x == 0.0 {
         return "0".into();
     }
-    let table = [(1e-15, "f"), (1e-12, "p"), (1e-9, "n"), (1e-6, "u"), (1e-3, "m"), (1.0, "")];
+    let table = [
+        (1e-15, "f"),
+        (1e-12, "p"),
+        (1e-9, "n"),
+        (1e-6, "u"),
+        (1e-3, "m"),
+        (1.0, ""),
+    ];
     let mut best = table[0];
     for t in table {
         if x.abs() >= t.0 * 0.9999999 {

@@ -218,7 +218,10 @@ pub fn load_file(path: &Path, opts: &LoadOptions) -> Result<Technology> {
             _ => base.join(p),
         };
         let abs = full.canonicalize().map_err(|e| {
-            src.error(key, format!("model file {}: {e}", crate::spec::printable(p)))
+            src.error(
+                key,
+                format!("model file {}: {e}", crate::spec::printable(p)),
+            )
         })?;
         let s = abs.to_string_lossy().to_string();
         check_path_text(&s).map_err(|m| src.error(key, m))?;
@@ -231,10 +234,16 @@ pub fn load_file(path: &Path, opts: &LoadOptions) -> Result<Technology> {
     let mut lib = vec![];
     for (i, l) in raw.lib.iter().enumerate() {
         check_identifier(&l.section).map_err(|m| src.error(&format!("lib[{i}].section"), m))?;
-        lib.push((resolve(&format!("lib[{i}].file"), &l.file)?, l.section.clone()));
+        lib.push((
+            resolve(&format!("lib[{i}].file"), &l.file)?,
+            l.section.clone(),
+        ));
     }
     Ok(Technology {
-        origin: format!("technology file `{}` (models as the file names them)", raw.name),
+        origin: format!(
+            "technology file `{}` (models as the file names them)",
+            raw.name
+        ),
         name: raw.name,
         vdd: raw.vdd,
         l_min: raw.l_min,

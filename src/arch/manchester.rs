@@ -93,7 +93,11 @@ pub fn build(spec: &Spec, lib: &Library, dynamic: bool) -> Design {
             }
         }
     }
-    let out = d.cell(if true_carry { CellKind::Buf } else { CellKind::Inv });
+    let out = d.cell(if true_carry {
+        CellKind::Buf
+    } else {
+        CellKind::Inv
+    });
     top.inst("xcout", out, vec![carry, t.cout]);
     d.finish(top, dynamic)
 }
@@ -116,10 +120,16 @@ fn block_module(
     };
     let mut m = Module::new(format!("{name}_blk{size}_{suffix}"));
     let clk = dynamic.then(|| m.port("clk", Dir::In));
-    let a: Vec<_> = (0..size).map(|j| m.port(&format!("a{j}"), Dir::In)).collect();
-    let b: Vec<_> = (0..size).map(|j| m.port(&format!("b{j}"), Dir::In)).collect();
+    let a: Vec<_> = (0..size)
+        .map(|j| m.port(&format!("a{j}"), Dir::In))
+        .collect();
+    let b: Vec<_> = (0..size)
+        .map(|j| m.port(&format!("b{j}"), Dir::In))
+        .collect();
     let ci = m.port("ci", Dir::In);
-    let s: Vec<_> = (0..size).map(|j| m.port(&format!("s{j}"), Dir::Out)).collect();
+    let s: Vec<_> = (0..size)
+        .map(|j| m.port(&format!("s{j}"), Dir::Out))
+        .collect();
     let co = m.port("co", Dir::Out);
 
     let (pg, chain, sum) = match (dynamic, true_carry) {
@@ -132,7 +142,11 @@ fn block_module(
             },
             CellKind::SumInverted,
         ),
-        (false, false) => (CellKind::PgInverted, CellKind::ChainInverted, CellKind::SumInverted),
+        (false, false) => (
+            CellKind::PgInverted,
+            CellKind::ChainInverted,
+            CellKind::SumInverted,
+        ),
         (false, true) => (CellKind::PgTrue, CellKind::ChainTrue, CellKind::SumTrue),
     };
     let (pg, chain, sum) = (d.cell(pg), d.cell(chain), d.cell(sum));
@@ -146,7 +160,11 @@ fn block_module(
         if dynamic {
             let (g, p) = (m.net(format!("g{j}")), m.net(format!("p{j}")));
             m.inst(format!("xpg{j}"), pg, vec![a[j], b[j], g, p]);
-            m.inst(format!("xmc{j}"), chain, vec![clk.unwrap(), prev, g, p, node]);
+            m.inst(
+                format!("xmc{j}"),
+                chain,
+                vec![clk.unwrap(), prev, g, p, node],
+            );
             m.inst(format!("xsum{j}"), sum, vec![p, prev, s[j]]);
         } else {
             let (gx, kx) = if true_carry {

@@ -16,7 +16,11 @@ pub fn build(spec: &Spec, lib: &Library) -> Design {
         } else {
             top.net(format!("c{}", i + 1))
         };
-        top.inst(format!("xfa{i}"), fa, vec![t.a[i], t.b[i], carry, t.s[i], next]);
+        top.inst(
+            format!("xfa{i}"),
+            fa,
+            vec![t.a[i], t.b[i], carry, t.s[i], next],
+        );
         carry = next;
     }
     d.finish(top, false)

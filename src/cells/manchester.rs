@@ -91,7 +91,12 @@ pub fn pg_dynamic(s: &Sizes) -> Cell {
         kind: CellKind::PgDynamic,
         base: "pg_d",
         summary: "generate/propagate, dynamic chain",
-        pins: pins(&[("a", In, false), ("b", In, false), ("g", Out, false), ("p", Out, false)]),
+        pins: pins(&[
+            ("a", In, false),
+            ("b", In, false),
+            ("g", Out, false),
+            ("p", Out, false),
+        ]),
         logic: vec![(2, and(vec![a.clone(), b.clone()])), (3, xor(vec![a, b]))],
         devices: sch.devices,
         care: None,

@@ -236,7 +236,17 @@ impl<'a> Schematic<'a> {
             devices: vec![],
         }
     }
-    fn push(&mut self, name: &str, mos: Mos, d: &str, g: &str, s: &str, w: f64, l: f64, role: Role) {
+    fn push(
+        &mut self,
+        name: &str,
+        mos: Mos,
+        d: &str,
+        g: &str,
+        s: &str,
+        w: f64,
+        l: f64,
+        role: Role,
+    ) {
         let prefix = match mos {
             Mos::N => "mn",
             Mos::P => "mp",

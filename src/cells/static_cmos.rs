@@ -86,7 +86,10 @@ pub fn mirror_full_adder(s: &Sizes) -> Cell {
             (3, xor(vec![a.clone(), b.clone(), ci.clone()])),
             (
                 4,
-                or(vec![and(vec![a.clone(), b.clone()]), and(vec![ci, or(vec![a, b])])]),
+                or(vec![
+                    and(vec![a.clone(), b.clone()]),
+                    and(vec![ci, or(vec![a, b])]),
+                ]),
             ),
         ],
         devices: sch.devices,

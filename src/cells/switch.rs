@@ -24,7 +24,11 @@ pub fn settle(
             }
         }
     }
-    let idx: HashMap<&str, usize> = names.iter().enumerate().map(|(i, n)| (n.as_str(), i)).collect();
+    let idx: HashMap<&str, usize> = names
+        .iter()
+        .enumerate()
+        .map(|(i, n)| (n.as_str(), i))
+        .collect();
     let n = names.len();
     let mut fixed: Vec<Option<bool>> = vec![None; n];
     fixed[0] = Some(true);
@@ -38,7 +42,15 @@ pub fn settle(
     let devs: Vec<(usize, usize, usize, Mos, bool)> = cell
         .devices
         .iter()
-        .map(|d| (idx[d.d.as_str()], idx[d.g.as_str()], idx[d.s.as_str()], d.mos, d.role == Role::Keeper))
+        .map(|d| {
+            (
+                idx[d.d.as_str()],
+                idx[d.g.as_str()],
+                idx[d.s.as_str()],
+                d.mos,
+                d.role == Role::Keeper,
+            )
+        })
         .collect();
     for _round in 0..4 * n {
         let on = |g: Option<bool>, m: Mos| match (m, g) {
@@ -78,7 +90,10 @@ pub fn settle(
                 }
             }
             if hi && lo {
-                return Err(format!("node {} is driven high and low at once", names[start]));
+                return Err(format!(
+                    "node {} is driven high and low at once",
+                    names[start]
+                ));
             }
             let v = if hi {
                 Some(true)
@@ -122,7 +137,8 @@ pub fn verify(cell: &Cell) -> Result<usize, String> {
                 continue;
             }
         }
-        let mut inputs: HashMap<&str, bool> = ins.iter().map(|&i| (cell.pins[i].name, bit(i))).collect();
+        let mut inputs: HashMap<&str, bool> =
+            ins.iter().map(|&i| (cell.pins[i].name, bit(i))).collect();
         let mut charge = HashMap::new();
         if let Some(clk) = cell.clock {
             if !bit(clk) {
@@ -137,10 +153,20 @@ pub fn verify(cell: &Cell) -> Result<usize, String> {
             }
             charge = settle(cell, &pre, &HashMap::new())?;
             for (out, f) in &cell.logic {
-                let want = f.eval(&|p| if p == clk { false } else { pre[cell.pins[p].name] });
+                let want = f.eval(&|p| {
+                    if p == clk {
+                        false
+                    } else {
+                        pre[cell.pins[p].name]
+                    }
+                });
                 let name = cell.pins[*out].name;
                 if charge.get(name) != Some(&want) {
-                    return Err(format!("{}: precharge gives {name} = {:?}, logic says {want}", cell.base, charge.get(name)));
+                    return Err(format!(
+                        "{}: precharge gives {name} = {:?}, logic says {want}",
+                        cell.base,
+                        charge.get(name)
+                    ));
                 }
             }
             inputs.insert(cell.pins[clk].name, true);

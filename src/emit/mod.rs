@@ -20,10 +20,22 @@ fn tera() -> &'static Tera {
         let mut t = Tera::default();
         t.autoescape_on(vec![]);
         t.add_raw_templates(vec![
-            ("verilog/design.v", include_str!("../../templates/verilog/design.v.tera")),
-            ("verilog/testbench.v", include_str!("../../templates/verilog/testbench.v.tera")),
-            ("spice/cells.sp", include_str!("../../templates/spice/cells.sp.tera")),
-            ("spice/deck.sp", include_str!("../../templates/spice/deck.sp.tera")),
+            (
+                "verilog/design.v",
+                include_str!("../../templates/verilog/design.v.tera"),
+            ),
+            (
+                "verilog/testbench.v",
+                include_str!("../../templates/verilog/testbench.v.tera"),
+            ),
+            (
+                "spice/cells.sp",
+                include_str!("../../templates/spice/cells.sp.tera"),
+            ),
+            (
+                "spice/deck.sp",
+                include_str!("../../templates/spice/deck.sp.tera"),
+            ),
         ])
         .expect("the built-in templates parse");
         t
@@ -84,7 +96,10 @@ pub fn render_all(spec: &Spec, design: &Design) -> Result<Vec<(String, String)>>
         (format!("{n}_tb.v"), verilog::testbench(spec, &plan)?),
         (format!("{n}.sp"), spice::subcircuits(spec, design)?),
         (format!("{n}_tb.sp"), spice::deck(spec, design, &deck)?),
-        (format!("{n}.json"), summary::json(spec, design, &plan, &deck)?),
+        (
+            format!("{n}.json"),
+            summary::json(spec, design, &plan, &deck)?,
+        ),
     ])
 }
 

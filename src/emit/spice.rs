@@ -56,10 +56,17 @@ fn um(x: f64) -> String {
 /// Pin names of a master in connection order, plus the supplies.
 fn pin_words(design: &Design, master: Master) -> Vec<String> {
     let mut out: Vec<String> = match master {
-        Master::Cell(k) => design.cells[&k].pins.iter().map(|p| p.name.to_string()).collect(),
+        Master::Cell(k) => design.cells[&k]
+            .pins
+            .iter()
+            .map(|p| p.name.to_string())
+            .collect(),
         Master::Module(i) => {
             let m = &design.modules[i];
-            m.pin_dirs().iter().map(|(id, _)| m.net_name(*id).to_string()).collect()
+            m.pin_dirs()
+                .iter()
+                .map(|(id, _)| m.net_name(*id).to_string())
+                .collect()
         }
     };
     out.push("vdd".into());
@@ -75,7 +82,12 @@ pub fn subcircuits(spec: &Spec, design: &Design) -> Result<String> {
         .values()
         .map(|c| CellCtx {
             name: format!("{}_{}", design.name, c.base),
-            comment: format!("cell {}: {} ({} transistors)", c.base, c.summary, c.devices.len()),
+            comment: format!(
+                "cell {}: {} ({} transistors)",
+                c.base,
+                c.summary,
+                c.devices.len()
+            ),
             pins: c.pins.iter().map(|p| p.name).collect::<Vec<_>>().join(" "),
             devices: c
                 .devices
@@ -130,7 +142,9 @@ pub fn subcircuits(spec: &Spec, design: &Design) -> Result<String> {
                         w.push("vdd".into());
                         w.push("vss".into());
                         w.push(design.master_name(inst.master));
-                        InstCtx { lines: wrap(&w, LINE) }
+                        InstCtx {
+                            lines: wrap(&w, LINE),
+                        }
                     })
                     .collect(),
             }
@@ -181,8 +195,15 @@ impl DeckPlan {
         let take = n_directed + spec.testbench.random.min(DECK_RANDOM);
         let vectors: Vec<Labeled> = plan.iter().take(take).cloned().collect();
         let dynamic = spec.style == Style::Dynamic;
-        let period = spec.testbench.period.unwrap_or_else(|| default_period(spec));
-        let step = spec.testbench.step.unwrap_or(spec.technology.step).min(period / 20.0);
+        let period = spec
+            .testbench
+            .period
+            .unwrap_or_else(|| default_period(spec));
+        let step = spec
+            .testbench
+            .step
+            .unwrap_or(spec.technology.step)
+            .min(period / 20.0);
         DeckPlan {
             period,
             period_from_spec: spec.testbench.period.is_some(),
@@ -210,7 +231,11 @@ pub fn default_period(spec: &Spec) -> f64 {
             let mut cuts = vec![0];
             cuts.extend(&spec.buffers.positions);
             cuts.push(spec.width);
-            let longest = cuts.windows(2).map(|c| c[1] - c[0]).max().unwrap_or(spec.width) as f64;
+            let longest = cuts
+                .windows(2)
+                .map(|c| c[1] - c[0])
+                .max()
+                .unwrap_or(spec.width) as f64;
             0.025 * ns * longest * longest + 0.15 * ns * (cuts.len() - 1) as f64 + 1.0 * ns
         }
     };
@@ -300,7 +325,9 @@ pub fn deck(spec: &Spec, design: &Design, plan: &DeckPlan) -> Result<String> {
         let mut words = vec![format!("v{node}"), node.clone(), "0".into(), "pwl(".into()];
         words.extend(pts);
         words.push(")".into());
-        sources.push(SourceCtx { lines: wrap(&words, LINE) });
+        sources.push(SourceCtx {
+            lines: wrap(&words, LINE),
+        });
     };
     for i in 0..w {
         add_source(format!("a{i}"), &|v: &Labeled| bit(v.v.a, i));
@@ -312,7 +339,11 @@ pub fn deck(spec: &Spec, design: &Design, plan: &DeckPlan) -> Result<String> {
 
     let top = design.top();
     let mut dut = vec!["xdut".to_string()];
-    dut.extend(top.pin_dirs().iter().map(|(id, _)| top.net_name(*id).to_string()));
+    dut.extend(
+        top.pin_dirs()
+            .iter()
+            .map(|(id, _)| top.net_name(*id).to_string()),
+    );
     dut.push("vdd".into());
     dut.push("vss".into());
     dut.push(spec.name.clone());
@@ -354,8 +385,10 @@ pub fn deck(spec: &Spec, design: &Design, plan: &DeckPlan) -> Result<String> {
             .chain(lib.iter().map(|(p, sec)| format!(".lib {p} {sec}")))
             .collect(),
     };
-    let rise_td = WORST_CASE_RISE as f64 * t;
-    let fall_td = WORST_CASE_FALL as f64 * t;
+    // Start looking a little before the vector begins: a `td` exactly on the input's
+    // breakpoint can make ngspice miss the crossing.
+    let rise_td = (WORST_CASE_RISE as f64 - 0.05) * t;
+    let fall_td = (WORST_CASE_FALL as f64 - 0.05) * t;
     let ctx = DeckCtx {
         title: title(spec),
         version: VERSION,

@@ -79,7 +79,10 @@ pub fn json(spec: &Spec, design: &Design, plan: &[Labeled], deck: &DeckPlan) -> 
         style: spec.style,
         block: manchester.then_some(spec.block),
         blocks: if manchester {
-            blocks(spec.width, spec.block).into_iter().map(|(l, h)| [l, h]).collect()
+            blocks(spec.width, spec.block)
+                .into_iter()
+                .map(|(l, h)| [l, h])
+                .collect()
         } else {
             vec![]
         },

@@ -52,13 +52,34 @@ pub fn directed_labeled(width: usize) -> Vec<Labeled> {
     let alt = 0x5555_5555_5555_5555_5555_5555_5555_5555u128 & m;
     let v = |a, b, c| Vector::new(a, b, c, width);
     vec![
-        Labeled { label: "all kill", v: v(0, 0, false) },
-        Labeled { label: "all kill, carry in", v: v(0, 0, true) },
-        Labeled { label: "all propagate", v: v(alt, !alt & m, false) },
-        Labeled { label: "all propagate, carry in rises", v: v(alt, !alt & m, true) },
-        Labeled { label: "all propagate, carry in falls", v: v(alt, !alt & m, false) },
-        Labeled { label: "generate at bit 0 ripples to the top", v: v(1, m, false) },
-        Labeled { label: "all generate", v: v(m, m, true) },
+        Labeled {
+            label: "all kill",
+            v: v(0, 0, false),
+        },
+        Labeled {
+            label: "all kill, carry in",
+            v: v(0, 0, true),
+        },
+        Labeled {
+            label: "all propagate",
+            v: v(alt, !alt & m, false),
+        },
+        Labeled {
+            label: "all propagate, carry in rises",
+            v: v(alt, !alt & m, true),
+        },
+        Labeled {
+            label: "all propagate, carry in falls",
+            v: v(alt, !alt & m, false),
+        },
+        Labeled {
+            label: "generate at bit 0 ripples to the top",
+            v: v(1, m, false),
+        },
+        Labeled {
+            label: "all generate",
+            v: v(m, m, true),
+        },
     ]
 }
 
@@ -102,7 +123,10 @@ pub fn plan(width: usize, n: usize, seed: u64) -> Vec<Labeled> {
     let mut out = directed_labeled(width);
     let mut rng = Rng::new(seed);
     for _ in 0..n {
-        out.push(Labeled { label: "random", v: random_vector(&mut rng, width) });
+        out.push(Labeled {
+            label: "random",
+            v: random_vector(&mut rng, width),
+        });
     }
     out
 }

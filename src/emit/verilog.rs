@@ -75,14 +75,22 @@ fn atom(e: &Expr, pin: &dyn Fn(usize) -> String) -> String {
 }
 
 fn join(xs: &[Expr], sep: &str, pin: &dyn Fn(usize) -> String) -> String {
-    xs.iter().map(|x| atom(x, pin)).collect::<Vec<_>>().join(sep)
+    xs.iter()
+        .map(|x| atom(x, pin))
+        .collect::<Vec<_>>()
+        .join(sep)
 }
 
 fn cell_module(design: &Design, c: &Cell) -> ModuleCtx {
     let pin = |i: usize| c.pins[i].name.to_string();
     ModuleCtx {
         name: format!("{}_{}", design.name, c.base),
-        comment: format!("cell {}: {} ({} transistors)", c.base, c.summary, c.devices.len()),
+        comment: format!(
+            "cell {}: {} ({} transistors)",
+            c.base,
+            c.summary,
+            c.devices.len()
+        ),
         port_list: c.pins.iter().map(|p| p.name).collect::<Vec<_>>().join(", "),
         ports: c
             .pins
@@ -117,26 +125,52 @@ fn net_ref(m: &Module, id: NetId) -> String {
 
 fn pin_names(design: &Design, master: Master) -> Vec<String> {
     match master {
-        Master::Cell(k) => design.cells[&k].pins.iter().map(|p| p.name.to_string()).collect(),
+        Master::Cell(k) => design.cells[&k]
+            .pins
+            .iter()
+            .map(|p| p.name.to_string())
+            .collect(),
         Master::Module(i) => {
             let m = &design.modules[i];
-            m.pin_dirs().iter().map(|(id, _)| m.net_name(*id).to_string()).collect()
+            m.pin_dirs()
+                .iter()
+                .map(|(id, _)| m.net_name(*id).to_string())
+                .collect()
         }
     }
 }
 
 fn module(design: &Design, m: &Module, is_top: bool) -> ModuleCtx {
-    let port_nets: std::collections::HashSet<NetId> =
-        m.ports.iter().flat_map(|p| p.bits.iter().copied()).collect();
+    let port_nets: std::collections::HashSet<NetId> = m
+        .ports
+        .iter()
+        .flat_map(|p| p.bits.iter().copied())
+        .collect();
     ModuleCtx {
         name: m.name.clone(),
         comment: if is_top {
-            format!("top: {} transistors", design.transistors(Master::Module(design.modules.len() - 1)))
+            format!(
+                "top: {} transistors",
+                design.transistors(Master::Module(design.modules.len() - 1))
+            )
         } else {
-            let i = design.modules.iter().position(|x| x.name == m.name).unwrap_or(0);
-            format!("block {}: {} transistors", m.name, design.transistors(Master::Module(i)))
+            let i = design
+                .modules
+                .iter()
+                .position(|x| x.name == m.name)
+                .unwrap_or(0);
+            format!(
+                "block {}: {} transistors",
+                m.name,
+                design.transistors(Master::Module(i))
+            )
         },
-        port_list: m.ports.iter().map(|p| p.name.clone()).collect::<Vec<_>>().join(", "),
+        port_list: m
+            .ports
+            .iter()
+            .map(|p| p.name.clone())
+            .collect::<Vec<_>>()
+            .join(", "),
         ports: m
             .ports
             .iter()
@@ -176,7 +210,11 @@ fn module(design: &Design, m: &Module, is_top: bool) -> ModuleCtx {
 
 /// `NAME.v`: cells, blocks, top.
 pub fn design(spec: &Spec, design: &Design) -> Result<String> {
-    let mut modules: Vec<ModuleCtx> = design.cells.values().map(|c| cell_module(design, c)).collect();
+    let mut modules: Vec<ModuleCtx> = design
+        .cells
+        .values()
+        .map(|c| cell_module(design, c))
+        .collect();
     let last = design.modules.len() - 1;
     for (i, m) in design.modules.iter().enumerate() {
         modules.push(module(design, m, i == last));

@@ -1,0 +1,181 @@
+//! Shared helpers for the tests that run outside tools (Icarus Verilog, Verilator, Yosys,
+//! ngspice). A missing tool skips the test with a printed reason, unless
+//! CARRYWRIGHT_REQUIRE_TOOLS=1 (set by scripts/test.sh and CI), which turns the skip into a
+//! failure.
+#![allow(dead_code)]
+
+use carrywright::spec::{self, LoadOptions};
+use std::path::{Path, PathBuf};
+use std::process::Command;
+
+pub const REQUIRE_ENV: &str = "CARRYWRIGHT_REQUIRE_TOOLS";
+
+fn required() -> bool {
+    std::env::var(REQUIRE_ENV)
+        .map(|v| v == "1")
+        .unwrap_or(false)
+}
+
+/// Skip (print why and return false) or fail when a prerequisite is missing.
+pub fn prerequisite(ok: bool, what: &str) -> bool {
+    if ok {
+        return true;
+    }
+    if required() {
+        panic!("{what} is missing and {REQUIRE_ENV}=1 forbids skipping");
+    }
+    eprintln!("SKIPPED: {what} is missing (install it with scripts/install-tools.sh, or run scripts/test.sh)");
+    false
+}
+
+/// The tool is an executable file on PATH.
+pub fn have(tool: &str) -> bool {
+    std::env::var_os("PATH")
+        .map(|paths| std::env::split_paths(&paths).any(|d| d.join(tool).is_file()))
+        .unwrap_or(false)
+}
+
+/// The tools are present (or the test is skipped / failed with a reason).
+pub fn tools(list: &[&str]) -> bool {
+    list.iter()
+        .all(|t| prerequisite(have(t), &format!("`{t}`")))
+}
+
+/// The GF180MCU model folder from CARRYWRIGHT_MODEL_DIR, if present.
+pub fn model_dir() -> Option<PathBuf> {
+    let dir = std::env::var_os("CARRYWRIGHT_MODEL_DIR").map(PathBuf::from);
+    let ok = dir
+        .as_ref()
+        .map(|d| d.join("design.ngspice").is_file() && d.join("sm141064.ngspice").is_file())
+        .unwrap_or(false);
+    if prerequisite(ok, "the GF180MCU model folder (CARRYWRIGHT_MODEL_DIR)") {
+        dir
+    } else {
+        None
+    }
+}
+
+/// Generate a spec's files into a fresh temporary folder through the library API.
+pub fn generate(
+    yaml: &str,
+    model_dir: Option<PathBuf>,
+) -> (
+    tempfile::TempDir,
+    carrywright::Generated,
+    carrywright::spec::Spec,
+) {
+    let s = spec::parse(
+        yaml,
+        "test-spec",
+        Path::new("."),
+        &LoadOptions { model_dir },
+    )
+    .unwrap_or_else(|e| panic!("spec refused: {e}\n{yaml}"));
+    let g = carrywright::generate(&s).unwrap_or_else(|e| panic!("generate failed: {e}\n{yaml}"));
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("out");
+    carrywright::write_outputs(&out, &g.files).unwrap();
+    (dir, g, s)
+}
+
+pub fn run(cmd: &mut Command) -> (bool, String) {
+    let o = cmd
+        .output()
+        .unwrap_or_else(|e| panic!("cannot start {cmd:?}: {e}"));
+    let text = format!(
+        "{}{}",
+        String::from_utf8_lossy(&o.stdout),
+        String::from_utf8_lossy(&o.stderr)
+    );
+    (o.status.success(), text)
+}
+
+/// Icarus Verilog runs the generated self-checking testbench (IEEE 1364-2005).
+pub fn icarus(out: &Path, name: &str) -> String {
+    let vvp = out.join(format!("{name}.vvp"));
+    let (ok, log) = run(Command::new("iverilog")
+        .args(["-g2005", "-o"])
+        .arg(&vvp)
+        .args(["-s", &format!("{name}_tb")])
+        .arg(out.join(format!("{name}_tb.v")))
+        .arg(out.join(format!("{name}.v"))));
+    assert!(ok, "iverilog failed to compile {name}:\n{log}");
+    let (ok, log) = run(Command::new("vvp").arg("-n").arg(&vvp));
+    assert!(
+        ok && log.contains(&format!("PASS {name}")),
+        "Icarus testbench of {name} failed:\n{log}"
+    );
+    log
+}
+
+/// Verilator --lint-only -Wall is clean (EDA-RECIPES: -Wno-DECLFILENAME for multi-module files).
+pub fn verilator(out: &Path, name: &str) {
+    let (ok, log) = run(Command::new("verilator")
+        .args([
+            "--lint-only",
+            "-Wall",
+            "-Wno-DECLFILENAME",
+            "--top-module",
+            name,
+        ])
+        .arg(out.join(format!("{name}.v"))));
+    assert!(
+        ok && !log.contains("%Warning"),
+        "Verilator lint of {name} is not clean:\n{log}"
+    );
+}
+
+/// Yosys proves the netlist equal to `a + b + cin` with IEEE 1364-2005 semantics of `+`.
+/// Dynamic designs are proved in evaluate, with clk held high.
+pub fn yosys_equiv(out: &Path, name: &str, width: usize, dynamic: bool) {
+    let w = width;
+    let mut src = format!(
+        "module ref_add(a, b, cin, s, cout);\n  input [{m}:0] a;\n  input [{m}:0] b;\n  input cin;\n  output [{m}:0] s;\n  output cout;\n  assign {{cout, s}} = {{1'b0, a}} + {{1'b0, b}} + {{{w}'b0, cin}};\nendmodule\n",
+        m = w - 1
+    );
+    let gate = if dynamic {
+        src.push_str(&format!(
+            "module eval_add(a, b, cin, s, cout);\n  input [{m}:0] a;\n  input [{m}:0] b;\n  input cin;\n  output [{m}:0] s;\n  output cout;\n  {name} xdut(.clk(1'b1), .a(a), .b(b), .cin(cin), .s(s), .cout(cout));\nendmodule\n",
+            m = w - 1
+        ));
+        "eval_add".to_string()
+    } else {
+        name.to_string()
+    };
+    let refv = out.join("ref_add.v");
+    std::fs::write(&refv, src).unwrap();
+    let script = format!(
+        "read_verilog {}; read_verilog {}; proc; equiv_make ref_add {gate} eq; hierarchy -top eq; flatten; equiv_simple; equiv_induct; equiv_status -assert",
+        refv.display(),
+        out.join(format!("{name}.v")).display()
+    );
+    let (ok, log) = run(Command::new("yosys").args(["-q", "-p", &script]));
+    assert!(
+        ok,
+        "Yosys could not prove {name} equal to a + b + cin:\n{log}"
+    );
+}
+
+/// Values printed by the deck's `print` lines: `name = value`.
+pub fn printed(log: &str) -> std::collections::BTreeMap<String, f64> {
+    log.lines()
+        .filter_map(|l| {
+            let (k, v) = l.split_once(" = ")?;
+            let k = k.trim();
+            if k.contains(' ') {
+                return None;
+            }
+            Some((k.to_string(), v.trim().parse::<f64>().ok()?))
+        })
+        .collect()
+}
+
+/// Run a generated deck in ngspice from another working folder (the deck's `.include` of
+/// NAME.sp must resolve next to the deck).
+pub fn ngspice(out: &Path, name: &str) -> (bool, String) {
+    let cwd = out.parent().unwrap();
+    run(Command::new("ngspice")
+        .current_dir(cwd)
+        .arg("-b")
+        .arg(out.join(format!("{name}_tb.sp"))))
+}

