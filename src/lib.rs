@@ -12,6 +12,7 @@ pub mod cells;
 pub mod emit;
 pub mod error;
 pub mod netlist;
+pub mod ratio;
 pub mod sim;
 pub mod spec;
 pub mod tech;

@@ -46,6 +46,14 @@ enum Command {
     },
 }
 
+/// Print to stdout, ignoring a closed pipe (`carrywright check x | head`).
+macro_rules! say {
+    ($($t:tt)*) => {{
+        use std::io::Write;
+        let _ = writeln!(std::io::stdout(), $($t)*);
+    }};
+}
+
 fn run(cli: Cli) -> Result<ExitCode> {
     match cli.command {
         Command::Generate {
@@ -59,16 +67,16 @@ fn run(cli: Cli) -> Result<ExitCode> {
             if check {
                 let stale = carrywright::stale_files(&out, &g.files);
                 if stale.is_empty() {
-                    println!("{}: up to date ({} files)", out.display(), g.files.len());
+                    say!("{}: up to date ({} files)", out.display(), g.files.len());
                     return Ok(ExitCode::SUCCESS);
                 }
-                println!("{}: stale: {}", out.display(), stale.join(" "));
+                say!("{}: stale: {}", out.display(), stale.join(" "));
                 return Ok(ExitCode::from(1));
             }
             carrywright::write_outputs(&out, &g.files)?;
             let c = emit::summary::counts(&g.design);
-            println!("{}: {}", s.name, emit::title(&s));
-            println!(
+            say!("{}: {}", s.name, emit::title(&s));
+            say!(
                 "  {} transistors, {} cells; logic check passed on {} vectors{}",
                 c.transistors,
                 c.cells,
@@ -80,7 +88,7 @@ fn run(cli: Cli) -> Result<ExitCode> {
                 }
             );
             for (name, _) in &g.files {
-                println!("  wrote {}", out.join(name).display());
+                say!("  wrote {}", out.join(name).display());
             }
             Ok(ExitCode::SUCCESS)
         }
@@ -98,13 +106,13 @@ fn run(cli: Cli) -> Result<ExitCode> {
             let s = spec::load(&spec, &LoadOptions { model_dir })?;
             let design = carrywright::build(&s)?;
             let c = emit::summary::counts(&design);
-            println!("{}: {}", s.name, emit::title(&s));
-            println!("  {:<12} {:>12}", "transistors", c.transistors);
-            println!("  {:<12} {:>12}", "cells", c.cells);
+            say!("{}: {}", s.name, emit::title(&s));
+            say!("  {:<12} {:>12}", "transistors", c.transistors);
+            say!("  {:<12} {:>12}", "cells", c.cells);
             for (k, n) in &c.cells_by_kind {
-                println!("    {:<10} {:>12}", k, n);
+                say!("    {:<10} {:>12}", k, n);
             }
-            println!(
+            say!(
                 "  {:<12} {:>12}   one driver per net, no floating input, ratio rule",
                 "structure", "ok"
             );
@@ -120,13 +128,13 @@ fn run(cli: Cli) -> Result<ExitCode> {
                 ""
             };
             if r.mismatches == 0 {
-                println!(
+                say!(
                     "  {:<12} {:>12}   {} vectors ({how}{phases}) against a + b + cin",
                     "logic", "ok", r.vectors
                 );
                 Ok(ExitCode::SUCCESS)
             } else {
-                println!(
+                say!(
                     "  {:<12} {:>12}   {} wrong output bits over {} vectors; first: {}",
                     "logic",
                     "FAILED",

@@ -1,7 +1,7 @@
 //! The netlist IR that every view renders: modules with ports, scalar nets and instances of
 //! cells or other modules, plus the structural checks that run before anything is written.
 
-use crate::cells::{Cell, CellKind, Dir, Library, Mos, Role};
+use crate::cells::{Cell, CellKind, Dir, Library};
 use crate::error::{Error, Result};
 use std::collections::{BTreeMap, HashMap};
 
@@ -267,127 +267,8 @@ impl Design {
         Ok(())
     }
 
-    /// Ratio rule (common practice): where a keeper holds a node, every pull-down path that
-    /// must discharge that node is stronger (series W/L) than the keeper (W/L).
     fn check_ratio(&self, flat: &Flat) -> Result<()> {
-        // Flatten to devices over global nodes.
-        let mut devs: Vec<(u32, u32, u32, Mos, Role, f64)> = vec![];
-        let mut node_names = flat.names.clone();
-        let vss = node_names.len() as u32;
-        node_names.push("vss".into());
-        let vdd = node_names.len() as u32;
-        node_names.push("vdd".into());
-        for leaf in &flat.leaves {
-            let cell = &self.cells[&leaf.kind];
-            let mut local: HashMap<String, u32> = HashMap::new();
-            for (p, &g) in cell.pins.iter().zip(&leaf.nets) {
-                local.insert(p.name.to_string(), g);
-            }
-            local.insert("vss".into(), vss);
-            local.insert("vdd".into(), vdd);
-            let mut node = |n: &str, names: &mut Vec<String>| -> u32 {
-                *local.entry(n.to_string()).or_insert_with(|| {
-                    names.push(format!("{}.{n}", leaf.path));
-                    (names.len() - 1) as u32
-                })
-            };
-            for d in &cell.devices {
-                let dn = node(&d.d, &mut node_names);
-                let sn = node(&d.s, &mut node_names);
-                let gn = node(&d.g, &mut node_names);
-                devs.push((dn, gn, sn, d.mos, d.role, d.strength()));
-            }
-        }
-        let n_nodes = node_names.len();
-        let mut adj: Vec<Vec<(u32, f64)>> = vec![vec![]; n_nodes];
-        for &(d, _, s, m, role, st) in &devs {
-            if m == Mos::N && role != Role::Keeper {
-                adj[d as usize].push((s, st));
-                adj[s as usize].push((d, st));
-            }
-        }
-        for &(d, _, _, m, role, st) in &devs {
-            if m != Mos::P || role != Role::Keeper {
-                continue;
-            }
-            // Weakest simple NMOS path from the kept node to vss (series conductance).
-            let mut weakest: Option<f64> = None;
-            let mut visited = vec![false; n_nodes];
-            let mut budget = 100_000usize;
-            fn dfs(
-                x: u32,
-                inv_sum: f64,
-                vss: u32,
-                vdd: u32,
-                adj: &[Vec<(u32, f64)>],
-                visited: &mut [bool],
-                weakest: &mut Option<f64>,
-                budget: &mut usize,
-            ) {
-                if *budget == 0 {
-                    return;
-                }
-                *budget -= 1;
-                if x == vss {
-                    let s = 1.0 / inv_sum;
-                    if weakest.map_or(true, |w| s < w) {
-                        *weakest = Some(s);
-                    }
-                    return;
-                }
-                if x == vdd {
-                    return;
-                }
-                visited[x as usize] = true;
-                for &(y, st) in &adj[x as usize] {
-                    if !visited[y as usize] {
-                        dfs(
-                            y,
-                            inv_sum + 1.0 / st,
-                            vss,
-                            vdd,
-                            adj,
-                            visited,
-                            weakest,
-                            budget,
-                        );
-                    }
-                }
-                visited[x as usize] = false;
-            }
-            dfs(
-                d,
-                0.0,
-                vss,
-                vdd,
-                &adj,
-                &mut visited,
-                &mut weakest,
-                &mut budget,
-            );
-            if budget == 0 {
-                return Err(Error::Check(format!(
-                    "ratio check: too many pull-down paths at node {}",
-                    node_names[d as usize]
-                )));
-            }
-            match weakest {
-                None => {
-                    return Err(Error::Check(format!(
-                        "ratio rule: keeper at node {} fights no pull-down path",
-                        node_names[d as usize]
-                    )))
-                }
-                Some(w) if w <= st => {
-                    return Err(Error::Check(format!(
-                        "ratio rule: at node {} the weakest pull-down path (W/L {:.2}) is not stronger than its keeper (W/L {:.2}); shorten the block or lower sizing.keeper",
-                        node_names[d as usize], w, st
-                    )))
-                }
-                Some(_) => {}
-            }
-        }
-        Ok(())
+        crate::ratio::check(self, flat)
     }
 }
 

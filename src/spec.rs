@@ -190,13 +190,9 @@ impl Source<'_> {
         }
         let de = serde_yaml::Deserializer::from_str(self.text);
         serde_path_to_error::deserialize(de).map_err(|e| {
-            let path = e.path().to_string();
+            let path: String = e.path().to_string().chars().flat_map(|c| c.escape_debug()).collect();
             let inner = e.into_inner();
-            let mut msg = inner.to_string();
-            if let Some(i) = msg.find(" at line ") {
-                msg.truncate(i);
-            }
-            let msg = msg.replace('\n', " ");
+            let msg = clean_serde_message(&inner.to_string(), &path);
             let shown = if path == "." || path.is_empty() {
                 "spec".to_string()
             } else {
@@ -215,6 +211,27 @@ impl Source<'_> {
             }
         })
     }
+}
+
+/// serde_yaml's message without its own position suffix, its own copy of the key path, or
+/// our internal type names, on one line.
+fn clean_serde_message(raw: &str, path: &str) -> String {
+    let mut msg = raw.to_string();
+    if let Some(i) = msg.find(" at line ") {
+        msg.truncate(i);
+    }
+    if let Some((head, rest)) = msg.split_once(": ") {
+        if !head.contains(' ') && (path.starts_with(head) || head == ".") {
+            msg = rest.to_string();
+        }
+    }
+    for (rust, plain) in [("expected i64", "expected an integer"), ("expected u64", "expected a non-negative integer"), ("expected f64", "expected a number")] {
+        msg = msg.replace(rust, plain);
+    }
+    for raw_type in ["RawSpec", "RawSizing", "RawTestbench", "RawBuffers", "RawTech", "RawLib"] {
+        msg = msg.replace(&format!("struct {raw_type}"), "a mapping of keys");
+    }
+    msg.chars().map(|c| if c.is_control() { ' ' } else { c }).collect()
 }
 
 /// Find the line and column of a dotted key path in YAML text (block or flow style).
@@ -349,7 +366,14 @@ fn validate(raw: RawSpec, src: &Source, base: &Path, opts: &LoadOptions) -> Resu
                 })?
             } else if t.ends_with(".yaml") || t.ends_with(".yml") {
                 check_path_text(t).map_err(|m| src.error("technology", m))?;
-                tech::load_file(&base.join(t), opts)?
+                let path = base.join(t);
+                if !path.is_file() {
+                    return Err(src.error(
+                        "technology",
+                        format!("technology file {} not found", path.display()),
+                    ));
+                }
+                tech::load_file(&path, opts)?
             } else {
                 return Err(src.error(
                     "technology",
@@ -475,13 +499,8 @@ fn parse_buffers(
             ))
         }
     };
-    let raw: RawBuffers = serde_yaml::from_value(v.clone()).map_err(|e| {
-        let mut m = e.to_string();
-        if let Some(i) = m.find(" at line ") {
-            m.truncate(i);
-        }
-        src.error("buffers", m)
-    })?;
+    let raw: RawBuffers = serde_yaml::from_value(v.clone())
+        .map_err(|e| src.error("buffers", clean_serde_message(&e.to_string(), "buffers")))?;
     if arch == Architecture::Ripple {
         return Err(src.error(
             "buffers",
@@ -515,6 +534,12 @@ fn parse_buffers(
             (1..).map(|i| i * k).take_while(|&p| p < width).collect()
         }
         (None, Some(at)) => {
+            if at.is_empty() {
+                return Err(src.error(
+                    "buffers.at",
+                    "give at least one bit position, or write buffers: none",
+                ));
+            }
             let mut out: Vec<usize> = Vec::new();
             for (i, &p) in at.iter().enumerate() {
                 let path = format!("buffers.at[{i}]");

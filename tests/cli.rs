@@ -246,8 +246,6 @@ fn unknown_nested_key_block_style() {
 }
 
 #[test]
-#[ignore = "bug in src/spec.rs Source::parse: the key path from serde_path_to_error is printed \
-            unescaped, so a key containing a newline splits the error over two lines"]
 fn unknown_key_containing_a_newline_stays_on_one_line() {
     let sb = Sandbox::with_spec(&base_plus("\"wid\\nht\": 8\n"));
     let run = sb.run(&["generate", "spec.yaml", "-o", "out"]);
@@ -257,8 +255,6 @@ fn unknown_key_containing_a_newline_stays_on_one_line() {
 }
 
 #[test]
-#[ignore = "bug in src/spec.rs parse_buffers: serde_yaml's message for an unknown `buffers` key \
-            is not made one line, so a key containing a newline splits the error"]
 fn unknown_buffers_key_containing_a_newline_stays_on_one_line() {
     let sb = Sandbox::with_spec(&base_plus("buffers: {\"ev\\nery\": 4}\n"));
     let run = sb.run(&["generate", "spec.yaml", "-o", "out"]);
@@ -542,8 +538,6 @@ fn gf180_with_a_model_folder_that_does_not_exist() {
 }
 
 #[test]
-#[ignore = "bug in src/spec.rs validate: errors from tech::load_file are passed through \
-            without the spec's file, line and `technology` key"]
 fn technology_file_that_does_not_exist() {
     refuse(
         &base_plus("technology: no-such-tech.yaml\n"),

@@ -256,7 +256,10 @@ struct SampleCtx {
     var: String,
     node: String,
     at: String,
-    expect: bool,
+    /// `< 2.64` or `> 0.66`: the comparison that marks a wrong level.
+    fails_if: String,
+    /// Starting value: the wrong level, so a failed measurement counts as a failure.
+    sentinel: &'static str,
     expect_text: &'static str,
 }
 
@@ -350,6 +353,8 @@ pub fn deck(spec: &Spec, design: &Design, plan: &DeckPlan) -> Result<String> {
     let mut outputs: Vec<String> = (0..w).map(|i| format!("s{i}")).collect();
     outputs.push("cout".into());
 
+    let fail_low = format!("< {}", trim_num(0.8 * vdd));
+    let fail_high = format!("> {}", trim_num(0.2 * vdd));
     let mut samples = vec![];
     for (k, v) in plan.vectors.iter().enumerate() {
         let at = k as f64 * t + plan.strobe * t;
@@ -359,7 +364,8 @@ pub fn deck(spec: &Spec, design: &Design, plan: &DeckPlan) -> Result<String> {
                 var: format!("v_{o}_{k}"),
                 node: o.clone(),
                 at: s(at),
-                expect,
+                fails_if: if expect { fail_low.clone() } else { fail_high.clone() },
+                sentinel: if expect { "-100" } else { "100" },
                 expect_text: if expect { "1" } else { "0" },
             });
         }
@@ -368,7 +374,8 @@ pub fn deck(spec: &Spec, design: &Design, plan: &DeckPlan) -> Result<String> {
                 var: format!("pre_cout_{k}"),
                 node: "cout".into(),
                 at: s(k as f64 * t + p * t),
-                expect: false,
+                fails_if: fail_high.clone(),
+                sentinel: "100",
                 expect_text: "0 (precharge)",
             });
         }

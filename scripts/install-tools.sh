@@ -1,0 +1,27 @@
+#!/usr/bin/env bash
+# Install the outside tools the test suite runs (Debian packages): ngspice, Icarus Verilog,
+# Yosys and Verilator. Only what is missing is installed.
+set -euo pipefail
+need=()
+for pair in ngspice:ngspice iverilog:iverilog vvp:iverilog yosys:yosys verilator:verilator; do
+  cmd=${pair%%:*}; pkg=${pair##*:}
+  if ! command -v "$cmd" >/dev/null 2>&1; then
+    [[ " ${need[*]-} " == *" $pkg "* ]] || need+=("$pkg")
+  fi
+done
+if [ ${#need[@]} -eq 0 ]; then
+  echo "install-tools: ngspice, iverilog, yosys and verilator are present"
+  exit 0
+fi
+sudo=""
+if [ "$(id -u)" -ne 0 ]; then
+  command -v sudo >/dev/null 2>&1 || { echo "install-tools: need root or sudo to install ${need[*]}" >&2; exit 1; }
+  sudo="sudo"
+fi
+echo "install-tools: installing ${need[*]}"
+$sudo apt-get update -qq
+DEBIAN_FRONTEND=noninteractive $sudo apt-get install -y -qq "${need[@]}" >/dev/null
+for cmd in ngspice iverilog vvp yosys verilator; do
+  command -v "$cmd" >/dev/null 2>&1 || { echo "install-tools: $cmd still missing" >&2; exit 1; }
+done
+echo "install-tools: done"

@@ -1,0 +1,192 @@
+//! The ratio rule (common practice): where a keeper (a weak always-fighting pull-up) holds a
+//! node, every pull-down path that must discharge that node is stronger than the keeper,
+//! comparing W/L of the keeper with the series W/L (1 / Σ L/W) of the path.
+//!
+//! Paths are found on the flattened transistors, NMOS only, from the kept node to vss. A path
+//! counts only if it can conduct: every device on it needs its gate high, and those gate
+//! values must be an input combination each cell is designed for (its `care` set). That rules
+//! out, for instance, a path through both the generate and the propagate device of one bit.
+
+use crate::cells::{Mos, Role};
+use crate::error::{Error, Result};
+use crate::netlist::{Design, Flat};
+use std::collections::HashMap;
+
+struct Dev {
+    d: u32,
+    s: u32,
+    /// (leaf, input pin) when the gate is a cell input; internal gates carry no constraint.
+    gate_pin: Option<(usize, usize)>,
+    mos: Mos,
+    role: Role,
+    strength: f64,
+}
+
+/// Can leaf `leaf` see these required input values and still be inside its care set?
+fn feasible(design: &Design, flat: &Flat, leaf: usize, required: &[(usize, bool)]) -> bool {
+    let cell = &design.cells[&flat.leaves[leaf].kind];
+    let Some(care) = &cell.care else { return true };
+    let ins: Vec<usize> = cell.inputs().collect();
+    let free: Vec<usize> = ins
+        .iter()
+        .copied()
+        .filter(|i| !required.iter().any(|(p, _)| p == i))
+        .collect();
+    (0u32..1 << free.len()).any(|combo| {
+        care.eval(&|pin| {
+            if let Some((_, v)) = required.iter().find(|(p, _)| *p == pin) {
+                *v
+            } else {
+                let k = free.iter().position(|&f| f == pin).unwrap_or(0);
+                combo >> k & 1 == 1
+            }
+        })
+    })
+}
+
+pub fn check(design: &Design, flat: &Flat) -> Result<()> {
+    let mut names = flat.names.clone();
+    let vss = names.len() as u32;
+    names.push("vss".into());
+    let vdd = names.len() as u32;
+    names.push("vdd".into());
+    let mut devs: Vec<Dev> = vec![];
+    for (li, leaf) in flat.leaves.iter().enumerate() {
+        let cell = &design.cells[&leaf.kind];
+        let mut local: HashMap<String, u32> = HashMap::new();
+        for (p, &g) in cell.pins.iter().zip(&leaf.nets) {
+            local.insert(p.name.to_string(), g);
+        }
+        local.insert("vss".into(), vss);
+        local.insert("vdd".into(), vdd);
+        let mut node = |n: &str, names: &mut Vec<String>| -> u32 {
+            *local.entry(n.to_string()).or_insert_with(|| {
+                names.push(format!("{}.{n}", leaf.path));
+                (names.len() - 1) as u32
+            })
+        };
+        for d in &cell.devices {
+            let dn = node(&d.d, &mut names);
+            let sn = node(&d.s, &mut names);
+            let gate_pin = cell
+                .pins
+                .iter()
+                .position(|p| p.name == d.g && p.dir == crate::cells::Dir::In)
+                .map(|p| (li, p));
+            devs.push(Dev {
+                d: dn,
+                s: sn,
+                gate_pin,
+                mos: d.mos,
+                role: d.role,
+                strength: d.strength(),
+            });
+        }
+    }
+    let mut adj: Vec<Vec<usize>> = vec![vec![]; names.len()];
+    for (i, d) in devs.iter().enumerate() {
+        if d.mos == Mos::N {
+            adj[d.d as usize].push(i);
+            adj[d.s as usize].push(i);
+        }
+    }
+    for keeper in devs.iter().filter(|d| d.role == Role::Keeper) {
+        let mut search = Search {
+            design,
+            flat,
+            devs: &devs,
+            adj: &adj,
+            vss,
+            vdd,
+            visited: vec![false; names.len()],
+            required: HashMap::new(),
+            weakest: None,
+            budget: 200_000,
+        };
+        search.dfs(keeper.d, 0.0);
+        let node = &names[keeper.d as usize];
+        if search.budget == 0 {
+            return Err(Error::Check(format!(
+                "ratio check: too many pull-down paths at node {node}"
+            )));
+        }
+        match search.weakest {
+            None => {
+                return Err(Error::Check(format!(
+                    "ratio rule: keeper at node {node} has no pull-down path to fight"
+                )))
+            }
+            Some(w) if w <= keeper.strength => {
+                return Err(Error::Check(format!(
+                    "ratio rule: at node {node} the weakest pull-down path (W/L {w:.2}) is not stronger than its keeper (W/L {:.2}); shorten the block or lower sizing.keeper",
+                    keeper.strength
+                )))
+            }
+            Some(_) => {}
+        }
+    }
+    Ok(())
+}
+
+struct Search<'a> {
+    design: &'a Design,
+    flat: &'a Flat,
+    devs: &'a [Dev],
+    adj: &'a [Vec<usize>],
+    vss: u32,
+    vdd: u32,
+    visited: Vec<bool>,
+    /// Gate values the current path needs, per leaf: (pin, value).
+    required: HashMap<usize, Vec<(usize, bool)>>,
+    weakest: Option<f64>,
+    budget: usize,
+}
+
+impl Search<'_> {
+    fn dfs(&mut self, x: u32, inv_sum: f64) {
+        if self.budget == 0 {
+            return;
+        }
+        self.budget -= 1;
+        if x == self.vss {
+            let s = 1.0 / inv_sum;
+            if self.weakest.is_none_or(|w| s < w) {
+                self.weakest = Some(s);
+            }
+            return;
+        }
+        if x == self.vdd {
+            return;
+        }
+        self.visited[x as usize] = true;
+        for &di in &self.adj[x as usize] {
+            let d = &self.devs[di];
+            let y = if d.d == x { d.s } else { d.d };
+            if self.visited[y as usize] {
+                continue;
+            }
+            // The device conducts with its gate high; keep the path only if every cell on it
+            // can see the gate values the path needs.
+            let pushed = if let Some((leaf, pin)) = d.gate_pin {
+                let req = self.required.entry(leaf).or_default();
+                if req.iter().any(|&(p, v)| p == pin && !v) {
+                    continue;
+                }
+                req.push((pin, true));
+                let ok = feasible(self.design, self.flat, leaf, &self.required[&leaf]);
+                if !ok {
+                    self.required.get_mut(&leaf).unwrap().pop();
+                    continue;
+                }
+                Some(leaf)
+            } else {
+                None
+            };
+            self.dfs(y, inv_sum + 1.0 / d.strength);
+            if let Some(leaf) = pushed {
+                self.required.get_mut(&leaf).unwrap().pop();
+            }
+        }
+        self.visited[x as usize] = false;
+    }
+}

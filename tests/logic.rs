@@ -1,0 +1,144 @@
+//! The internal checks must pass every correct design and catch broken ones: the
+//! bit-parallel logic check against native integer addition, and the structural checks
+//! (one driver per net, no unused net, the keeper ratio rule).
+
+use carrywright::cells::{CellKind, Expr};
+use carrywright::netlist::Master;
+use carrywright::spec::{self, LoadOptions};
+use carrywright::{sim, Generated};
+use std::path::Path;
+
+fn parse(yaml: &str) -> carrywright::spec::Spec {
+    spec::parse(yaml, "test", Path::new("."), &LoadOptions::default()).unwrap_or_else(|e| panic!("{e}\n{yaml}"))
+}
+
+/// Every buffer placement for small widths, exhaustively checked (2^(2W+1) vectors).
+#[test]
+fn every_small_design_adds_exhaustively() {
+    let mut designs = 0;
+    for w in 1..=6usize {
+        let y = format!("name: r{w}\nwidth: {w}\narchitecture: ripple\n");
+        let r = sim::check(&carrywright::build(&parse(&y)).unwrap(), 1, 0, 12).unwrap();
+        assert!(r.exhaustive && r.mismatches == 0, "{y}: {r:?}");
+        designs += 1;
+        for style in ["static", "dynamic"] {
+            for block in 1..=w {
+                let boundaries: Vec<usize> = (1..w).filter(|p| p % block == 0).collect();
+                // Every subset of the block boundaries as buffer positions.
+                for mask in 0..(1u32 << boundaries.len()) {
+                    let at: Vec<usize> = boundaries.iter().enumerate().filter(|(i, _)| mask >> i & 1 == 1).map(|(_, p)| *p).collect();
+                    let buffers = if at.is_empty() { "none".to_string() } else { format!("{{at: {at:?}}}") };
+                    for inverting in [true, false] {
+                        if !inverting && (style == "dynamic" || at.is_empty()) {
+                            continue;
+                        }
+                        let buffers = if inverting { buffers.clone() } else { format!("{{at: {at:?}, inverting: false}}") };
+                        let y = format!("name: m{w}\nwidth: {w}\narchitecture: manchester\nstyle: {style}\nblock: {block}\nbuffers: {buffers}\n");
+                        let d = carrywright::build(&parse(&y)).unwrap_or_else(|e| panic!("{e}\n{y}"));
+                        let r = sim::check(&d, 1, 0, 12).unwrap();
+                        assert!(r.exhaustive && r.mismatches == 0, "{y}: {r:?}");
+                        assert_eq!(r.vectors, 1u64 << (2 * w + 1));
+                        designs += 1;
+                    }
+                }
+            }
+        }
+    }
+    assert!(designs > 100, "only {designs} designs checked");
+}
+
+/// Wide designs: directed plus 100,000 random vectors (the `check` command's minimum).
+#[test]
+fn wide_designs_pass_random_check() {
+    for y in [
+        "name: r128\nwidth: 128\narchitecture: ripple\n",
+        "name: m128\nwidth: 128\narchitecture: manchester\nblock: 4\nbuffers: {every: 8}\n",
+        "name: d64\nwidth: 64\narchitecture: manchester\nstyle: dynamic\nblock: 4\nbuffers: {every: 4}\n",
+        "name: m45\nwidth: 45\narchitecture: manchester\nblock: 6\nbuffers: {every: 12, inverting: false}\n",
+    ] {
+        let d = carrywright::build(&parse(y)).unwrap();
+        let r = sim::check(&d, 9, sim::RANDOM_MIN, sim::EXHAUSTIVE_MAX).unwrap();
+        assert!(!r.exhaustive && r.mismatches == 0 && r.vectors >= 100_000, "{y}: {r:?}");
+    }
+}
+
+fn generated(yaml: &str) -> Generated {
+    carrywright::generate(&parse(yaml)).unwrap()
+}
+
+/// A wrong sum function in one cell is caught by the bit-parallel check.
+#[test]
+fn logic_check_catches_a_wrong_cell_function() {
+    let mut d = generated("name: m16\nwidth: 16\narchitecture: manchester\nblock: 4\n").design;
+    let sum = d.cells.get_mut(&CellKind::SumInverted).unwrap();
+    sum.logic[0].1 = Expr::Xor(vec![Expr::Pin(0), Expr::Pin(1)]);
+    let r = sim::check(&d, 1, 1000, 12).unwrap();
+    assert!(r.mismatches > 0, "a wrong sum cell passed");
+    assert!(sim::check_or_fail(&d, 1, 1000, 12).is_err());
+}
+
+/// A carry-out driver of the wrong polarity (buffer instead of inverter) is caught, in a
+/// design wide enough that only directed and random vectors run.
+#[test]
+fn logic_check_catches_a_wrong_polarity() {
+    let mut d = generated("name: m32\nwidth: 32\narchitecture: manchester\nblock: 4\nbuffers: {every: 8}\n").design;
+    d.cells.entry(CellKind::Buf).or_insert_with(|| {
+        let lib = carrywright::cells::Library::new(carrywright::cells::Sizes::new(
+            &carrywright::tech::builtin("generic", &Default::default()).unwrap(),
+            &parse("name: x\nwidth: 4\narchitecture: ripple\n").sizing,
+        ));
+        lib.cell(CellKind::Buf)
+    });
+    let top = d.modules.last_mut().unwrap();
+    let xcout = top.instances.iter_mut().find(|i| i.name == "xcout").unwrap();
+    xcout.master = Master::Cell(if xcout.master == Master::Cell(CellKind::Inv) { CellKind::Buf } else { CellKind::Inv });
+    d.check().unwrap();
+    let r = sim::check(&d, 1, 5000, 12).unwrap();
+    assert!(!r.exhaustive && r.mismatches > 0, "{r:?}");
+    assert!(r.first_mismatch.unwrap().contains("cout="));
+}
+
+/// Two drivers on one net, and a net nobody reads, are structural errors.
+#[test]
+fn structural_check_catches_bad_wiring() {
+    let d = generated("name: m8\nwidth: 8\narchitecture: manchester\nblock: 4\n").design;
+    let mut two = d.clone();
+    let top = two.modules.last_mut().unwrap();
+    // Drive the carry-in node from the first block's carry-out too.
+    let co = top.instances.iter().find(|i| i.name == "xblk0").unwrap().conns.last().copied().unwrap();
+    let cin_inv = top.instances.iter_mut().find(|i| i.name == "xcin").unwrap();
+    cin_inv.conns[1] = co;
+    let err = two.check().unwrap_err().to_string();
+    assert!(err.contains("drivers") || err.contains("never used"), "{err}");
+
+    let mut unused = d.clone();
+    unused.modules.last_mut().unwrap().net("dangling");
+    let err = unused.check().unwrap_err().to_string();
+    assert!(err.contains("dangling"), "{err}");
+}
+
+/// Ratio rule (common practice): a keeper as strong as the pull-down path it fights is refused,
+/// and a long dynamic block makes the series pull-down path weaker than the default keeper.
+#[test]
+fn ratio_rule_refuses_a_strong_keeper() {
+    let strong = parse("name: d8\nwidth: 8\narchitecture: manchester\nstyle: dynamic\nblock: 8\nsizing: {keeper: 1.0}\n");
+    let err = carrywright::build(&strong).unwrap_err();
+    assert_eq!(err.exit_code(), 1);
+    assert!(err.to_string().contains("ratio rule"), "{err}");
+    let long = parse("name: d32\nwidth: 32\narchitecture: manchester\nstyle: dynamic\nblock: 32\n");
+    assert!(carrywright::build(&long).unwrap_err().to_string().contains("ratio rule"));
+    // The same block with a shorter chain or no keeper passes.
+    carrywright::build(&parse("name: d32\nwidth: 32\narchitecture: manchester\nstyle: dynamic\nblock: 8\nbuffers: {every: 8}\n")).unwrap();
+    carrywright::build(&parse("name: d32\nwidth: 32\narchitecture: manchester\nstyle: dynamic\nblock: 32\nsizing: {keeper: 0}\n")).unwrap();
+}
+
+/// Counts follow from the cells: a W-bit ripple adder is W mirror adders of 28 transistors.
+#[test]
+fn ripple_counts() {
+    for w in [4, 13, 64] {
+        let g = generated(&format!("name: r\nwidth: {w}\narchitecture: ripple\n"));
+        let c = carrywright::emit::summary::counts(&g.design);
+        assert_eq!(c.transistors, 28 * w);
+        assert_eq!(c.cells, w);
+    }
+}
