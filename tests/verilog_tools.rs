@@ -174,3 +174,23 @@ fn manchester_dynamic_4_8_16() {
     cases.push("name: md8_nokeep\nwidth: 8\narchitecture: manchester\nstyle: dynamic\nblock: 8\nsizing: {keeper: 0}\n".into());
     matrix(&cases);
 }
+
+/// The outside checks can fail: one wrong sum cell (XNOR turned into XOR) makes the Icarus
+/// testbench stop with $fatal and the Yosys proof fail.
+#[test]
+fn broken_verilog_is_caught_by_icarus_and_yosys() {
+    if !common::tools(&["iverilog", "vvp", "yosys"]) {
+        return;
+    }
+    let (dir, _g, s) = common::generate(&spec("brk8", 8, "manchester", "static", 4, "none"), None);
+    let out = dir.path().join("out");
+    let v = out.join("brk8.v");
+    let text = std::fs::read_to_string(&v).unwrap();
+    let broken = text.replace("assign s = ~(p ^ ci);", "assign s = p ^ ci;");
+    assert_ne!(text, broken, "the sum cell's expression was found");
+    std::fs::write(&v, broken).unwrap();
+    let (passed, log) = common::icarus_run(&out, &s.name);
+    assert!(!passed && log.contains("expected"), "Icarus passed a broken adder:\n{log}");
+    let (proved, log) = common::yosys_prove(&out, &s.name, 8, false);
+    assert!(!proved, "Yosys proved a broken adder:\n{log}");
+}

@@ -92,6 +92,13 @@ pub fn run(cmd: &mut Command) -> (bool, String) {
 
 /// Icarus Verilog runs the generated self-checking testbench (IEEE 1364-2005).
 pub fn icarus(out: &Path, name: &str) -> String {
+    let (ok, log) = icarus_run(out, name);
+    assert!(ok, "Icarus testbench of {name} failed:\n{log}");
+    log
+}
+
+/// Compile and run the testbench; (passed, log).
+pub fn icarus_run(out: &Path, name: &str) -> (bool, String) {
     let vvp = out.join(format!("{name}.vvp"));
     let (ok, log) = run(Command::new("iverilog")
         .args(["-g2005", "-o"])
@@ -101,11 +108,8 @@ pub fn icarus(out: &Path, name: &str) -> String {
         .arg(out.join(format!("{name}.v"))));
     assert!(ok, "iverilog failed to compile {name}:\n{log}");
     let (ok, log) = run(Command::new("vvp").arg("-n").arg(&vvp));
-    assert!(
-        ok && log.contains(&format!("PASS {name}")),
-        "Icarus testbench of {name} failed:\n{log}"
-    );
-    log
+    let passed = ok && log.contains(&format!("PASS {name}"));
+    (passed, log)
 }
 
 /// Verilator --lint-only -Wall is clean (EDA-RECIPES: -Wno-DECLFILENAME for multi-module files).
@@ -128,6 +132,12 @@ pub fn verilator(out: &Path, name: &str) {
 /// Yosys proves the netlist equal to `a + b + cin` with IEEE 1364-2005 semantics of `+`.
 /// Dynamic designs are proved in evaluate, with clk held high.
 pub fn yosys_equiv(out: &Path, name: &str, width: usize, dynamic: bool) {
+    let (ok, log) = yosys_prove(out, name, width, dynamic);
+    assert!(ok, "Yosys could not prove {name} equal to a + b + cin:\n{log}");
+}
+
+/// Run the Yosys proof; (proved, log).
+pub fn yosys_prove(out: &Path, name: &str, width: usize, dynamic: bool) -> (bool, String) {
     let w = width;
     let mut src = format!(
         "module ref_add(a, b, cin, s, cout);\n  input [{m}:0] a;\n  input [{m}:0] b;\n  input cin;\n  output [{m}:0] s;\n  output cout;\n  assign {{cout, s}} = {{1'b0, a}} + {{1'b0, b}} + {{{w}'b0, cin}};\nendmodule\n",
@@ -149,11 +159,7 @@ pub fn yosys_equiv(out: &Path, name: &str, width: usize, dynamic: bool) {
         refv.display(),
         out.join(format!("{name}.v")).display()
     );
-    let (ok, log) = run(Command::new("yosys").args(["-q", "-p", &script]));
-    assert!(
-        ok,
-        "Yosys could not prove {name} equal to a + b + cin:\n{log}"
-    );
+    run(Command::new("yosys").args(["-q", "-p", &script]))
 }
 
 /// Values printed by the deck's `print` lines: `name = value`.
