@@ -114,7 +114,8 @@ fn run(cli: Cli) -> Result<ExitCode> {
             }
             say!(
                 "  {:<12} {:>12}   one driver per net, no floating input, ratio rule",
-                "structure", "ok"
+                "structure",
+                "ok"
             );
             let r = sim::check(&design, s.testbench.seed, random, sim::EXHAUSTIVE_MAX)?;
             let how = if r.exhaustive {
@@ -130,7 +131,9 @@ fn run(cli: Cli) -> Result<ExitCode> {
             if r.mismatches == 0 {
                 say!(
                     "  {:<12} {:>12}   {} vectors ({how}{phases}) against a + b + cin",
-                    "logic", "ok", r.vectors
+                    "logic",
+                    "ok",
+                    r.vectors
                 );
                 Ok(ExitCode::SUCCESS)
             } else {

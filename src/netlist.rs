@@ -124,6 +124,8 @@ pub struct Design {
     pub modules: Vec<Module>,
     /// Dynamic designs have `clk` as the first top port.
     pub dynamic: bool,
+    /// Prefix and lookahead adders: the graph's counts, as built.
+    pub prefix: Option<crate::arch::prefix::Report>,
 }
 
 impl Design {
@@ -172,6 +174,35 @@ impl Design {
                 Master::Module(c) => self.count_into(c, mult, out),
             }
         }
+    }
+
+    /// Longest path from a top input to a top output, in gate stages (each cell's `stages`).
+    pub fn logic_depth(&self) -> usize {
+        let flat = self.flatten();
+        let Ok(order) = flat.order(self) else {
+            return 0;
+        };
+        let mut depth = vec![0usize; flat.names.len()];
+        let mut best = 0;
+        for li in order {
+            let leaf = &flat.leaves[li];
+            let cell = &self.cells[&leaf.kind];
+            let din = cell
+                .pins
+                .iter()
+                .zip(&leaf.nets)
+                .filter(|(p, _)| p.dir == Dir::In)
+                .map(|(_, &n)| depth[n as usize])
+                .max()
+                .unwrap_or(0);
+            for (p, &n) in cell.pins.iter().zip(&leaf.nets) {
+                if p.dir == Dir::Out {
+                    depth[n as usize] = din + cell.stages;
+                    best = best.max(din + cell.stages);
+                }
+            }
+        }
+        best
     }
 
     /// Flatten to leaf cell instances over global net ids.
@@ -378,6 +409,7 @@ impl<'a> DesignBuilder<'a> {
             cells: self.cells,
             modules,
             dynamic,
+            prefix: None,
         }
     }
 }

@@ -16,29 +16,69 @@ use std::path::{Path, PathBuf};
 pub enum Architecture {
     Ripple,
     Manchester,
+    CarrySkip,
+    CarrySelect,
+    Lookahead,
+    KoggeStone,
+    BrentKung,
+    Sklansky,
+    HanCarlson,
+    LadnerFischer,
+    Knowles,
 }
+
+pub const ARCHITECTURES: &[Architecture] = &[
+    Architecture::Ripple,
+    Architecture::Manchester,
+    Architecture::CarrySkip,
+    Architecture::CarrySelect,
+    Architecture::Lookahead,
+    Architecture::KoggeStone,
+    Architecture::BrentKung,
+    Architecture::Sklansky,
+    Architecture::HanCarlson,
+    Architecture::LadnerFischer,
+    Architecture::Knowles,
+];
 
 impl Architecture {
     pub fn as_str(self) -> &'static str {
         match self {
             Architecture::Ripple => "ripple",
             Architecture::Manchester => "manchester",
+            Architecture::CarrySkip => "carry-skip",
+            Architecture::CarrySelect => "carry-select",
+            Architecture::Lookahead => "lookahead",
+            Architecture::KoggeStone => "kogge-stone",
+            Architecture::BrentKung => "brent-kung",
+            Architecture::Sklansky => "sklansky",
+            Architecture::HanCarlson => "han-carlson",
+            Architecture::LadnerFischer => "ladner-fischer",
+            Architecture::Knowles => "knowles",
         }
     }
+    /// The parallel-prefix family, for the prefix architectures.
+    pub fn family(self) -> Option<crate::arch::prefix::Family> {
+        use crate::arch::prefix::Family as F;
+        Some(match self {
+            Architecture::KoggeStone => F::KoggeStone,
+            Architecture::BrentKung => F::BrentKung,
+            Architecture::Sklansky => F::Sklansky,
+            Architecture::HanCarlson => F::HanCarlson,
+            Architecture::LadnerFischer => F::LadnerFischer,
+            Architecture::Knowles => F::Knowles,
+            _ => return None,
+        })
+    }
+    /// Built on a prefix graph (the families and block lookahead).
+    pub fn is_prefix(self) -> bool {
+        self.family().is_some() || self == Architecture::Lookahead
+    }
+    /// Accepts `style: dynamic`.
+    pub fn has_dynamic(self) -> bool {
+        matches!(self, Architecture::Manchester | Architecture::CarrySkip)
+    }
 }
-
-/// Architectures the spec language knows but this version does not build yet.
-const PLANNED: &[&str] = &[
-    "carry-skip",
-    "carry-select",
-    "lookahead",
-    "kogge-stone",
-    "brent-kung",
-    "sklansky",
-    "han-carlson",
-    "ladner-fischer",
-    "knowles",
-];
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, serde::Serialize)]
 #[serde(rename_all = "lowercase")]
@@ -64,6 +104,8 @@ pub struct Buffers {
     /// Static style: an inverter (true) or an inverter pair (false). Dynamic style: always a
     /// domino inverter driving the next block's discharge device.
     pub inverting: bool,
+    /// Prefix networks: buffer every node net with more loads than this.
+    pub fanout: Option<usize>,
 }
 
 /// Device sizes in µm, resolved from the technology defaults and `sizing` overrides.
@@ -99,6 +141,10 @@ pub struct Spec {
     pub architecture: Architecture,
     pub style: Style,
     pub block: usize,
+    /// Carry-select: the block sizes, least significant first (uniform or square-root).
+    pub block_sizes: Option<Vec<usize>>,
+    /// How `block` was chosen when the spec said `sqrt`.
+    pub block_rule: Option<&'static str>,
     pub buffers: Buffers,
     pub technology: Technology,
     pub sizing: Sizing,
@@ -116,7 +162,7 @@ struct RawSpec {
     #[serde(default)]
     style: Option<Style>,
     #[serde(default)]
-    block: Option<i64>,
+    block: Option<serde_yaml::Value>,
     #[serde(default)]
     buffers: Option<serde_yaml::Value>,
     #[serde(default)]
@@ -152,6 +198,7 @@ struct RawBuffers {
     every: Option<i64>,
     at: Option<Vec<i64>>,
     inverting: Option<bool>,
+    fanout: Option<i64>,
 }
 
 /// Where the outside world points us: the model folder for technologies that need one.
@@ -190,7 +237,12 @@ impl Source<'_> {
         }
         let de = serde_yaml::Deserializer::from_str(self.text);
         serde_path_to_error::deserialize(de).map_err(|e| {
-            let path: String = e.path().to_string().chars().flat_map(|c| c.escape_debug()).collect();
+            let path: String = e
+                .path()
+                .to_string()
+                .chars()
+                .flat_map(|c| c.escape_debug())
+                .collect();
             let inner = e.into_inner();
             let msg = clean_serde_message(&inner.to_string(), &path);
             let shown = if path == "." || path.is_empty() {
@@ -225,13 +277,26 @@ fn clean_serde_message(raw: &str, path: &str) -> String {
             msg = rest.to_string();
         }
     }
-    for (rust, plain) in [("expected i64", "expected an integer"), ("expected u64", "expected a non-negative integer"), ("expected f64", "expected a number")] {
+    for (rust, plain) in [
+        ("expected i64", "expected an integer"),
+        ("expected u64", "expected a non-negative integer"),
+        ("expected f64", "expected a number"),
+    ] {
         msg = msg.replace(rust, plain);
     }
-    for raw_type in ["RawSpec", "RawSizing", "RawTestbench", "RawBuffers", "RawTech", "RawLib"] {
+    for raw_type in [
+        "RawSpec",
+        "RawSizing",
+        "RawTestbench",
+        "RawBuffers",
+        "RawTech",
+        "RawLib",
+    ] {
         msg = msg.replace(&format!("struct {raw_type}"), "a mapping of keys");
     }
-    msg.chars().map(|c| if c.is_control() { ' ' } else { c }).collect()
+    msg.chars()
+        .map(|c| if c.is_control() { ' ' } else { c })
+        .collect()
 }
 
 /// Find the line and column of a dotted key path in YAML text (block or flow style).
@@ -314,45 +379,88 @@ fn validate(raw: RawSpec, src: &Source, base: &Path, opts: &LoadOptions) -> Resu
     }
     let width = raw.width as usize;
 
-    let architecture = match raw.architecture.as_str() {
-        "ripple" => Architecture::Ripple,
-        "manchester" => Architecture::Manchester,
-        other if PLANNED.contains(&other) => {
-            return Err(src.error(
-                "architecture",
-                format!("`{other}` is not yet supported (supported: ripple, manchester)"),
-            ))
-        }
-        other => {
+    let architecture = match ARCHITECTURES
+        .iter()
+        .find(|a| a.as_str() == raw.architecture)
+    {
+        Some(a) => *a,
+        None => {
             return Err(src.error(
                 "architecture",
                 format!(
-                    "unknown architecture `{}`; expected ripple, manchester, {}",
-                    printable(other),
-                    PLANNED.join(", ")
+                    "unknown architecture `{}`; expected one of {}",
+                    printable(&raw.architecture),
+                    ARCHITECTURES
+                        .iter()
+                        .map(|a| a.as_str())
+                        .collect::<Vec<_>>()
+                        .join(", ")
                 ),
             ))
         }
     };
 
     let style = raw.style.unwrap_or(Style::Static);
-    if architecture == Architecture::Ripple && style == Style::Dynamic {
+    if style == Style::Dynamic && !architecture.has_dynamic() {
         return Err(src.error(
             "style",
-            "ripple is built from static mirror full adders; `dynamic` applies to manchester",
+            format!(
+                "`dynamic` is not supported for {}; it applies to manchester and carry-skip",
+                architecture.as_str()
+            ),
         ));
     }
 
-    let block = match raw.block {
-        None => width.min(4),
-        Some(b) if b < 1 => {
-            return Err(src.error("block", format!("must be at least 1, got {b}")));
-        }
-        Some(b) if b as usize > width => {
-            return Err(src.error("block", format!("{b} exceeds the width ({width} bits)")));
-        }
-        Some(b) => b as usize,
+    let default_block = if architecture.family().is_some() {
+        1
+    } else {
+        width.min(4)
     };
+    let mut block_rule = None;
+    let mut block_sizes = None;
+    let block = match &raw.block {
+        None => default_block,
+        Some(serde_yaml::Value::String(t)) if t == "sqrt" => match architecture {
+            Architecture::CarrySkip => {
+                // Single-level carry-skip with equal bypass and carry delays: about sqrt(N/2)
+                // bits a block (Rabaey ch. 11; Weste & Harris §11.2; from memory).
+                block_rule = Some("sqrt(N/2), the single-level carry-skip optimum");
+                ((width as f64 / 2.0).sqrt().round() as usize).clamp(1, width)
+            }
+            Architecture::CarrySelect => {
+                block_rule = Some("square-root blocks M, M, M+1, ...");
+                let sizes = crate::arch::select::sizes(width, 0, true);
+                let first = sizes[0];
+                block_sizes = Some(sizes);
+                first
+            }
+            other => {
+                return Err(src.error(
+                    "block",
+                    format!(
+                        "`sqrt` applies to carry-skip and carry-select, not {}",
+                        other.as_str()
+                    ),
+                ))
+            }
+        },
+        Some(serde_yaml::Value::Number(n)) if n.as_i64().is_some() => {
+            let b = n.as_i64().unwrap();
+            if b < 1 {
+                return Err(src.error("block", format!("must be at least 1, got {b}")));
+            }
+            if b as usize > width {
+                return Err(src.error("block", format!("{b} exceeds the width ({width} bits)")));
+            }
+            b as usize
+        }
+        Some(_) => {
+            return Err(src.error("block", "expected a positive integer or `sqrt`"));
+        }
+    };
+    if architecture == Architecture::CarrySelect && block_sizes.is_none() {
+        block_sizes = Some(crate::arch::select::sizes(width, block, false));
+    }
 
     let buffers = parse_buffers(raw.buffers.as_ref(), src, width, block, architecture, style)?;
 
@@ -457,6 +565,8 @@ fn validate(raw: RawSpec, src: &Source, base: &Path, opts: &LoadOptions) -> Resu
         architecture,
         style,
         block,
+        block_sizes,
+        block_rule,
         buffers,
         technology,
         sizing,
@@ -481,6 +591,7 @@ fn parse_buffers(
     let none = Buffers {
         positions: vec![],
         inverting: true,
+        fanout: None,
     };
     let v = match v {
         None => return Ok(none),
@@ -488,25 +599,63 @@ fn parse_buffers(
         Some(serde_yaml::Value::String(s)) if s == "auto" => {
             return Err(src.error(
                 "buffers",
-                "`auto` needs the timing model, which is not built yet; use none, {every: K} or {at: [..]}",
+                "`auto` needs the timing model, which is not built yet; use none, {every: K}, {at: [..]} or, for prefix networks, {fanout: F}",
             ))
         }
         Some(v @ serde_yaml::Value::Mapping(_)) => v,
         Some(_) => {
             return Err(src.error(
                 "buffers",
-                "expected none, {every: K} or {at: [bit positions]}",
+                "expected none, {every: K}, {at: [bit positions]} or {fanout: F}",
             ))
         }
     };
     let raw: RawBuffers = serde_yaml::from_value(v.clone())
         .map_err(|e| src.error("buffers", clean_serde_message(&e.to_string(), "buffers")))?;
-    if arch == Architecture::Ripple {
+    match arch {
+        Architecture::Ripple => {
+            return Err(src.error(
+                "buffers",
+                "every ripple full adder restores its carry; use buffers: none",
+            ))
+        }
+        Architecture::CarrySkip | Architecture::CarrySelect => {
+            return Err(src.error(
+                "buffers",
+                format!(
+                    "{} restores the carry at every block boundary; use buffers: none",
+                    arch.as_str()
+                ),
+            ))
+        }
+        a if a.is_prefix() => {
+            if raw.every.is_some() || raw.at.is_some() || raw.inverting.is_some() {
+                return Err(src.error(
+                    "buffers",
+                    "prefix networks take buffers: none or {fanout: F}",
+                ));
+            }
+            let f = raw.fanout.unwrap_or(0);
+            if !(2..=64).contains(&f) {
+                return Err(src.error(
+                    "buffers.fanout",
+                    format!("must be between 2 and 64, got {f}"),
+                ));
+            }
+            return Ok(Buffers {
+                fanout: Some(f as usize),
+                ..none
+            });
+        }
+        _ => {}
+    }
+    if raw.fanout.is_some() {
         return Err(src.error(
-            "buffers",
-            "every ripple full adder restores its carry; use buffers: none",
+            "buffers.fanout",
+            "fan-out buffers apply to prefix networks; chains take {every: K} or {at: [..]}",
         ));
     }
+    let _ = width;
     if raw.inverting.is_some() && style == Style::Dynamic {
         return Err(src.error(
             "buffers.inverting",
@@ -567,6 +716,7 @@ fn parse_buffers(
     Ok(Buffers {
         positions,
         inverting: raw.inverting.unwrap_or(true),
+        fanout: None,
     })
 }
 

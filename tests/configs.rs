@@ -5,7 +5,10 @@ mod common;
 #[test]
 fn every_config_generates() {
     let mut n = 0;
-    let mut entries: Vec<_> = std::fs::read_dir("configs").unwrap().map(|e| e.unwrap().path()).collect();
+    let mut entries: Vec<_> = std::fs::read_dir("configs")
+        .unwrap()
+        .map(|e| e.unwrap().path())
+        .collect();
     entries.sort();
     for path in entries {
         let text = std::fs::read_to_string(&path).unwrap();

@@ -9,7 +9,8 @@ use carrywright::{sim, Generated};
 use std::path::Path;
 
 fn parse(yaml: &str) -> carrywright::spec::Spec {
-    spec::parse(yaml, "test", Path::new("."), &LoadOptions::default()).unwrap_or_else(|e| panic!("{e}\n{yaml}"))
+    spec::parse(yaml, "test", Path::new("."), &LoadOptions::default())
+        .unwrap_or_else(|e| panic!("{e}\n{yaml}"))
 }
 
 /// Every buffer placement for small widths, exhaustively checked (2^(2W+1) vectors).
@@ -26,15 +27,29 @@ fn every_small_design_adds_exhaustively() {
                 let boundaries: Vec<usize> = (1..w).filter(|p| p % block == 0).collect();
                 // Every subset of the block boundaries as buffer positions.
                 for mask in 0..(1u32 << boundaries.len()) {
-                    let at: Vec<usize> = boundaries.iter().enumerate().filter(|(i, _)| mask >> i & 1 == 1).map(|(_, p)| *p).collect();
-                    let buffers = if at.is_empty() { "none".to_string() } else { format!("{{at: {at:?}}}") };
+                    let at: Vec<usize> = boundaries
+                        .iter()
+                        .enumerate()
+                        .filter(|(i, _)| mask >> i & 1 == 1)
+                        .map(|(_, p)| *p)
+                        .collect();
+                    let buffers = if at.is_empty() {
+                        "none".to_string()
+                    } else {
+                        format!("{{at: {at:?}}}")
+                    };
                     for inverting in [true, false] {
                         if !inverting && (style == "dynamic" || at.is_empty()) {
                             continue;
                         }
-                        let buffers = if inverting { buffers.clone() } else { format!("{{at: {at:?}, inverting: false}}") };
+                        let buffers = if inverting {
+                            buffers.clone()
+                        } else {
+                            format!("{{at: {at:?}, inverting: false}}")
+                        };
                         let y = format!("name: m{w}\nwidth: {w}\narchitecture: manchester\nstyle: {style}\nblock: {block}\nbuffers: {buffers}\n");
-                        let d = carrywright::build(&parse(&y)).unwrap_or_else(|e| panic!("{e}\n{y}"));
+                        let d =
+                            carrywright::build(&parse(&y)).unwrap_or_else(|e| panic!("{e}\n{y}"));
                         let r = sim::check(&d, 1, 0, 12).unwrap();
                         assert!(r.exhaustive && r.mismatches == 0, "{y}: {r:?}");
                         assert_eq!(r.vectors, 1u64 << (2 * w + 1));
@@ -81,7 +96,10 @@ fn logic_check_catches_a_wrong_cell_function() {
 /// design wide enough that only directed and random vectors run.
 #[test]
 fn logic_check_catches_a_wrong_polarity() {
-    let mut d = generated("name: m32\nwidth: 32\narchitecture: manchester\nblock: 4\nbuffers: {every: 8}\n").design;
+    let mut d = generated(
+        "name: m32\nwidth: 32\narchitecture: manchester\nblock: 4\nbuffers: {every: 8}\n",
+    )
+    .design;
     d.cells.entry(CellKind::Buf).or_insert_with(|| {
         let lib = carrywright::cells::Library::new(carrywright::cells::Sizes::new(
             &carrywright::tech::builtin("generic", &Default::default()).unwrap(),
@@ -90,8 +108,16 @@ fn logic_check_catches_a_wrong_polarity() {
         lib.cell(CellKind::Buf)
     });
     let top = d.modules.last_mut().unwrap();
-    let xcout = top.instances.iter_mut().find(|i| i.name == "xcout").unwrap();
-    xcout.master = Master::Cell(if xcout.master == Master::Cell(CellKind::Inv) { CellKind::Buf } else { CellKind::Inv });
+    let xcout = top
+        .instances
+        .iter_mut()
+        .find(|i| i.name == "xcout")
+        .unwrap();
+    xcout.master = Master::Cell(if xcout.master == Master::Cell(CellKind::Inv) {
+        CellKind::Buf
+    } else {
+        CellKind::Inv
+    });
     d.check().unwrap();
     let r = sim::check(&d, 1, 5000, 12).unwrap();
     assert!(!r.exhaustive && r.mismatches > 0, "{r:?}");
@@ -105,11 +131,22 @@ fn structural_check_catches_bad_wiring() {
     let mut two = d.clone();
     let top = two.modules.last_mut().unwrap();
     // Drive the carry-in node from the first block's carry-out too.
-    let co = top.instances.iter().find(|i| i.name == "xblk0").unwrap().conns.last().copied().unwrap();
+    let co = top
+        .instances
+        .iter()
+        .find(|i| i.name == "xblk0")
+        .unwrap()
+        .conns
+        .last()
+        .copied()
+        .unwrap();
     let cin_inv = top.instances.iter_mut().find(|i| i.name == "xcin").unwrap();
     cin_inv.conns[1] = co;
     let err = two.check().unwrap_err().to_string();
-    assert!(err.contains("drivers") || err.contains("never used"), "{err}");
+    assert!(
+        err.contains("drivers") || err.contains("never used"),
+        "{err}"
+    );
 
     let mut unused = d.clone();
     unused.modules.last_mut().unwrap().net("dangling");
@@ -126,7 +163,10 @@ fn ratio_rule_refuses_a_strong_keeper() {
     assert_eq!(err.exit_code(), 1);
     assert!(err.to_string().contains("ratio rule"), "{err}");
     let long = parse("name: d32\nwidth: 32\narchitecture: manchester\nstyle: dynamic\nblock: 32\n");
-    assert!(carrywright::build(&long).unwrap_err().to_string().contains("ratio rule"));
+    assert!(carrywright::build(&long)
+        .unwrap_err()
+        .to_string()
+        .contains("ratio rule"));
     // The same block with a shorter chain or no keeper passes.
     carrywright::build(&parse("name: d32\nwidth: 32\narchitecture: manchester\nstyle: dynamic\nblock: 8\nbuffers: {every: 8}\n")).unwrap();
     carrywright::build(&parse("name: d32\nwidth: 32\narchitecture: manchester\nstyle: dynamic\nblock: 32\nsizing: {keeper: 0}\n")).unwrap();

@@ -31,5 +31,8 @@ fn manchester_dynamic_4() {
 
 #[test]
 fn ripple_4() {
-    snap("name: rip4\nwidth: 4\narchitecture: ripple\ntestbench: {random: 2}\n", "rip4");
+    snap(
+        "name: rip4\nwidth: 4\narchitecture: ripple\ntestbench: {random: 2}\n",
+        "rip4",
+    );
 }

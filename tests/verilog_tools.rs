@@ -190,7 +190,10 @@ fn broken_verilog_is_caught_by_icarus_and_yosys() {
     assert_ne!(text, broken, "the sum cell's expression was found");
     std::fs::write(&v, broken).unwrap();
     let (passed, log) = common::icarus_run(&out, &s.name);
-    assert!(!passed && log.contains("expected"), "Icarus passed a broken adder:\n{log}");
+    assert!(
+        !passed && log.contains("expected"),
+        "Icarus passed a broken adder:\n{log}"
+    );
     let (proved, log) = common::yosys_prove(&out, &s.name, 8, false);
     assert!(!proved, "Yosys proved a broken adder:\n{log}");
 }

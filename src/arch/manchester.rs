@@ -9,7 +9,7 @@
 
 use super::top_module;
 use crate::cells::{CellKind, Dir, Library};
-use crate::netlist::{Design, DesignBuilder, Master, Module};
+use crate::netlist::{Design, DesignBuilder, Master, Module, NetId};
 use crate::spec::Spec;
 use std::collections::BTreeMap;
 
@@ -23,7 +23,7 @@ pub fn blocks(width: usize, block: usize) -> Vec<(usize, usize)> {
 }
 
 /// Carry net name: c<k> holds the carry into bit k, c<k>_n its complement.
-fn carry_name(k: usize, true_carry: bool) -> String {
+pub fn carry_name(k: usize, true_carry: bool) -> String {
     if true_carry {
         format!("c{k}")
     } else {
@@ -132,9 +132,30 @@ fn block_module(
         .collect();
     let co = m.port("co", Dir::Out);
 
-    let (pg, chain, sum) = match (dynamic, true_carry) {
+    chain_bits(d, &mut m, clk, &a, &b, ci, &s, Some(co), true_carry, keeper);
+    m
+}
+
+/// The bits of one unbroken chain inside module `m`: per bit a PG cell, a chain cell and a
+/// sum cell, from node `ci` on. The last node is `last` if given, else a new net. Returns the
+/// last node and the propagate nets. `clk` set means dynamic style.
+#[allow(clippy::too_many_arguments)]
+pub fn chain_bits(
+    d: &mut DesignBuilder,
+    m: &mut Module,
+    clk: Option<NetId>,
+    a: &[NetId],
+    b: &[NetId],
+    ci: NetId,
+    s: &[NetId],
+    last: Option<NetId>,
+    true_carry: bool,
+    keeper: bool,
+) -> (NetId, Vec<NetId>) {
+    let size = a.len();
+    let (pg, chain, sum) = match (clk.is_some(), true_carry) {
         (true, _) => (
-            CellKind::PgDynamic,
+            CellKind::Pg,
             if keeper {
                 CellKind::ChainDynamicKeeper
             } else {
@@ -151,33 +172,30 @@ fn block_module(
     };
     let (pg, chain, sum) = (d.cell(pg), d.cell(chain), d.cell(sum));
     let mut prev = ci;
+    let mut props = vec![];
     for j in 0..size {
-        let node = if j + 1 == size {
-            co
-        } else {
-            m.net(carry_name(j + 1, true_carry))
+        let node = match last {
+            Some(l) if j + 1 == size => l,
+            _ => m.net(carry_name(j + 1, true_carry)),
         };
-        if dynamic {
-            let (g, p) = (m.net(format!("g{j}")), m.net(format!("p{j}")));
+        let p = m.net(format!("p{j}"));
+        if let Some(clk) = clk {
+            let g = m.net(format!("g{j}"));
             m.inst(format!("xpg{j}"), pg, vec![a[j], b[j], g, p]);
-            m.inst(
-                format!("xmc{j}"),
-                chain,
-                vec![clk.unwrap(), prev, g, p, node],
-            );
-            m.inst(format!("xsum{j}"), sum, vec![p, prev, s[j]]);
+            m.inst(format!("xmc{j}"), chain, vec![clk, prev, g, p, node]);
         } else {
             let (gx, kx) = if true_carry {
                 (m.net(format!("gn{j}")), m.net(format!("k{j}")))
             } else {
                 (m.net(format!("g{j}")), m.net(format!("kn{j}")))
             };
-            let (p, pn) = (m.net(format!("p{j}")), m.net(format!("pn{j}")));
+            let pn = m.net(format!("pn{j}"));
             m.inst(format!("xpg{j}"), pg, vec![a[j], b[j], gx, kx, p, pn]);
             m.inst(format!("xmc{j}"), chain, vec![prev, gx, kx, p, pn, node]);
-            m.inst(format!("xsum{j}"), sum, vec![p, prev, s[j]]);
         }
+        m.inst(format!("xsum{j}"), sum, vec![p, prev, s[j]]);
+        props.push(p);
         prev = node;
     }
-    m
+    (prev, props)
 }

@@ -2,7 +2,10 @@
 //! They know nothing about output syntax.
 
 pub mod manchester;
+pub mod prefix;
 pub mod ripple;
+pub mod select;
+pub mod skip;
 
 use crate::cells::{Dir, Library, Sizes};
 use crate::netlist::{Design, Module, NetId};
@@ -42,8 +45,16 @@ pub fn top_module(name: &str, width: usize, dynamic: bool) -> (Module, TopNets) 
 /// Build the netlist a spec describes.
 pub fn build(spec: &Spec) -> Design {
     let lib = Library::new(Sizes::new(&spec.technology, &spec.sizing));
+    let dynamic = spec.style == Style::Dynamic;
     match spec.architecture {
         Architecture::Ripple => ripple::build(spec, &lib),
-        Architecture::Manchester => manchester::build(spec, &lib, spec.style == Style::Dynamic),
+        Architecture::Manchester => manchester::build(spec, &lib, dynamic),
+        Architecture::CarrySkip => skip::build(spec, &lib, dynamic),
+        Architecture::CarrySelect => select::build(spec, &lib),
+        _ => {
+            let (mut d, report) = prefix::build(spec, &lib);
+            d.prefix = Some(report);
+            d
+        }
     }
 }

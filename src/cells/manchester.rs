@@ -42,6 +42,7 @@ pub fn pg_inverted(s: &Sizes) -> Cell {
         devices: sch.devices,
         care: None,
         clock: None,
+        stages: 4,
     }
 }
 
@@ -76,11 +77,13 @@ pub fn pg_true(s: &Sizes) -> Cell {
         devices: sch.devices,
         care: None,
         clock: None,
+        stages: 4,
     }
 }
 
-/// Generate and propagate for a dynamic chain: g = a·b, p = ~(kill + g) = a ⊕ b.
-pub fn pg_dynamic(s: &Sizes) -> Cell {
+/// Generate and propagate: g = a·b, p = ~(kill + g) = a ⊕ b. Feeds dynamic chains and
+/// prefix networks.
+pub fn pg(s: &Sizes) -> Cell {
     let mut sch = Schematic::new(s);
     sch.nand2("gn", "a", "b", "gn");
     sch.inv("g", "gn", "g", 1.0);
@@ -88,9 +91,9 @@ pub fn pg_dynamic(s: &Sizes) -> Cell {
     sch.nor2("p", "k", "g", "p");
     let (a, b) = (v(0), v(1));
     Cell {
-        kind: CellKind::PgDynamic,
-        base: "pg_d",
-        summary: "generate/propagate, dynamic chain",
+        kind: CellKind::Pg,
+        base: "pg",
+        summary: "generate/propagate",
         pins: pins(&[
             ("a", In, false),
             ("b", In, false),
@@ -101,6 +104,7 @@ pub fn pg_dynamic(s: &Sizes) -> Cell {
         devices: sch.devices,
         care: None,
         clock: None,
+        stages: 3,
     }
 }
 
@@ -167,6 +171,7 @@ pub fn chain_static(s: &Sizes, true_carry: bool) -> Cell {
         devices: sch.devices,
         care: Some(care),
         clock: None,
+        stages: 1,
     }
 }
 
@@ -211,6 +216,7 @@ pub fn chain_dynamic(s: &Sizes, keeper: bool) -> Cell {
         devices: sch.devices,
         care: Some(not(and(vec![g, p]))),
         clock: Some(0),
+        stages: 1,
     }
 }
 
@@ -238,6 +244,7 @@ pub fn dynamic_start(s: &Sizes, keeper: bool) -> Cell {
         devices: sch.devices,
         care: None,
         clock: Some(0),
+        stages: 1,
     }
 }
 
@@ -277,5 +284,6 @@ pub fn sum(s: &Sizes, true_carry: bool) -> Cell {
         devices: sch.devices,
         care: None,
         clock: None,
+        stages: 4,
     }
 }

@@ -24,8 +24,8 @@ pub enum CellKind {
     PgInverted,
     /// Propagate/generate/kill cell feeding a chain that holds the true carry.
     PgTrue,
-    /// Generate/propagate cell for a dynamic chain.
-    PgDynamic,
+    /// Generate and propagate, g = a·b and p = a ⊕ b (dynamic chains, prefix networks).
+    Pg,
     /// Static Manchester carry cell, node holds the inverted carry.
     ChainInverted,
     /// Static Manchester carry cell, node holds the true carry.
@@ -40,8 +40,16 @@ pub enum CellKind {
     DynamicStartKeeper,
     /// Sum cell reading a node that holds the inverted carry.
     SumInverted,
-    /// Sum cell reading a node that holds the true carry.
+    /// Sum cell reading a node that holds the true carry (also the XOR of prefix adders).
     SumTrue,
+    /// Grey cell: G = Gh + Ph·Gl (AOI21 and an inverter).
+    Grey,
+    /// Black cell: G = Gh + Ph·Gl, P = Ph·Pl.
+    Black,
+    /// Two-input AND (NAND2 and an inverter).
+    And2,
+    /// Two-way multiplexer y = s ? d1 : d0 (AOI22 with an inverter on s, output inverter).
+    Mux2,
 }
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
@@ -160,6 +168,9 @@ pub struct Cell {
     pub care: Option<Expr>,
     /// Dynamic cells: the pin that clocks precharge (low) and evaluate (high).
     pub clock: Option<usize>,
+    /// Gate stages from an input to an output (a pass device counts as one), for the logic
+    /// depth the reports give.
+    pub stages: usize,
 }
 
 impl Cell {
@@ -296,6 +307,32 @@ impl<'a> Schematic<'a> {
         self.p(&format!("{name}_a"), y, a, &x, 2.0, Role::Logic);
         self.p(&format!("{name}_b"), &x, b, "vdd", 2.0, Role::Logic);
     }
+    /// y = ~(a + b·c): a alone, or b and c in series, pull down; the mirror network pulls up.
+    pub fn aoi21(&mut self, name: &str, a: &str, b: &str, c: &str, y: &str) {
+        let (xn, xp) = (format!("{name}_xn"), format!("{name}_xp"));
+        self.n(&format!("{name}_a"), y, a, "vss", 1.0, Role::Logic);
+        self.n(&format!("{name}_b"), y, b, &xn, 2.0, Role::Logic);
+        self.n(&format!("{name}_c"), &xn, c, "vss", 2.0, Role::Logic);
+        self.p(&format!("{name}_a"), &xp, a, "vdd", 2.0, Role::Logic);
+        self.p(&format!("{name}_b"), y, b, &xp, 2.0, Role::Logic);
+        self.p(&format!("{name}_c"), y, c, &xp, 2.0, Role::Logic);
+    }
+    /// y = ~(a·b + c·d).
+    pub fn aoi22(&mut self, name: &str, a: &str, b: &str, c: &str, d: &str, y: &str) {
+        let (x1, x2, xp) = (
+            format!("{name}_x1"),
+            format!("{name}_x2"),
+            format!("{name}_xp"),
+        );
+        self.n(&format!("{name}_a"), y, a, &x1, 2.0, Role::Logic);
+        self.n(&format!("{name}_b"), &x1, b, "vss", 2.0, Role::Logic);
+        self.n(&format!("{name}_c"), y, c, &x2, 2.0, Role::Logic);
+        self.n(&format!("{name}_d"), &x2, d, "vss", 2.0, Role::Logic);
+        self.p(&format!("{name}_a"), &xp, a, "vdd", 2.0, Role::Logic);
+        self.p(&format!("{name}_b"), &xp, b, "vdd", 2.0, Role::Logic);
+        self.p(&format!("{name}_c"), y, c, &xp, 2.0, Role::Logic);
+        self.p(&format!("{name}_d"), y, d, &xp, 2.0, Role::Logic);
+    }
     /// Transmission gate between `x` and `y`: NMOS gated by `on`, PMOS by `on_n`.
     pub fn tg(&mut self, name: &str, x: &str, y: &str, on: &str, on_n: &str, mult: f64) {
         self.n(name, x, on, y, mult, Role::Pass);
@@ -350,7 +387,7 @@ impl Library {
             CellKind::FullAdder => static_cmos::mirror_full_adder(s),
             CellKind::PgInverted => manchester::pg_inverted(s),
             CellKind::PgTrue => manchester::pg_true(s),
-            CellKind::PgDynamic => manchester::pg_dynamic(s),
+            CellKind::Pg => manchester::pg(s),
             CellKind::ChainInverted => manchester::chain_static(s, false),
             CellKind::ChainTrue => manchester::chain_static(s, true),
             CellKind::ChainDynamic => manchester::chain_dynamic(s, false),
@@ -359,6 +396,10 @@ impl Library {
             CellKind::DynamicStartKeeper => manchester::dynamic_start(s, true),
             CellKind::SumInverted => manchester::sum(s, false),
             CellKind::SumTrue => manchester::sum(s, true),
+            CellKind::Grey => static_cmos::grey(s),
+            CellKind::Black => static_cmos::black(s),
+            CellKind::And2 => static_cmos::and2(s),
+            CellKind::Mux2 => static_cmos::mux2(s),
         }
     }
 }
@@ -370,7 +411,7 @@ pub const ALL_KINDS: &[CellKind] = &[
     CellKind::FullAdder,
     CellKind::PgInverted,
     CellKind::PgTrue,
-    CellKind::PgDynamic,
+    CellKind::Pg,
     CellKind::ChainInverted,
     CellKind::ChainTrue,
     CellKind::ChainDynamic,
@@ -379,4 +420,8 @@ pub const ALL_KINDS: &[CellKind] = &[
     CellKind::DynamicStartKeeper,
     CellKind::SumInverted,
     CellKind::SumTrue,
+    CellKind::Grey,
+    CellKind::Black,
+    CellKind::And2,
+    CellKind::Mux2,
 ];

@@ -16,6 +16,7 @@ pub fn inv(s: &Sizes) -> Cell {
         devices: sch.devices,
         care: None,
         clock: None,
+        stages: 1,
     }
 }
 
@@ -33,6 +34,7 @@ pub fn buf(s: &Sizes) -> Cell {
         devices: sch.devices,
         care: None,
         clock: None,
+        stages: 2,
     }
 }
 
@@ -95,5 +97,105 @@ pub fn mirror_full_adder(s: &Sizes) -> Cell {
         devices: sch.devices,
         care: None,
         clock: None,
+        stages: 2,
+    }
+}
+
+/// Grey cell of a prefix network: G = Gh + Ph·Gl, an AOI21 and an inverter. Also the carry
+/// operator of lookahead and of the carry-skip bypass in dynamic style.
+pub fn grey(s: &Sizes) -> Cell {
+    let mut sch = Schematic::new(s);
+    sch.aoi21("gn", "gh", "ph", "gl", "gn");
+    sch.inv("g", "gn", "g", 1.0);
+    let (gh, ph, gl) = (v(0), v(1), v(2));
+    Cell {
+        kind: CellKind::Grey,
+        base: "grey",
+        summary: "grey cell G = Gh + Ph·Gl",
+        pins: pins(&[
+            ("gh", In, false),
+            ("ph", In, false),
+            ("gl", In, false),
+            ("g", Out, false),
+        ]),
+        logic: vec![(3, or(vec![gh, and(vec![ph, gl])]))],
+        devices: sch.devices,
+        care: None,
+        clock: None,
+        stages: 2,
+    }
+}
+
+/// Black cell of a prefix network: G = Gh + Ph·Gl and P = Ph·Pl.
+pub fn black(s: &Sizes) -> Cell {
+    let mut sch = Schematic::new(s);
+    sch.aoi21("gn", "gh", "ph", "gl", "gn");
+    sch.inv("g", "gn", "g", 1.0);
+    sch.nand2("pn", "ph", "pl", "pn");
+    sch.inv("p", "pn", "p", 1.0);
+    let (gh, ph, gl, pl) = (v(0), v(1), v(2), v(3));
+    Cell {
+        kind: CellKind::Black,
+        base: "black",
+        summary: "black cell G = Gh + Ph·Gl, P = Ph·Pl",
+        pins: pins(&[
+            ("gh", In, false),
+            ("ph", In, false),
+            ("gl", In, false),
+            ("pl", In, false),
+            ("g", Out, false),
+            ("p", Out, false),
+        ]),
+        logic: vec![
+            (4, or(vec![gh, and(vec![ph.clone(), gl])])),
+            (5, and(vec![ph, pl])),
+        ],
+        devices: sch.devices,
+        care: None,
+        clock: None,
+        stages: 2,
+    }
+}
+
+/// Two-input AND: NAND2 and an inverter (block propagate of carry-skip).
+pub fn and2(s: &Sizes) -> Cell {
+    let mut sch = Schematic::new(s);
+    sch.nand2("yn", "a", "b", "yn");
+    sch.inv("y", "yn", "y", 1.0);
+    Cell {
+        kind: CellKind::And2,
+        base: "and2",
+        summary: "two-input AND",
+        pins: pins(&[("a", In, false), ("b", In, false), ("y", Out, false)]),
+        logic: vec![(2, and(vec![v(0), v(1)]))],
+        devices: sch.devices,
+        care: None,
+        clock: None,
+        stages: 2,
+    }
+}
+
+/// Two-way multiplexer y = s ? d1 : d0: an inverter makes ~s, an AOI22 gives
+/// ~(s·d1 + ~s·d0), an output inverter restores (carry-select, carry-skip bypass).
+pub fn mux2(s: &Sizes) -> Cell {
+    let mut sch = Schematic::new(s);
+    sch.inv("sn", "s", "sn", 1.0);
+    sch.aoi22("yn", "s", "d1", "sn", "d0", "yn");
+    sch.inv("y", "yn", "y", s.buffer);
+    Cell {
+        kind: CellKind::Mux2,
+        base: "mux2",
+        summary: "two-way multiplexer y = s ? d1 : d0",
+        pins: pins(&[
+            ("d0", In, false),
+            ("d1", In, false),
+            ("s", In, false),
+            ("y", Out, false),
+        ]),
+        logic: vec![(3, mux(v(2), v(1), v(0)))],
+        devices: sch.devices,
+        care: None,
+        clock: None,
+        stages: 3,
     }
 }

@@ -238,6 +238,18 @@ pub fn default_period(spec: &Spec) -> f64 {
                 .unwrap_or(spec.width) as f64;
             0.025 * ns * longest * longest + 0.15 * ns * (cuts.len() - 1) as f64 + 1.0 * ns
         }
+        Architecture::CarrySkip => {
+            let m = spec.block as f64;
+            0.025 * ns * m * m + 0.3 * ns * (w / m).ceil() + 1.0 * ns
+        }
+        Architecture::CarrySelect => {
+            let sizes = spec.block_sizes.clone().unwrap_or_default();
+            let first = *sizes.first().unwrap_or(&spec.width) as f64;
+            let largest = sizes.iter().copied().max().unwrap_or(0) as f64;
+            0.35 * ns * first.max(largest) + 0.3 * ns * sizes.len() as f64 + 1.0 * ns
+        }
+        Architecture::Lookahead => 0.3 * ns * (w / spec.block as f64).ceil() + 2.0 * ns,
+        _ => 0.3 * ns * (2.0 * w.log2().ceil() + 2.0 + spec.block as f64) + 1.0 * ns,
     };
     let mut p = (2.5 * t / ns).ceil() * ns;
     if spec.style == Style::Dynamic {
@@ -364,7 +376,11 @@ pub fn deck(spec: &Spec, design: &Design, plan: &DeckPlan) -> Result<String> {
                 var: format!("v_{o}_{k}"),
                 node: o.clone(),
                 at: s(at),
-                fails_if: if expect { fail_low.clone() } else { fail_high.clone() },
+                fails_if: if expect {
+                    fail_low.clone()
+                } else {
+                    fail_high.clone()
+                },
                 sentinel: if expect { "-100" } else { "100" },
                 expect_text: if expect { "1" } else { "0" },
             });

@@ -133,7 +133,10 @@ pub fn verilator(out: &Path, name: &str) {
 /// Dynamic designs are proved in evaluate, with clk held high.
 pub fn yosys_equiv(out: &Path, name: &str, width: usize, dynamic: bool) {
     let (ok, log) = yosys_prove(out, name, width, dynamic);
-    assert!(ok, "Yosys could not prove {name} equal to a + b + cin:\n{log}");
+    assert!(
+        ok,
+        "Yosys could not prove {name} equal to a + b + cin:\n{log}"
+    );
 }
 
 /// Run the Yosys proof; (proved, log).

@@ -1,0 +1,138 @@
+//! Carry-skip (single level): Manchester blocks of `block` bits, each with a block propagate
+//! (the AND of its bits' propagates) that lets the block's carry-in bypass the chain.
+//!
+//! Static: the block's carry-in (true) drives the chain through an inverter, the chain's end
+//! is restored by an inverter, and a multiplexer picks the bypass when the block propagates.
+//! Dynamic: every block starts from a footed discharge device driven by its (domino) carry-in,
+//! the chain's end passes a domino inverter, and the bypass is an AO21, cout = c_ripple +
+//! BP·c_in, which equals the multiplexer (BP implies c_ripple = c_in) and stays monotonic.
+
+use super::manchester::chain_bits;
+use super::top_module;
+use crate::cells::{CellKind, Dir, Library};
+use crate::netlist::{Design, DesignBuilder, Master, Module, NetId};
+use crate::spec::Spec;
+use std::collections::BTreeMap;
+
+/// AND of all nets through a balanced tree of two-input ANDs; returns the output net.
+pub fn and_tree(d: &mut DesignBuilder, m: &mut Module, nets: &[NetId], prefix: &str) -> NetId {
+    let and2 = d.cell(CellKind::And2);
+    let mut level: Vec<NetId> = nets.to_vec();
+    let mut n = 0;
+    while level.len() > 1 {
+        let mut next = vec![];
+        for pair in level.chunks(2) {
+            if pair.len() == 2 {
+                let y = m.net(format!("{prefix}{n}"));
+                m.inst(format!("x{prefix}{n}"), and2, vec![pair[0], pair[1], y]);
+                n += 1;
+                next.push(y);
+            } else {
+                next.push(pair[0]);
+            }
+        }
+        level = next;
+    }
+    level[0]
+}
+
+fn skip_block(
+    d: &mut DesignBuilder,
+    name: &str,
+    size: usize,
+    dynamic: bool,
+    keeper: bool,
+) -> Module {
+    let mut m = Module::new(format!(
+        "{name}_skip{size}_{}",
+        if dynamic { "d" } else { "s" }
+    ));
+    let clk = dynamic.then(|| m.port("clk", Dir::In));
+    let a: Vec<_> = (0..size)
+        .map(|j| m.port(&format!("a{j}"), Dir::In))
+        .collect();
+    let b: Vec<_> = (0..size)
+        .map(|j| m.port(&format!("b{j}"), Dir::In))
+        .collect();
+    let ci = m.port("ci", Dir::In);
+    let s: Vec<_> = (0..size)
+        .map(|j| m.port(&format!("s{j}"), Dir::Out))
+        .collect();
+    let co = m.port("co", Dir::Out);
+    let start = m.net("c0_n");
+    if let Some(clk) = clk {
+        let st = d.cell(if keeper {
+            CellKind::DynamicStartKeeper
+        } else {
+            CellKind::DynamicStart
+        });
+        m.inst("xstart", st, vec![clk, ci, start]);
+    } else {
+        let inv = d.cell(CellKind::Inv);
+        m.inst("xstart", inv, vec![ci, start]);
+    }
+    let (end, props) = chain_bits(d, &mut m, clk, &a, &b, start, &s, None, false, keeper);
+    let ripple = m.net("cr");
+    let inv = d.cell(CellKind::Inv);
+    m.inst("xend", inv, vec![end, ripple]);
+    let bp = if props.len() == 1 {
+        props[0]
+    } else {
+        and_tree(d, &mut m, &props, "bp")
+    };
+    if dynamic {
+        let grey = d.cell(CellKind::Grey);
+        m.inst("xskip", grey, vec![ripple, bp, ci, co]);
+    } else {
+        let mux = d.cell(CellKind::Mux2);
+        m.inst("xskip", mux, vec![ripple, ci, bp, co]);
+    }
+    m
+}
+
+pub fn build(spec: &Spec, lib: &Library, dynamic: bool) -> Design {
+    let mut d = DesignBuilder::new(&spec.name, lib);
+    let keeper = dynamic && lib.sizes.keeper.is_some();
+    let (mut top, t) = top_module(&spec.name, spec.width, dynamic);
+    let mut made: BTreeMap<usize, Master> = BTreeMap::new();
+    // Dynamic: the carry-in enters as a domino signal (low in precharge) so the bypass stays
+    // monotonic.
+    let mut carry = if let Some(clk) = t.clk {
+        let st = d.cell(if keeper {
+            CellKind::DynamicStartKeeper
+        } else {
+            CellKind::DynamicStart
+        });
+        let n = top.net("c0_n");
+        top.inst("xcin", st, vec![clk, t.cin, n]);
+        let c0 = top.net("c0");
+        let inv = d.cell(CellKind::Inv);
+        top.inst("xcin_inv", inv, vec![n, c0]);
+        c0
+    } else {
+        t.cin
+    };
+    let blocks = super::manchester::blocks(spec.width, spec.block);
+    for (k, &(lo, hi)) in blocks.iter().enumerate() {
+        let size = hi - lo;
+        let master = *made.entry(size).or_insert_with(|| {
+            let m = skip_block(&mut d, &spec.name, size, dynamic, keeper);
+            d.add_module(m)
+        });
+        let co = if hi == spec.width {
+            t.cout
+        } else {
+            top.net(format!("c{hi}"))
+        };
+        let mut conns = vec![];
+        conns.extend(t.clk);
+        conns.extend(&t.a[lo..hi]);
+        conns.extend(&t.b[lo..hi]);
+        conns.push(carry);
+        conns.extend(&t.s[lo..hi]);
+        conns.push(co);
+        top.inst(format!("xblk{k}"), master, conns);
+        carry = co;
+    }
+    d.finish(top, dynamic)
+}
