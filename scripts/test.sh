@@ -9,4 +9,11 @@ models=$(bash scripts/fetch-models.sh)
 export CARRYWRIGHT_MODEL_DIR="$PWD/$models"
 export CARRYWRIGHT_REQUIRE_TOOLS=1
 echo "test.sh: models in $CARRYWRIGHT_MODEL_DIR"
-cargo test --locked "$@"
+log=$(mktemp)
+trap 'rm -f "$log"' EXIT
+status=0
+cargo test --locked "$@" 2>&1 | tee "$log" || status=$?
+# One closing line over every test binary.
+awk '/^test result:/ { for (i = 1; i <= NF; i++) { if ($(i+1) ~ /^passed/) p += $i; if ($(i+1) ~ /^failed/) f += $i } }
+     END { printf "total: %d passed, %d failed\n", p, f }' "$log"
+exit "$status"

@@ -96,6 +96,23 @@ pub fn write_outputs(dir: &Path, files: &[(String, String)]) -> Result<()> {
     Ok(())
 }
 
+/// Write one file whole: to a temporary file beside it, then renamed into place.
+pub fn write_file(path: &Path, text: &str) -> Result<()> {
+    let parent = match path.parent() {
+        Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
+        _ => Path::new(".").to_path_buf(),
+    };
+    std::fs::create_dir_all(&parent)
+        .map_err(|e| Error::Output(format!("cannot create {}: {e}", parent.display())))?;
+    let mut tmp = tempfile::NamedTempFile::new_in(&parent)
+        .map_err(|e| Error::Output(format!("cannot write in {}: {e}", parent.display())))?;
+    std::io::Write::write_all(&mut tmp, text.as_bytes())
+        .map_err(|e| Error::Output(format!("cannot write {}: {e}", path.display())))?;
+    tmp.persist(path)
+        .map_err(|e| Error::Output(format!("cannot write {}: {e}", path.display())))?;
+    Ok(())
+}
+
 /// Files in `dir` that differ from (or are missing against) what would be generated.
 pub fn stale_files(dir: &Path, files: &[(String, String)]) -> Vec<String> {
     files

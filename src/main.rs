@@ -32,6 +32,18 @@ enum Command {
         #[arg(long, value_name = "DIR")]
         model_dir: Option<PathBuf>,
     },
+    /// Print what a spec builds (counts by cell kind, logic depth, prefix-graph figures) and
+    /// optionally draw its carry structure as SVG.
+    Describe {
+        /// The adder spec (YAML).
+        spec: PathBuf,
+        /// Write an SVG drawing of the carry structure here.
+        #[arg(long, value_name = "FILE")]
+        svg: Option<PathBuf>,
+        /// Folder holding the GF180MCU ngspice models (else $CARRYWRIGHT_MODEL_DIR).
+        #[arg(long, value_name = "DIR")]
+        model_dir: Option<PathBuf>,
+    },
     /// Build the netlist, run its structural checks and a bit-parallel logic check against
     /// native integer addition (exhaustive up to 12 bits, else directed plus random vectors).
     Check {
@@ -89,6 +101,23 @@ fn run(cli: Cli) -> Result<ExitCode> {
             );
             for (name, _) in &g.files {
                 say!("  wrote {}", out.join(name).display());
+            }
+            Ok(ExitCode::SUCCESS)
+        }
+        Command::Describe {
+            spec,
+            svg,
+            model_dir,
+        } => {
+            let s = spec::load(&spec, &LoadOptions { model_dir })?;
+            let design = carrywright::build(&s)?;
+            if let Some(path) = svg {
+                let text = emit::report::svg(&s, &design)?;
+                carrywright::write_file(&path, &text)?;
+                say!("{}", emit::report::table(&s, &design).trim_end());
+                say!("  wrote {}", path.display());
+            } else {
+                say!("{}", emit::report::table(&s, &design).trim_end());
             }
             Ok(ExitCode::SUCCESS)
         }

@@ -422,13 +422,61 @@ fn ripple_with_buffers() {
 }
 
 #[test]
-fn planned_architecture_is_not_yet_supported() {
+fn carry_select_refuses_dynamic_style() {
     refuse(
-        "name: t8\nwidth: 8\narchitecture: kogge-stone\n",
-        "architecture",
-        3,
-        &["kogge-stone", "not yet supported"],
+        "name: t8\nwidth: 8\narchitecture: carry-select\nstyle: dynamic\n",
+        "style",
+        4,
+        &["not supported for carry-select"],
     );
+}
+
+#[test]
+fn prefix_refuses_chain_buffers_and_small_fanout() {
+    refuse(
+        "name: t8\nwidth: 8\narchitecture: kogge-stone\nbuffers: {every: 4}\n",
+        "buffers",
+        4,
+        &["fanout"],
+    );
+    refuse(
+        "name: t8\nwidth: 8\narchitecture: sklansky\nbuffers: {fanout: 1}\n",
+        "buffers.fanout",
+        4,
+        &["between 2 and 64"],
+    );
+}
+
+#[test]
+fn sqrt_block_only_for_skip_and_select() {
+    refuse(
+        "name: t8\nwidth: 8\narchitecture: manchester\nblock: sqrt\n",
+        "block",
+        4,
+        &["sqrt", "carry-skip"],
+    );
+}
+
+#[test]
+fn describe_prints_prefix_counts_and_writes_svg() {
+    let dir = tempfile::tempdir().unwrap();
+    let spec = dir.path().join("spec.yaml");
+    std::fs::write(&spec, "name: ks8\nwidth: 8\narchitecture: kogge-stone\n").unwrap();
+    let svg = dir.path().join("ks8.svg");
+    let out = std::process::Command::new(env!("CARGO_BIN_EXE_carrywright"))
+        .args(["describe"])
+        .arg(&spec)
+        .arg("--svg")
+        .arg(&svg)
+        .output()
+        .unwrap();
+    let stdout = String::from_utf8_lossy(&out.stdout);
+    assert!(out.status.success(), "{stdout}{}", String::from_utf8_lossy(&out.stderr));
+    // Kogge-Stone, N = 8: 17 prefix cells, 3 levels (Harris 2003).
+    assert!(stdout.contains("17 (10 black, 7 grey)"), "{stdout}");
+    let text = std::fs::read_to_string(&svg).unwrap();
+    assert!(text.starts_with("<svg") && text.trim_end().ends_with("</svg>"));
+    assert_eq!(text.matches("<title>black cell (").count(), 10, "one shape per black cell");
 }
 
 #[test]

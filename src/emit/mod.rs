@@ -1,6 +1,7 @@
 //! Views of the one netlist. Rust builds a plain context from the IR; the Tera templates
 //! under `templates/` only print it.
 
+pub mod report;
 pub mod spice;
 pub mod summary;
 pub mod vectors;
@@ -36,6 +37,10 @@ fn tera() -> &'static Tera {
                 "spice/deck.sp",
                 include_str!("../../templates/spice/deck.sp.tera"),
             ),
+            (
+                "report/structure.svg",
+                include_str!("../../templates/report/structure.svg.tera"),
+            ),
         ])
         .expect("the built-in templates parse");
         t
@@ -59,28 +64,49 @@ pub(crate) fn render(template: &str, ctx: &impl serde::Serialize) -> Result<Stri
 
 /// One line saying what the design is.
 pub fn title(spec: &Spec) -> String {
+    use crate::spec::{Architecture as A, Style};
     let mut t = format!(
         "{}-bit {} adder, {} style",
         spec.width,
         spec.architecture.as_str(),
         spec.style.as_str()
     );
-    if spec.architecture == crate::spec::Architecture::Manchester {
-        t.push_str(&format!(", block {}", spec.block));
-        if spec.buffers.positions.is_empty() {
-            t.push_str(", no buffers");
-        } else {
-            let kind = if spec.style == crate::spec::Style::Dynamic {
-                "domino boundaries"
-            } else if spec.buffers.inverting {
-                "inverting buffers"
+    let rule = spec.block_rule.map(|r| format!(" ({r})")).unwrap_or_default();
+    match spec.architecture {
+        A::Ripple => {}
+        A::Manchester => {
+            t.push_str(&format!(", block {}", spec.block));
+            if spec.buffers.positions.is_empty() {
+                t.push_str(", no buffers");
             } else {
-                "non-inverting buffers"
-            };
-            t.push_str(&format!(
-                ", {kind} at bits {}",
-                itertools::join(&spec.buffers.positions, ",")
-            ));
+                let kind = if spec.style == Style::Dynamic {
+                    "domino boundaries"
+                } else if spec.buffers.inverting {
+                    "inverting buffers"
+                } else {
+                    "non-inverting buffers"
+                };
+                t.push_str(&format!(
+                    ", {kind} at bits {}",
+                    itertools::join(&spec.buffers.positions, ",")
+                ));
+            }
+        }
+        A::CarrySkip => t.push_str(&format!(", block {}{rule}", spec.block)),
+        A::CarrySelect => t.push_str(&format!(
+            ", blocks {}{rule}",
+            itertools::join(spec.block_sizes.as_deref().unwrap_or(&[]), "-")
+        )),
+        A::Lookahead => t.push_str(&format!(", {}-bit groups", spec.block)),
+        _ => {
+            if spec.block > 1 {
+                t.push_str(&format!(", sparse over {}-bit groups", spec.block));
+            } else {
+                t.push_str(", dense");
+            }
+            if let Some(f) = spec.buffers.fanout {
+                t.push_str(&format!(", fan-out buffers above {f}"));
+            }
         }
     }
     t

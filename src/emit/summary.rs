@@ -29,6 +29,8 @@ pub struct Counts {
     pub cells: usize,
     pub cells_by_kind: BTreeMap<String, usize>,
     pub modules: usize,
+    /// Longest input-to-output path in gate stages (a pass device counts as one).
+    pub logic_depth: usize,
 }
 
 pub fn counts(design: &Design) -> Counts {
@@ -41,6 +43,7 @@ pub fn counts(design: &Design) -> Counts {
             .map(|(k, n)| (design.cells[k].base.to_string(), *n))
             .collect(),
         modules: design.modules.len(),
+        logic_depth: design.logic_depth(),
     }
 }
 
@@ -53,7 +56,11 @@ struct Summary<'a> {
     architecture: Architecture,
     style: Style,
     block: Option<usize>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    block_rule: Option<&'static str>,
     blocks: Vec<[usize; 2]>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    prefix: Option<&'a crate::arch::prefix::Report>,
     buffers: &'a crate::spec::Buffers,
     technology: serde_json::Value,
     sizing: &'a crate::spec::Sizing,
@@ -68,7 +75,7 @@ fn hex(x: u128) -> String {
 }
 
 pub fn json(spec: &Spec, design: &Design, plan: &[Labeled], deck: &DeckPlan) -> Result<String> {
-    let manchester = spec.architecture == Architecture::Manchester;
+    let chain = matches!(spec.architecture, Architecture::Manchester | Architecture::CarrySkip);
     let tech = &spec.technology;
     let s = Summary {
         generator: format!("carrywright {VERSION}"),
@@ -77,15 +84,26 @@ pub fn json(spec: &Spec, design: &Design, plan: &[Labeled], deck: &DeckPlan) -> 
         width: spec.width,
         architecture: spec.architecture,
         style: spec.style,
-        block: manchester.then_some(spec.block),
-        blocks: if manchester {
+        block: (spec.architecture != Architecture::Ripple).then_some(spec.block),
+        block_rule: spec.block_rule,
+        blocks: if chain || spec.architecture == Architecture::Lookahead {
             blocks(spec.width, spec.block)
                 .into_iter()
                 .map(|(l, h)| [l, h])
                 .collect()
+        } else if let Some(sizes) = &spec.block_sizes {
+            let mut lo = 0;
+            sizes
+                .iter()
+                .map(|s| {
+                    lo += s;
+                    [lo - s, lo]
+                })
+                .collect()
         } else {
             vec![]
         },
+        prefix: design.prefix.as_ref(),
         buffers: &spec.buffers,
         technology: serde_json::json!({
             "name": tech.name,
