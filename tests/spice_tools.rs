@@ -6,7 +6,7 @@
 
 mod common;
 
-use std::path::{Path, PathBuf};
+use std::path::PathBuf;
 
 struct Run {
     values: std::collections::BTreeMap<String, f64>,
@@ -23,61 +23,8 @@ fn simulate(yaml: &str, model_dir: Option<PathBuf>) -> Run {
         s.name
     );
     let values = common::printed(&log);
-    check_levels(&out, &s.name, s.technology.vdd, &values);
+    common::check_deck_levels(&out, &s.name, s.technology.vdd, &values);
     Run { values, log }
-}
-
-/// Every output sample the deck printed matches the expected bit from NAME.json.
-fn check_levels(
-    out: &Path,
-    name: &str,
-    vdd: f64,
-    values: &std::collections::BTreeMap<String, f64>,
-) {
-    let json: serde_json::Value =
-        serde_json::from_str(&std::fs::read_to_string(out.join(format!("{name}.json"))).unwrap())
-            .unwrap();
-    let width = json["width"].as_u64().unwrap() as usize;
-    let vectors: Vec<&serde_json::Value> = json["vectors"]
-        .as_array()
-        .unwrap()
-        .iter()
-        .filter(|v| v["in_spice_deck"].as_bool().unwrap())
-        .collect();
-    assert!(vectors.len() >= 7, "the deck applies the directed vectors");
-    let parse = |v: &serde_json::Value| {
-        u128::from_str_radix(v.as_str().unwrap().trim_start_matches("0x"), 16).unwrap()
-    };
-    let mut checked = 0;
-    for (k, v) in vectors.iter().enumerate() {
-        let s = parse(&v["s"]);
-        for i in 0..=width {
-            let (node, bit) = if i < width {
-                (format!("s{i}"), (s >> i) & 1 == 1)
-            } else {
-                ("cout".to_string(), v["cout"].as_u64().unwrap() == 1)
-            };
-            let key = format!("v_{node}_{k}");
-            let volts = *values
-                .get(&key)
-                .unwrap_or_else(|| panic!("{name}: ngspice printed no {key}"));
-            if bit {
-                assert!(
-                    volts >= 0.8 * vdd,
-                    "{name}: {key} = {volts} V, expected a 1 (>= {} V)",
-                    0.8 * vdd
-                );
-            } else {
-                assert!(
-                    volts <= 0.2 * vdd,
-                    "{name}: {key} = {volts} V, expected a 0 (<= {} V)",
-                    0.2 * vdd
-                );
-            }
-            checked += 1;
-        }
-    }
-    assert_eq!(checked, vectors.len() * (width + 1));
 }
 
 fn measured(r: &Run, key: &str) -> f64 {
