@@ -131,6 +131,9 @@ fn main() {
     if run("icarus") {
         bench_icarus();
     }
+    if run("architectures") {
+        bench_architectures();
+    }
     println!();
     println!("  load average at end: {}", loadavg());
 }
@@ -643,4 +646,65 @@ fn bench_icarus() {
         &format!(">= {RATIO_TARGET:.0}x"),
         verdict(ratio_sim >= RATIO_TARGET),
     );
+}
+
+const ARCH_TARGET_MS: f64 = 20.0;
+const MATRIX_TARGET_S: f64 = 10.0;
+
+fn arch_spec(arch: &str, width: usize) -> Spec {
+    parse(&format!("name: a{width}\nwidth: {width}\narchitecture: {arch}\n"))
+}
+
+/// Every architecture at 64 bits (all views, in process), the whole 11-architecture ×
+/// 4..=128-bit matrix (generate, which includes the internal check), and how generation time
+/// grows with width for Kogge-Stone and Brent-Kung against their prefix cell counts.
+fn bench_architectures() {
+    println!();
+    println!("4. every architecture, 64 bits, all views (generate = build + checks + render)");
+    let archs: Vec<&str> = spec::ARCHITECTURES.iter().map(|a| a.as_str()).collect();
+    let mut worst = 0.0f64;
+    for a in &archs {
+        let s = arch_spec(a, 64);
+        let st = measure(2, 15, || carrywright::generate(&s).unwrap());
+        line(&format!("  {a}"), &st);
+        worst = worst.max(ms(st.median));
+    }
+    figure(
+        "generate 64-bit, slowest architecture (median)",
+        &format!("{worst:.3} ms"),
+        &format!("< {ARCH_TARGET_MS} ms"),
+        verdict(worst < ARCH_TARGET_MS),
+    );
+
+    let t0 = Instant::now();
+    let mut designs = 0;
+    for a in &archs {
+        for w in 4..=128 {
+            black_box(carrywright::generate(&arch_spec(a, w)).unwrap());
+            designs += 1;
+        }
+    }
+    let total = t0.elapsed().as_secs_f64();
+    println!("  matrix: {designs} designs (11 architectures x widths 4..=128) in {total:.2} s");
+    figure(
+        "matrix 11 x 4..128 generate+check",
+        &format!("{total:.2} s"),
+        &format!("< {MATRIX_TARGET_S} s"),
+        verdict(total < MATRIX_TARGET_S),
+    );
+
+    println!("  growth with width (generate median; prefix cells; time per cell):");
+    for a in ["kogge-stone", "brent-kung"] {
+        for w in [8, 16, 32, 64, 128] {
+            let s = arch_spec(a, w);
+            let st = measure(2, 11, || carrywright::generate(&s).unwrap());
+            let cells = carrywright::build(&s).unwrap().prefix.map_or(0, |p| p.stats.cells);
+            println!(
+                "    {a:<12} N={w:<4} {:>9.3} ms  {cells:>5} cells  {:>7.2} us/cell  N*log2(N) = {}",
+                ms(st.median),
+                ms(st.median) * 1000.0 / cells as f64,
+                w * w.trailing_zeros() as usize
+            );
+        }
+    }
 }
