@@ -652,7 +652,9 @@ const ARCH_TARGET_MS: f64 = 20.0;
 const MATRIX_TARGET_S: f64 = 10.0;
 
 fn arch_spec(arch: &str, width: usize) -> Spec {
-    parse(&format!("name: a{width}\nwidth: {width}\narchitecture: {arch}\n"))
+    parse(&format!(
+        "name: a{width}\nwidth: {width}\narchitecture: {arch}\n"
+    ))
 }
 
 /// Every architecture at 64 bits (all views, in process), the whole 11-architecture ×
@@ -698,7 +700,10 @@ fn bench_architectures() {
         for w in [8, 16, 32, 64, 128] {
             let s = arch_spec(a, w);
             let st = measure(2, 11, || carrywright::generate(&s).unwrap());
-            let cells = carrywright::build(&s).unwrap().prefix.map_or(0, |p| p.stats.cells);
+            let cells = carrywright::build(&s)
+                .unwrap()
+                .prefix
+                .map_or(0, |p| p.stats.cells);
             println!(
                 "    {a:<12} N={w:<4} {:>9.3} ms  {cells:>5} cells  {:>7.2} us/cell  N*log2(N) = {}",
                 ms(st.median),

@@ -9,14 +9,6 @@ mod common;
 
 const WIDTHS: &[usize] = &[4, 8, 16, 32, 64, 13, 27];
 
-fn climb(yaml: &str) {
-    let (dir, g, s) = common::generate(yaml, None);
-    let out = dir.path().join("out");
-    common::icarus(&out, &s.name);
-    common::verilator(&out, &s.name);
-    common::yosys_equiv(&out, &s.name, s.width, g.design.dynamic);
-}
-
 fn run_arch(arch: &str, extra: &[&str]) {
     if !common::tools(&["iverilog", "vvp", "verilator", "yosys"]) {
         return;
@@ -24,7 +16,7 @@ fn run_arch(arch: &str, extra: &[&str]) {
     for &w in WIDTHS {
         for body in std::iter::once(&"").chain(extra.iter()) {
             let name = format!("{}_{w}", arch.replace('-', "_"));
-            climb(&format!(
+            common::climb(&format!(
                 "name: {name}\nwidth: {w}\narchitecture: {arch}\n{body}testbench: {{random: 32, seed: 4}}\n"
             ));
         }
@@ -33,7 +25,10 @@ fn run_arch(arch: &str, extra: &[&str]) {
 
 #[test]
 fn carry_skip() {
-    run_arch("carry-skip", &["block: sqrt\n", "style: dynamic\nblock: 3\n"]);
+    run_arch(
+        "carry-skip",
+        &["block: sqrt\n", "style: dynamic\nblock: 3\n"],
+    );
 }
 
 #[test]
@@ -82,7 +77,9 @@ fn ngspice_eight_bit_each_architecture_gf180() {
     if !common::tools(&["ngspice"]) {
         return;
     }
-    let Some(models) = common::model_dir() else { return };
+    let Some(models) = common::model_dir() else {
+        return;
+    };
     for body in [
         "architecture: carry-skip\nblock: 4\n",
         "architecture: carry-skip\nstyle: dynamic\nblock: 4\n",
@@ -105,7 +102,10 @@ fn ngspice_eight_bit_each_architecture_gf180() {
         let v = common::printed(&log);
         let t = v.get("tcarry_rise").copied().unwrap_or(-1.0);
         let p = v.get("power").copied().unwrap_or(-1.0);
-        assert!(t > 0.0 && t < 20e-9 && p > 0.0, "{body}: tcarry_rise {t}, power {p}");
+        assert!(
+            t > 0.0 && t < 20e-9 && p > 0.0,
+            "{body}: tcarry_rise {t}, power {p}"
+        );
         common::check_deck_levels(&out, "a8", 3.3, &v);
     }
 }

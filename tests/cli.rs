@@ -471,12 +471,20 @@ fn describe_prints_prefix_counts_and_writes_svg() {
         .output()
         .unwrap();
     let stdout = String::from_utf8_lossy(&out.stdout);
-    assert!(out.status.success(), "{stdout}{}", String::from_utf8_lossy(&out.stderr));
+    assert!(
+        out.status.success(),
+        "{stdout}{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
     // Kogge-Stone, N = 8: 17 prefix cells, 3 levels (Harris 2003).
     assert!(stdout.contains("17 (10 black, 7 grey)"), "{stdout}");
     let text = std::fs::read_to_string(&svg).unwrap();
     assert!(text.starts_with("<svg") && text.trim_end().ends_with("</svg>"));
-    assert_eq!(text.matches("<title>black cell (").count(), 10, "one shape per black cell");
+    assert_eq!(
+        text.matches("<title>black cell (").count(),
+        10,
+        "one shape per black cell"
+    );
 }
 
 #[test]

@@ -22,11 +22,17 @@ fn plausible_spec(rng: &mut Rng) -> String {
     if arch != carrywright::spec::Architecture::Ripple {
         body.push_str(&format!("block: {block}\n"));
     }
-    if arch == carrywright::spec::Architecture::Manchester && width > block && rng.next_u64() % 2 == 0 {
+    if arch == carrywright::spec::Architecture::Manchester
+        && width > block
+        && rng.next_u64() % 2 == 0
+    {
         body.push_str(&format!("buffers: {{every: {block}}}\n"));
     }
     if arch.is_prefix() && rng.next_u64() % 2 == 0 {
-        body.push_str(&format!("buffers: {{fanout: {}}}\n", 2 + rng.next_u64() % 4));
+        body.push_str(&format!(
+            "buffers: {{fanout: {}}}\n",
+            2 + rng.next_u64() % 4
+        ));
     }
     body.push_str("testbench: {random: 8}\n");
     body
@@ -63,8 +69,15 @@ fn random_spec(rng: &mut Rng) -> String {
         _ => format!("buffers: {{at: [{k}]}}\n"),
     };
     let sizing = match rng.next_u64() % 5 {
-        0 => format!("sizing: {{keeper: {}}}\n", (rng.next_u64() % 5) as f64 * 0.2),
-        1 => format!("sizing: {{unit_n: {}, buffer: {}}}\n", 0.5 + (rng.next_u64() % 4) as f64, 1 + rng.next_u64() % 4),
+        0 => format!(
+            "sizing: {{keeper: {}}}\n",
+            (rng.next_u64() % 5) as f64 * 0.2
+        ),
+        1 => format!(
+            "sizing: {{unit_n: {}, buffer: {}}}\n",
+            0.5 + (rng.next_u64() % 4) as f64,
+            1 + rng.next_u64() % 4
+        ),
         _ => String::new(),
     };
     format!("name: p\nwidth: {width}\narchitecture: {arch}\n{style}{block}{buffers}{sizing}testbench: {{random: 8}}\n")
@@ -91,12 +104,18 @@ fn random_specs_are_refused_cleanly_or_add_correctly() {
             Err(_) => panic!("panic on spec:\n{yaml}"),
             Ok(Err(e)) => {
                 let m = e.to_string();
-                assert!(!m.contains('\n') && m.len() > 10, "unclear error for\n{yaml}: {m:?}");
+                assert!(
+                    !m.contains('\n') && m.len() > 10,
+                    "unclear error for\n{yaml}: {m:?}"
+                );
                 refused += 1;
             }
             Ok(Ok(())) => built += 1,
         }
     }
     eprintln!("{built} specs built and checked, {refused} refused");
-    assert!(built > 150 && refused > 100, "{built} built, {refused} refused: the generator is not exploring");
+    assert!(
+        built > 150 && refused > 100,
+        "{built} built, {refused} refused: the generator is not exploring"
+    );
 }

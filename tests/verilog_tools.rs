@@ -10,20 +10,12 @@ fn spec(name: &str, width: usize, arch: &str, style: &str, block: usize, buffers
     )
 }
 
-fn climb(yaml: &str) {
-    let (dir, g, s) = common::generate(yaml, None);
-    let out = dir.path().join("out");
-    common::icarus(&out, &s.name);
-    common::verilator(&out, &s.name);
-    common::yosys_equiv(&out, &s.name, s.width, g.design.dynamic);
-}
-
 fn matrix(cases: &[String]) {
     if !common::tools(&["iverilog", "vvp", "verilator", "yosys"]) {
         return;
     }
     for c in cases {
-        climb(c);
+        common::climb(c);
     }
 }
 

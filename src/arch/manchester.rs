@@ -7,8 +7,8 @@
 //! ~c, `_t` holds c). Dynamic style: every node is precharged and holds ~c; a buffered
 //! boundary is a domino inverter whose output discharges the next block's start node.
 
-use super::top_module;
-use crate::cells::{CellKind, Dir, Library};
+use super::{top_module, BlockPorts};
+use crate::cells::{CellKind, Library};
 use crate::netlist::{Design, DesignBuilder, Master, Module, NetId};
 use crate::spec::Spec;
 use std::collections::BTreeMap;
@@ -60,14 +60,7 @@ pub fn build(spec: &Spec, lib: &Library, dynamic: bool) -> Design {
             d.add_module(m)
         });
         let co = top.net(carry_name(hi, true_carry));
-        let mut conns = vec![];
-        conns.extend(t.clk);
-        conns.extend(&t.a[lo..hi]);
-        conns.extend(&t.b[lo..hi]);
-        conns.push(carry);
-        conns.extend(&t.s[lo..hi]);
-        conns.push(co);
-        top.inst(format!("xblk{k}"), master, conns);
+        top.inst(format!("xblk{k}"), master, t.block_conns(lo, hi, carry, co));
         carry = co;
 
         if hi < w && spec.buffers.positions.contains(&hi) {
@@ -119,18 +112,14 @@ fn block_module(
         "i"
     };
     let mut m = Module::new(format!("{name}_blk{size}_{suffix}"));
-    let clk = dynamic.then(|| m.port("clk", Dir::In));
-    let a: Vec<_> = (0..size)
-        .map(|j| m.port(&format!("a{j}"), Dir::In))
-        .collect();
-    let b: Vec<_> = (0..size)
-        .map(|j| m.port(&format!("b{j}"), Dir::In))
-        .collect();
-    let ci = m.port("ci", Dir::In);
-    let s: Vec<_> = (0..size)
-        .map(|j| m.port(&format!("s{j}"), Dir::Out))
-        .collect();
-    let co = m.port("co", Dir::Out);
+    let BlockPorts {
+        clk,
+        a,
+        b,
+        ci,
+        s,
+        co,
+    } = BlockPorts::new(&mut m, size, dynamic);
 
     chain_bits(d, &mut m, clk, &a, &b, ci, &s, Some(co), true_carry, keeper);
     m

@@ -42,6 +42,56 @@ pub fn top_module(name: &str, width: usize, dynamic: bool) -> (Module, TopNets) 
     )
 }
 
+impl TopNets {
+    /// Connections of a block over bits [lo, hi): `[clk] a.. b.. ci s.. co`, the order of
+    /// [`BlockPorts`].
+    pub fn block_conns(&self, lo: usize, hi: usize, ci: NetId, co: NetId) -> Vec<NetId> {
+        let mut conns = vec![];
+        conns.extend(self.clk);
+        conns.extend(&self.a[lo..hi]);
+        conns.extend(&self.b[lo..hi]);
+        conns.push(ci);
+        conns.extend(&self.s[lo..hi]);
+        conns.push(co);
+        conns
+    }
+}
+
+/// Ports of a block subcircuit, in the order `[clk] a0.. b0.. ci s0.. co`.
+pub struct BlockPorts {
+    pub clk: Option<NetId>,
+    pub a: Vec<NetId>,
+    pub b: Vec<NetId>,
+    pub ci: NetId,
+    pub s: Vec<NetId>,
+    pub co: NetId,
+}
+
+impl BlockPorts {
+    pub fn new(m: &mut Module, size: usize, dynamic: bool) -> BlockPorts {
+        let clk = dynamic.then(|| m.port("clk", Dir::In));
+        let a = (0..size)
+            .map(|j| m.port(&format!("a{j}"), Dir::In))
+            .collect();
+        let b = (0..size)
+            .map(|j| m.port(&format!("b{j}"), Dir::In))
+            .collect();
+        let ci = m.port("ci", Dir::In);
+        let s = (0..size)
+            .map(|j| m.port(&format!("s{j}"), Dir::Out))
+            .collect();
+        let co = m.port("co", Dir::Out);
+        BlockPorts {
+            clk,
+            a,
+            b,
+            ci,
+            s,
+            co,
+        }
+    }
+}
+
 /// Build the netlist a spec describes.
 pub fn build(spec: &Spec) -> Design {
     let lib = Library::new(Sizes::new(&spec.technology, &spec.sizing));

@@ -1,18 +1,25 @@
 //! Ripple-carry adder: a chain of mirror full adders, each restoring its carry.
 
-use super::top_module;
+use super::{top_module, TopNets};
 use crate::cells::{CellKind, Library};
-use crate::netlist::{Design, DesignBuilder};
+use crate::netlist::{Design, DesignBuilder, Module, NetId};
 use crate::spec::Spec;
 
-pub fn build(spec: &Spec, lib: &Library) -> Design {
-    let mut d = DesignBuilder::new(&spec.name, lib);
+/// Mirror full adders `xfa<i>` for bits [lo, hi) in the top module, from carry `ci` to `co`.
+pub fn chain(
+    d: &mut DesignBuilder,
+    top: &mut Module,
+    t: &TopNets,
+    lo: usize,
+    hi: usize,
+    ci: NetId,
+    co: NetId,
+) {
     let fa = d.cell(CellKind::FullAdder);
-    let (mut top, t) = top_module(&spec.name, spec.width, false);
-    let mut carry = t.cin;
-    for i in 0..spec.width {
-        let next = if i + 1 == spec.width {
-            t.cout
+    let mut carry = ci;
+    for i in lo..hi {
+        let next = if i + 1 == hi {
+            co
         } else {
             top.net(format!("c{}", i + 1))
         };
@@ -23,5 +30,11 @@ pub fn build(spec: &Spec, lib: &Library) -> Design {
         );
         carry = next;
     }
+}
+
+pub fn build(spec: &Spec, lib: &Library) -> Design {
+    let mut d = DesignBuilder::new(&spec.name, lib);
+    let (mut top, t) = top_module(&spec.name, spec.width, false);
+    chain(&mut d, &mut top, &t, 0, spec.width, t.cin, t.cout);
     d.finish(top, false)
 }

@@ -3,25 +3,17 @@
 //! of each from one propagate/generate/kill cell: a·b and a⊕b for 0, a+b and ~(a⊕b) for 1),
 //! and multiplexers steered by the incoming carry pick the result.
 
-use super::top_module;
-use crate::cells::{CellKind, Dir, Library};
+use super::{top_module, BlockPorts};
+use crate::cells::{CellKind, Library};
 use crate::netlist::{Design, DesignBuilder, Master, Module};
 use crate::spec::Spec;
 use std::collections::BTreeMap;
 
 fn select_block(d: &mut DesignBuilder, name: &str, size: usize) -> Module {
     let mut m = Module::new(format!("{name}_sel{size}"));
-    let a: Vec<_> = (0..size)
-        .map(|j| m.port(&format!("a{j}"), Dir::In))
-        .collect();
-    let b: Vec<_> = (0..size)
-        .map(|j| m.port(&format!("b{j}"), Dir::In))
-        .collect();
-    let ci = m.port("ci", Dir::In);
-    let s: Vec<_> = (0..size)
-        .map(|j| m.port(&format!("s{j}"), Dir::Out))
-        .collect();
-    let co = m.port("co", Dir::Out);
+    let BlockPorts {
+        a, b, ci, s, co, ..
+    } = BlockPorts::new(&mut m, size, false);
     let (pg, fa, mux) = (
         d.cell(CellKind::PgInverted),
         d.cell(CellKind::FullAdder),
@@ -79,7 +71,6 @@ pub fn sizes(width: usize, block: usize, sqrt: bool) -> Vec<usize> {
 pub fn build(spec: &Spec, lib: &Library) -> Design {
     let mut d = DesignBuilder::new(&spec.name, lib);
     let (mut top, t) = top_module(&spec.name, spec.width, false);
-    let fa = d.cell(CellKind::FullAdder);
     let sizes = spec
         .block_sizes
         .clone()
@@ -95,31 +86,14 @@ pub fn build(spec: &Spec, lib: &Library) -> Design {
             top.net(format!("c{hi}"))
         };
         if k == 0 {
-            for i in lo..hi {
-                let next = if i + 1 == hi {
-                    co
-                } else {
-                    top.net(format!("c{}", i + 1))
-                };
-                top.inst(
-                    format!("xfa{i}"),
-                    fa,
-                    vec![t.a[i], t.b[i], carry, t.s[i], next],
-                );
-                carry = next;
-            }
+            super::ripple::chain(&mut d, &mut top, &t, lo, hi, carry, co);
+            carry = co;
         } else {
             let master = *made.entry(size).or_insert_with(|| {
                 let m = select_block(&mut d, &spec.name, size);
                 d.add_module(m)
             });
-            let mut conns = vec![];
-            conns.extend(&t.a[lo..hi]);
-            conns.extend(&t.b[lo..hi]);
-            conns.push(carry);
-            conns.extend(&t.s[lo..hi]);
-            conns.push(co);
-            top.inst(format!("xblk{k}"), master, conns);
+            top.inst(format!("xblk{k}"), master, t.block_conns(lo, hi, carry, co));
             carry = co;
         }
         lo = hi;

@@ -8,8 +8,8 @@
 //! BP·c_in, which equals the multiplexer (BP implies c_ripple = c_in) and stays monotonic.
 
 use super::manchester::chain_bits;
-use super::top_module;
-use crate::cells::{CellKind, Dir, Library};
+use super::{top_module, BlockPorts};
+use crate::cells::{CellKind, Library};
 use crate::netlist::{Design, DesignBuilder, Master, Module, NetId};
 use crate::spec::Spec;
 use std::collections::BTreeMap;
@@ -47,18 +47,14 @@ fn skip_block(
         "{name}_skip{size}_{}",
         if dynamic { "d" } else { "s" }
     ));
-    let clk = dynamic.then(|| m.port("clk", Dir::In));
-    let a: Vec<_> = (0..size)
-        .map(|j| m.port(&format!("a{j}"), Dir::In))
-        .collect();
-    let b: Vec<_> = (0..size)
-        .map(|j| m.port(&format!("b{j}"), Dir::In))
-        .collect();
-    let ci = m.port("ci", Dir::In);
-    let s: Vec<_> = (0..size)
-        .map(|j| m.port(&format!("s{j}"), Dir::Out))
-        .collect();
-    let co = m.port("co", Dir::Out);
+    let BlockPorts {
+        clk,
+        a,
+        b,
+        ci,
+        s,
+        co,
+    } = BlockPorts::new(&mut m, size, dynamic);
     let start = m.net("c0_n");
     if let Some(clk) = clk {
         let st = d.cell(if keeper {
@@ -124,14 +120,7 @@ pub fn build(spec: &Spec, lib: &Library, dynamic: bool) -> Design {
         } else {
             top.net(format!("c{hi}"))
         };
-        let mut conns = vec![];
-        conns.extend(t.clk);
-        conns.extend(&t.a[lo..hi]);
-        conns.extend(&t.b[lo..hi]);
-        conns.push(carry);
-        conns.extend(&t.s[lo..hi]);
-        conns.push(co);
-        top.inst(format!("xblk{k}"), master, conns);
+        top.inst(format!("xblk{k}"), master, t.block_conns(lo, hi, carry, co));
         carry = co;
     }
     d.finish(top, dynamic)

@@ -71,7 +71,10 @@ pub fn title(spec: &Spec) -> String {
         spec.architecture.as_str(),
         spec.style.as_str()
     );
-    let rule = spec.block_rule.map(|r| format!(" ({r})")).unwrap_or_default();
+    let rule = spec
+        .block_rule
+        .map(|r| format!(" ({r})"))
+        .unwrap_or_default();
     match spec.architecture {
         A::Ripple => {}
         A::Manchester => {

@@ -21,18 +21,37 @@ pub fn table(spec: &Spec, design: &Design) -> String {
     }
     row(&mut out, "logic depth (stages)", c.logic_depth.to_string());
     if let Some(rule) = spec.block_rule {
-        row(&mut out, "block chosen", format!("{} by {rule}", spec.block));
+        row(
+            &mut out,
+            "block chosen",
+            format!("{} by {rule}", spec.block),
+        );
     }
     if let Some(sizes) = &spec.block_sizes {
         row(&mut out, "block sizes", itertools::join(sizes, "-"));
     }
     if !spec.buffers.positions.is_empty() {
-        row(&mut out, "buffers at bits", itertools::join(&spec.buffers.positions, ","));
+        row(
+            &mut out,
+            "buffers at bits",
+            itertools::join(&spec.buffers.positions, ","),
+        );
     }
     if let Some(p) = &design.prefix {
-        row(&mut out, "prefix cells", format!("{} ({} black, {} grey)", p.stats.cells, p.stats.black, p.stats.grey));
+        row(
+            &mut out,
+            "prefix cells",
+            format!(
+                "{} ({} black, {} grey)",
+                p.stats.cells, p.stats.black, p.stats.grey
+            ),
+        );
         row(&mut out, "prefix levels", p.stats.levels.to_string());
-        row(&mut out, "max lateral fan-out", p.stats.max_fanout.to_string());
+        row(
+            &mut out,
+            "max lateral fan-out",
+            p.stats.max_fanout.to_string(),
+        );
         row(&mut out, "max net fan-out", p.max_net_fanout.to_string());
         if p.fanout_buffers > 0 {
             row(&mut out, "fan-out buffers", p.fanout_buffers.to_string());
@@ -171,7 +190,13 @@ fn prefix_drawing(spec: &Spec, design: &Design, s: &mut Svg) {
     for c in &g.cells {
         let (hi, lo) = (g.nodes[c.hi_in], g.nodes[c.lo_in]);
         let _ = hi;
-        s.line(x(lo.hi), y(node_row[c.lo_in]), x(g.nodes[c.out].hi), y(c.row), "#336699");
+        s.line(
+            x(lo.hi),
+            y(node_row[c.lo_in]),
+            x(g.nodes[c.out].hi),
+            y(c.row),
+            "#336699",
+        );
     }
     let half = 7.0;
     for col in 0..n {
@@ -183,7 +208,10 @@ fn prefix_drawing(spec: &Spec, design: &Design, s: &mut Svg) {
             rx: 0.0,
             fill: "#ffffff",
             stroke: "#333333",
-            tip: format!("bit {col}: generate/propagate{}", if col == 0 { ", cin folded in" } else { "" }),
+            tip: format!(
+                "bit {col}: generate/propagate{}",
+                if col == 0 { ", cin folded in" } else { "" }
+            ),
         });
         if n <= 64 || col % 4 == 0 {
             s.text(x(col), y(0) - 12.0, col.to_string(), "middle");
@@ -223,13 +251,21 @@ fn prefix_drawing(spec: &Spec, design: &Design, s: &mut Svg) {
         });
     }
     let legend_y = y(rows + 1) + 36.0;
-    s.text(left, legend_y, "square: black cell (G and P)   round grey: grey cell (G only)   triangle: sum XOR", "start");
+    s.text(
+        left,
+        legend_y,
+        "square: black cell (G and P)   round grey: grey cell (G only)   triangle: sum XOR",
+        "start",
+    );
     if let Some(p) = &design.prefix {
         if p.fanout_buffers > 0 {
             s.text(
                 left,
                 legend_y + 16.0,
-                format!("{} fan-out buffers keep every net at {} loads or fewer (not drawn)", p.fanout_buffers, p.max_net_fanout),
+                format!(
+                    "{} fan-out buffers keep every net at {} loads or fewer (not drawn)",
+                    p.fanout_buffers, p.max_net_fanout
+                ),
                 "start",
             );
         }
@@ -264,10 +300,16 @@ fn chain_drawing(spec: &Spec, s: &mut Svg) {
         A::Manchester => format!(
             "{} blocks of pass-transistor chain; {}",
             ranges.len(),
-            if spec.style == Style::Dynamic { "triangles: domino boundaries" } else { "triangles: restoring buffers" }
+            if spec.style == Style::Dynamic {
+                "triangles: domino boundaries"
+            } else {
+                "triangles: restoring buffers"
+            }
         ),
         A::CarrySkip => "Manchester blocks; arcs: block-propagate bypasses".into(),
-        A::CarrySelect => "first block ripples; later blocks compute both carries, a multiplexer picks".into(),
+        A::CarrySelect => {
+            "first block ripples; later blocks compute both carries, a multiplexer picks".into()
+        }
         _ => String::new(),
     };
     let (by, bh) = (top, 44.0);
@@ -285,7 +327,12 @@ fn chain_drawing(spec: &Spec, s: &mut Svg) {
             tip: format!("bits {lo}..{}", hi - 1),
         });
         if x1 - x0 > 26.0 {
-            s.text((x0 + x1) / 2.0, by + 18.0, format!("{}..{}", hi - 1, lo), "middle");
+            s.text(
+                (x0 + x1) / 2.0,
+                by + 18.0,
+                format!("{}..{}", hi - 1, lo),
+                "middle",
+            );
             if select {
                 s.text((x0 + x1) / 2.0, by + 34.0, "x2 + mux", "middle");
             }
@@ -319,7 +366,15 @@ fn chain_drawing(spec: &Spec, s: &mut Svg) {
     for p in buffered {
         let bx = x(p);
         s.polys.push(Poly {
-            points: format!("{},{} {},{} {},{}", bx + 6.0, by - 16.0, bx - 6.0, by - 22.0, bx - 6.0, by - 10.0),
+            points: format!(
+                "{},{} {},{} {},{}",
+                bx + 6.0,
+                by - 16.0,
+                bx - 6.0,
+                by - 22.0,
+                bx - 6.0,
+                by - 10.0
+            ),
             fill: "#ffcc66",
             tip: format!("buffer between bit {} and bit {p}", p - 1),
         });

@@ -75,7 +75,10 @@ fn hex(x: u128) -> String {
 }
 
 pub fn json(spec: &Spec, design: &Design, plan: &[Labeled], deck: &DeckPlan) -> Result<String> {
-    let chain = matches!(spec.architecture, Architecture::Manchester | Architecture::CarrySkip);
+    let chain = matches!(
+        spec.architecture,
+        Architecture::Manchester | Architecture::CarrySkip
+    );
     let tech = &spec.technology;
     let s = Summary {
         generator: format!("carrywright {VERSION}"),
