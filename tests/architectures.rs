@@ -106,6 +106,6 @@ fn ngspice_eight_bit_each_architecture_gf180() {
             t > 0.0 && t < 20e-9 && p > 0.0,
             "{body}: tcarry_rise {t}, power {p}"
         );
-        common::check_deck_levels(&out, "a8", 3.3, &v);
+        common::check_deck_levels(&out, "a8", 3.3, &log);
     }
 }

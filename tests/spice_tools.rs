@@ -23,7 +23,7 @@ fn simulate(yaml: &str, model_dir: Option<PathBuf>) -> Run {
         s.name
     );
     let values = common::printed(&log);
-    common::check_deck_levels(&out, &s.name, s.technology.vdd, &values);
+    common::check_deck_levels(&out, &s.name, s.technology.vdd, &log);
     Run { values, log }
 }
 
@@ -103,10 +103,9 @@ fn ngspice_dynamic_designs_gf180() {
         assert!(t < 20e-9, "{name}: clk to cout {t}");
         measured(&r, "power");
         // The precharge-phase samples of cout were printed and are low.
-        let pre: Vec<f64> = r
-            .values
+        let pre: Vec<f64> = common::samples(&r.log)
             .iter()
-            .filter(|(k, _)| k.starts_with("pre_cout_"))
+            .filter(|(k, _)| k.starts_with('p') && k.ends_with(" cout"))
             .map(|(_, v)| *v)
             .collect();
         assert!(

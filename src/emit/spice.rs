@@ -263,16 +263,16 @@ struct SourceCtx {
     lines: Vec<String>,
 }
 
+/// One strobe time: the nodes sampled then and the level each should have.
 #[derive(Serialize)]
-struct SampleCtx {
-    var: String,
-    node: String,
+struct StrobeCtx {
+    tag: String,
+    note: String,
     at: String,
-    /// `< 2.64` or `> 0.66`: the comparison that marks a wrong level.
-    fails_if: String,
-    /// Starting value: the wrong level, so a failed measurement counts as a failure.
-    sentinel: &'static str,
-    expect_text: &'static str,
+    /// Node names, space-separated.
+    nodes: String,
+    /// Expected levels (1 or 0) in the order of `nodes`, space-separated.
+    want: String,
 }
 
 #[derive(Serialize)]
@@ -304,7 +304,8 @@ struct DeckCtx {
     fall_td: String,
     measure_fall: bool,
     delay_note: String,
-    samples: Vec<SampleCtx>,
+    strobes: Vec<StrobeCtx>,
+    sample_count: usize,
 }
 
 fn s(x: f64) -> String {
@@ -365,34 +366,35 @@ pub fn deck(spec: &Spec, design: &Design, plan: &DeckPlan) -> Result<String> {
     let mut outputs: Vec<String> = (0..w).map(|i| format!("s{i}")).collect();
     outputs.push("cout".into());
 
-    let fail_low = format!("< {}", trim_num(0.8 * vdd));
-    let fail_high = format!("> {}", trim_num(0.2 * vdd));
-    let mut samples = vec![];
+    let mut strobes = vec![];
+    let mut sample_count = 0;
     for (k, v) in plan.vectors.iter().enumerate() {
-        let at = k as f64 * t + plan.strobe * t;
-        for (i, o) in outputs.iter().enumerate() {
-            let expect = if i < w { bit(v.v.s, i) } else { v.v.cout };
-            samples.push(SampleCtx {
-                var: format!("v_{o}_{k}"),
-                node: o.clone(),
-                at: s(at),
-                fails_if: if expect {
-                    fail_low.clone()
+        let want: Vec<&str> = (0..=w)
+            .map(|i| {
+                let one = if i < w { bit(v.v.s, i) } else { v.v.cout };
+                if one {
+                    "1"
                 } else {
-                    fail_high.clone()
-                },
-                sentinel: if expect { "-100" } else { "100" },
-                expect_text: if expect { "1" } else { "0" },
-            });
-        }
+                    "0"
+                }
+            })
+            .collect();
+        sample_count += outputs.len();
+        strobes.push(StrobeCtx {
+            tag: format!("v{k}"),
+            note: format!("vector {k}: {}", v.label),
+            at: s(k as f64 * t + plan.strobe * t),
+            nodes: outputs.join(" "),
+            want: want.join(" "),
+        });
         if let Some(p) = plan.precharge_strobe {
-            samples.push(SampleCtx {
-                var: format!("pre_cout_{k}"),
-                node: "cout".into(),
+            sample_count += 1;
+            strobes.push(StrobeCtx {
+                tag: format!("p{k}"),
+                note: format!("vector {k}, precharge: cout low"),
                 at: s(k as f64 * t + p * t),
-                fails_if: fail_high.clone(),
-                sentinel: "100",
-                expect_text: "0 (precharge)",
+                nodes: "cout".into(),
+                want: "0".into(),
             });
         }
     }
@@ -453,7 +455,8 @@ pub fn deck(spec: &Spec, design: &Design, plan: &DeckPlan) -> Result<String> {
                 "cin to cout, all propagate (vector {WORST_CASE_RISE} rising, vector {WORST_CASE_FALL} falling)"
             )
         },
-        samples,
+        strobes,
+        sample_count,
     };
     render("spice/deck.sp", &ctx)
 }

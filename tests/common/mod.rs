@@ -165,6 +165,17 @@ pub fn yosys_prove(out: &Path, name: &str, width: usize, dynamic: bool) -> (bool
     run(Command::new("yosys").args(["-q", "-p", &script]))
 }
 
+/// The deck's output samples: `sample TAG NODE VOLTS` lines, keyed `TAG NODE` (`v3 s0`).
+pub fn samples(log: &str) -> std::collections::BTreeMap<String, f64> {
+    log.lines()
+        .filter_map(|l| {
+            let mut w = l.strip_prefix("sample ")?.split_whitespace();
+            let (tag, node, v) = (w.next()?, w.next()?, w.next()?);
+            Some((format!("{tag} {node}"), v.parse::<f64>().ok()?))
+        })
+        .collect()
+}
+
 /// Values printed by the deck's `print` lines: `name = value`.
 pub fn printed(log: &str) -> std::collections::BTreeMap<String, f64> {
     log.lines()
@@ -190,12 +201,8 @@ pub fn ngspice(out: &Path, name: &str) -> (bool, String) {
 }
 
 /// Every output sample the deck printed matches the expected bit from NAME.json.
-pub fn check_deck_levels(
-    out: &Path,
-    name: &str,
-    vdd: f64,
-    values: &std::collections::BTreeMap<String, f64>,
-) {
+pub fn check_deck_levels(out: &Path, name: &str, vdd: f64, log: &str) {
+    let values = samples(log);
     let json: serde_json::Value =
         serde_json::from_str(&std::fs::read_to_string(out.join(format!("{name}.json"))).unwrap())
             .unwrap();
@@ -219,10 +226,10 @@ pub fn check_deck_levels(
             } else {
                 ("cout".to_string(), v["cout"].as_u64().unwrap() == 1)
             };
-            let key = format!("v_{node}_{k}");
+            let key = format!("v{k} {node}");
             let volts = *values
                 .get(&key)
-                .unwrap_or_else(|| panic!("{name}: ngspice printed no {key}"));
+                .unwrap_or_else(|| panic!("{name}: ngspice printed no sample {key}"));
             if bit {
                 assert!(
                     volts >= 0.8 * vdd,
