@@ -695,6 +695,38 @@ fn bench_architectures() {
         verdict(total < MATRIX_TARGET_S),
     );
 
+    let s128 = arch_spec("kogge-stone", 128);
+    let d128 = carrywright::build(&s128).unwrap();
+    println!("  split for kogge-stone N=128:");
+    line(
+        "    build (arch + structural check)",
+        &measure(1, 9, || carrywright::build(&s128).unwrap()),
+    );
+    line(
+        "    check_or_fail",
+        &measure(1, 9, || {
+            sim::check_or_fail(
+                &d128,
+                1,
+                carrywright::GENERATE_RANDOM,
+                carrywright::GENERATE_EXHAUSTIVE_MAX,
+            )
+            .unwrap()
+        }),
+    );
+    line(
+        "    verilog::design",
+        &measure(1, 9, || verilog::design(&s128, &d128).unwrap()),
+    );
+    line(
+        "    spice::subcircuits",
+        &measure(1, 9, || spice::subcircuits(&s128, &d128).unwrap()),
+    );
+    line(
+        "    render_all",
+        &measure(1, 9, || emit::render_all(&s128, &d128).unwrap()),
+    );
+    line("    logic_depth", &measure(1, 9, || d128.logic_depth()));
     println!("  growth with width (generate median; prefix cells; time per cell):");
     for a in ["kogge-stone", "brent-kung"] {
         for w in [8, 16, 32, 64, 128] {

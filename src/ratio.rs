@@ -45,6 +45,15 @@ fn feasible(design: &Design, flat: &Flat, leaf: usize, required: &[(usize, bool)
 }
 
 pub fn check(design: &Design, flat: &Flat) -> Result<()> {
+    let has_keeper = |k: &crate::cells::CellKind| {
+        design.cells[k]
+            .devices
+            .iter()
+            .any(|d| d.role == Role::Keeper)
+    };
+    if !design.cells.keys().any(has_keeper) {
+        return Ok(());
+    }
     let mut names = flat.names.clone();
     let vss = names.len() as u32;
     names.push("vss".into());
