@@ -133,12 +133,13 @@ pub fn render_all(spec: &Spec, design: &Design) -> Result<Vec<(String, String)>>
 }
 
 /// Wrap words into lines of at most `width` characters (for SPICE continuation lines).
-pub(crate) fn wrap(words: &[String], width: usize) -> Vec<String> {
+pub(crate) fn wrap<S: AsRef<str>>(words: &[S], width: usize) -> Vec<String> {
     let mut lines: Vec<String> = vec![];
-    let mut cur = String::new();
+    let mut cur = String::with_capacity(width);
     for w in words {
+        let w = w.as_ref();
         if !cur.is_empty() && cur.len() + 1 + w.len() > width {
-            lines.push(std::mem::take(&mut cur));
+            lines.push(std::mem::replace(&mut cur, String::with_capacity(width)));
         }
         if !cur.is_empty() {
             cur.push(' ');

@@ -258,9 +258,22 @@ pub fn default_period(spec: &Spec) -> f64 {
     p.max(2.0 * ns)
 }
 
+/// An element line of the deck split for printing: its first line and its `+`
+/// continuation lines.
 #[derive(Serialize)]
-struct SourceCtx {
-    lines: Vec<String>,
+struct LinesCtx {
+    head: String,
+    rest: Vec<String>,
+}
+
+impl LinesCtx {
+    fn new(mut lines: Vec<String>) -> LinesCtx {
+        let rest = lines.split_off(1.min(lines.len()));
+        LinesCtx {
+            head: lines.pop().unwrap_or_default(),
+            rest,
+        }
+    }
 }
 
 /// One strobe time: the nodes sampled then and the level each should have.
@@ -296,8 +309,8 @@ struct DeckCtx {
     vector_count: usize,
     strobe_note: String,
     model_lines: Vec<String>,
-    sources: Vec<SourceCtx>,
-    dut: Vec<String>,
+    sources: Vec<LinesCtx>,
+    dut: LinesCtx,
     outputs: Vec<String>,
     trig: &'static str,
     rise_td: String,
@@ -321,29 +334,40 @@ pub fn deck(spec: &Spec, design: &Design, plan: &DeckPlan) -> Result<String> {
     let t = plan.period;
     // Inputs change just after the start of each period (after clk has fallen in dynamic).
     let change = if dynamic { 2.0 * plan.slew } else { 0.0 };
+    // PWL points, shared by every source: the level at 0 (low, high) and, for each vector
+    // k, the two points of an input edge as vector k begins (rising, falling).
+    let vdd_text = trim_num(vdd);
+    let level = |b: bool| if b { vdd_text.as_str() } else { "0" };
+    let start = [format!("0 {}", level(false)), format!("0 {}", level(true))];
+    let edges: Vec<[[String; 2]; 2]> = (0..plan.vectors.len())
+        .map(|k| {
+            let t0 = k as f64 * t + change;
+            let (begin, end) = (s(t0), s(t0 + plan.slew));
+            let edge = |from: bool| {
+                [
+                    format!("{begin} {}", level(from)),
+                    format!("{end} {}", level(!from)),
+                ]
+            };
+            [edge(false), edge(true)]
+        })
+        .collect();
     let bit = |x: u128, i: usize| (x >> i) & 1 == 1;
-    let mut sources = vec![];
-    let mut add_source = |node: String, level: &dyn Fn(&Labeled) -> bool| {
-        let mut pts: Vec<String> = vec![];
-        let v0 = level(&plan.vectors[0]);
-        pts.push(format!("0 {}", if v0 { trim_num(vdd) } else { "0".into() }));
-        let mut prev = v0;
+    let mut sources = Vec::with_capacity(2 * w + 1);
+    let mut add_source = |node: String, high: &dyn Fn(&Labeled) -> bool| {
+        let element = format!("v{node}");
+        let mut words: Vec<&str> = vec![&element, &node, "0", "pwl("];
+        let mut prev = high(&plan.vectors[0]);
+        words.push(&start[prev as usize]);
         for (k, v) in plan.vectors.iter().enumerate().skip(1) {
-            let now = level(v);
+            let now = high(v);
             if now != prev {
-                let t0 = k as f64 * t + change;
-                let lv = |b: bool| if b { trim_num(vdd) } else { "0".into() };
-                pts.push(format!("{} {}", s(t0), lv(prev)));
-                pts.push(format!("{} {}", s(t0 + plan.slew), lv(now)));
+                words.extend(edges[k][prev as usize].iter().map(String::as_str));
                 prev = now;
             }
         }
-        let mut words = vec![format!("v{node}"), node.clone(), "0".into(), "pwl(".into()];
-        words.extend(pts);
-        words.push(")".into());
-        sources.push(SourceCtx {
-            lines: wrap(&words, LINE),
-        });
+        words.push(")");
+        sources.push(LinesCtx::new(wrap(&words, LINE)));
     };
     for i in 0..w {
         add_source(format!("a{i}"), &|v: &Labeled| bit(v.v.a, i));
@@ -420,7 +444,7 @@ pub fn deck(spec: &Spec, design: &Design, plan: &DeckPlan) -> Result<String> {
         name: spec.name.clone(),
         origin: tech.origin.clone(),
         dynamic,
-        vdd: trim_num(vdd),
+        vdd: vdd_text.clone(),
         half_vdd: trim_num(vdd / 2.0),
         hi_level: trim_num(0.8 * vdd),
         lo_level: trim_num(0.2 * vdd),
@@ -442,7 +466,7 @@ pub fn deck(spec: &Spec, design: &Design, plan: &DeckPlan) -> Result<String> {
         },
         model_lines,
         sources,
-        dut: wrap(&dut, LINE),
+        dut: LinesCtx::new(wrap(&dut, LINE)),
         outputs,
         trig: plan.delay_from,
         rise_td: s(rise_td),
