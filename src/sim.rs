@@ -18,6 +18,21 @@ enum Op {
     Const(u32, u64),
 }
 
+impl Op {
+    fn dest(&self) -> u32 {
+        match *self {
+            Op::Not(d, _) | Op::And(d, _, _) | Op::Or(d, _, _) | Op::Xor(d, _, _) => d,
+            Op::Mux(d, _, _, _) | Op::Const(d, _) => d,
+        }
+    }
+    fn set_dest(&mut self, new: u32) {
+        match self {
+            Op::Not(d, _) | Op::And(d, _, _) | Op::Or(d, _, _) | Op::Xor(d, _, _) => *d = new,
+            Op::Mux(d, _, _, _) | Op::Const(d, _) => *d = new,
+        }
+    }
+}
+
 /// A compiled netlist.
 pub struct Evaluator {
     ops: Vec<Op>,
@@ -38,9 +53,15 @@ impl Evaluator {
             let leaf = &flat.leaves[li];
             let cell = &design.cells[&leaf.kind];
             for (out, f) in &cell.logic {
+                let first_temp = values_len;
                 let r = compile(f, &leaf.nets, &mut ops, &mut values_len);
-                // Copy into the output net: an And with itself keeps the op set small.
-                ops.push(Op::And(leaf.nets[*out], r, r));
+                let dest = leaf.nets[*out];
+                // The last op produced the result into a fresh temporary: write the output
+                // net directly. Otherwise (the function is a bare pin) copy it.
+                match ops.last_mut() {
+                    Some(op) if r >= first_temp && op.dest() == r => op.set_dest(dest),
+                    _ => ops.push(Op::And(dest, r, r)),
+                }
             }
         }
         let top = design.top();
