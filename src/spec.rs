@@ -667,7 +667,7 @@ fn parse_buffers(
             return Err(src.error("buffers", "give exactly one of `every` or `at`"))
         }
         (Some(k), None) => {
-            if k < 1 || k as usize % block != 0 {
+            if k < 1 || !(k as usize).is_multiple_of(block) {
                 return Err(src.error(
                     "buffers.every",
                     format!("must be a positive multiple of block ({block}), got {k}"),
@@ -698,7 +698,7 @@ fn parse_buffers(
                         format!("position {p} is not inside the word (1..{})", width - 1),
                     ));
                 }
-                if p as usize % block != 0 {
+                if !(p as usize).is_multiple_of(block) {
                     return Err(src.error(
                         &path,
                         format!("position {p} is not on a block boundary (block is {block})"),
@@ -987,11 +987,7 @@ pub fn parse_quantity(v: &serde_yaml::Value, unit: char) -> std::result::Result<
                 .ok_or_else(|| "not a finite number".to_string())
         }
         serde_yaml::Value::String(s) => s.trim().to_string(),
-        _ => {
-            return Err(format!(
-                "expected a number with an optional suffix such as 10f or 5n"
-            ))
-        }
+        _ => return Err("expected a number with an optional suffix such as 10f or 5n".to_string()),
     };
     let lower = text.to_ascii_lowercase();
     let unit_l = unit.to_ascii_lowercase();

@@ -247,6 +247,7 @@ impl<'a> Schematic<'a> {
             devices: vec![],
         }
     }
+    #[allow(clippy::too_many_arguments)]
     fn push(
         &mut self,
         name: &str,

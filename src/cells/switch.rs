@@ -53,9 +53,8 @@ pub fn settle(
         })
         .collect();
     for _round in 0..4 * n {
-        let on = |g: Option<bool>, m: Mos| match (m, g) {
-            (Mos::N, Some(true)) | (Mos::P, Some(false)) => true,
-            _ => false,
+        let on = |g: Option<bool>, m: Mos| {
+            matches!((m, g), (Mos::N, Some(true)) | (Mos::P, Some(false)))
         };
         let mut next = val.clone();
         let mut seen = vec![false; n];
