@@ -30,8 +30,66 @@ pub const GENERATE_EXHAUSTIVE_MAX: usize = 8;
 /// Build the netlist and run its structural checks.
 pub fn build(spec: &Spec) -> Result<Design> {
     let design = arch::build(spec);
+    check_sizes(spec, &design)?;
+    check_name_is_free(spec, &design)?;
     design.check()?;
     Ok(design)
+}
+
+/// Every device is at least the technology's smallest width and length, and of a size a
+/// process can draw (bad `sizing` values are input errors, exit 2).
+fn check_sizes(spec: &Spec, design: &Design) -> Result<()> {
+    let t = &spec.technology;
+    for cell in design.cells.values() {
+        for d in &cell.devices {
+            let bad = if !(d.w.is_finite() && d.l.is_finite()) {
+                Some("is not a finite size".to_string())
+            } else if d.w + 1e-9 < t.w_min {
+                Some(format!(
+                    "would be {} µm wide, below the technology's w_min {} µm",
+                    d.w, t.w_min
+                ))
+            } else if d.l + 1e-9 < t.l_min {
+                Some(format!(
+                    "would be {} µm long, below the technology's l_min {} µm",
+                    d.l, t.l_min
+                ))
+            } else if d.w > 1000.0 || d.l > 50.0 * t.l_min {
+                Some(format!(
+                    "would be {} µm × {} µm, too large to be meant",
+                    d.w, d.l
+                ))
+            } else {
+                None
+            };
+            if let Some(why) = bad {
+                return Err(Error::Input(format!(
+                    "sizing: device {} of cell {} {why}; change sizing.unit_n, sizing.pn_ratio or sizing.keeper",
+                    d.name, cell.base
+                )));
+            }
+        }
+    }
+    Ok(())
+}
+
+/// The design's name must not also be a net or instance name inside it (Verilog would hide
+/// one with the other).
+fn check_name_is_free(spec: &Spec, design: &Design) -> Result<()> {
+    let lower = spec.name.to_ascii_lowercase();
+    for m in &design.modules {
+        let clash = m.nets.iter().any(|n| n.name.to_ascii_lowercase() == lower)
+            || m.instances
+                .iter()
+                .any(|i| i.name.to_ascii_lowercase() == lower);
+        if clash {
+            return Err(Error::Input(format!(
+                "name: `{}` is also a net or instance name inside module {}; choose another",
+                spec.name, m.name
+            )));
+        }
+    }
+    Ok(())
 }
 
 /// Everything `generate` produces, in memory.

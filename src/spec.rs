@@ -217,7 +217,17 @@ impl Source<'_> {
     /// An error about `path` (dotted key path), with the line and column of that key when
     /// it can be found in the text.
     pub fn error(&self, path: &str, msg: impl AsRef<str>) -> Error {
-        match locate(self.text, path) {
+        // The key itself, or else the nearest enclosing key that can be found.
+        let mut at = None;
+        let mut p = path;
+        while at.is_none() && !p.is_empty() {
+            at = locate(self.text, p);
+            p = match p.rfind(['.', '[']) {
+                Some(i) => &p[..i],
+                None => "",
+            };
+        }
+        match at {
             Some((l, c)) => Error::Input(format!(
                 "{}:{}:{}: {}: {}",
                 self.label,
@@ -473,7 +483,9 @@ fn validate(raw: RawSpec, src: &Source, base: &Path, opts: &LoadOptions) -> Resu
                     other => other,
                 })?
             } else if t.ends_with(".yaml") || t.ends_with(".yml") {
-                check_path_text(t).map_err(|m| src.error("technology", m))?;
+                if t.chars().any(|c| c.is_control()) {
+                    return Err(src.error("technology", "the path contains a control character"));
+                }
                 let path = base.join(t);
                 if !path.is_file() {
                     return Err(src.error(
@@ -506,7 +518,7 @@ fn validate(raw: RawSpec, src: &Source, base: &Path, opts: &LoadOptions) -> Resu
         if !v.is_finite() || v < lo || v > hi {
             Err(src.error(
                 &format!("sizing.{key}"),
-                format!("must be between {lo} and {hi}, got {v}"),
+                format!("must be between {lo} and {hi}, got {}", short_num(v)),
             ))
         } else {
             Ok(())
@@ -514,7 +526,10 @@ fn validate(raw: RawSpec, src: &Source, base: &Path, opts: &LoadOptions) -> Resu
     };
     in_range("unit_n", sizing.unit_n, technology.w_min, 100.0)?;
     in_range("pn_ratio", sizing.pn_ratio, 0.25, 8.0)?;
-    in_range("keeper", sizing.keeper, 0.0, 1.0)?;
+    if sizing.keeper != 0.0 {
+        // A keeper as strong as a unit NMOS fights every discharge path to a draw.
+        in_range("keeper", sizing.keeper, 0.02, 0.9)?;
+    }
     in_range("buffer", sizing.buffer, 1.0, 32.0)?;
     if rs.keeper.is_some() && style == Style::Static {
         return Err(src.error(
@@ -553,6 +568,20 @@ fn validate(raw: RawSpec, src: &Source, base: &Path, opts: &LoadOptions) -> Resu
     let load = quantity("load", &rt.load, 'F', 0.0, 10e-12)?.unwrap_or(10e-15);
     let period = quantity("period", &rt.period, 's', 100e-12, 1e-6)?;
     let step = quantity("step", &rt.step, 's', 0.1e-12, 1e-9)?;
+    if let Some(p) = period {
+        // Inputs change two slews into a period; a dynamic deck also needs a precharge half.
+        let min = technology.slew * if style == Style::Dynamic { 20.0 } else { 10.0 };
+        if p < min {
+            return Err(src.error(
+                "testbench.period",
+                format!(
+                    "must be at least {} for {} style with this technology's input slew",
+                    fmt_si(min, 's'),
+                    style.as_str()
+                ),
+            ));
+        }
+    }
     if let (Some(p), Some(s)) = (period, step) {
         if s * 20.0 > p {
             return Err(src.error("testbench.step", "must be at most 1/20 of testbench.period"));
@@ -610,8 +639,23 @@ fn parse_buffers(
             ))
         }
     };
-    let raw: RawBuffers = serde_yaml::from_value(v.clone())
-        .map_err(|e| src.error("buffers", clean_serde_message(&e.to_string(), "buffers")))?;
+    let raw: RawBuffers = serde_path_to_error::deserialize(v.clone()).map_err(|e| {
+        let inner: String = e
+            .path()
+            .to_string()
+            .chars()
+            .flat_map(|c| c.escape_debug())
+            .collect();
+        let path = if inner.is_empty() || inner == "." {
+            "buffers".to_string()
+        } else {
+            format!("buffers.{inner}")
+        };
+        src.error(
+            &path,
+            clean_serde_message(&e.into_inner().to_string(), &path),
+        )
+    })?;
     match arch {
         Architecture::Ripple => {
             return Err(src.error(
@@ -898,6 +942,87 @@ const RESERVED: &[&str] = &[
     "var",
     "virtual",
     "with",
+    // The rest of the IEEE 1800-2017 keywords (Verilator reads .v files as SystemVerilog)
+    "accept_on",
+    "always_comb",
+    "always_ff",
+    "always_latch",
+    "assert",
+    "assume",
+    "before",
+    "bind",
+    "bins",
+    "binsof",
+    "break",
+    "checker",
+    "clocking",
+    "constraint",
+    "continue",
+    "covergroup",
+    "coverpoint",
+    "cross",
+    "endchecker",
+    "endclass",
+    "endclocking",
+    "endgroup",
+    "endinterface",
+    "endpackage",
+    "endprogram",
+    "endproperty",
+    "endsequence",
+    "eventually",
+    "expect",
+    "first_match",
+    "forkjoin",
+    "iff",
+    "ignore_bins",
+    "illegal_bins",
+    "implements",
+    "implies",
+    "inside",
+    "interconnect",
+    "intersect",
+    "join_any",
+    "join_none",
+    "let",
+    "matches",
+    "modport",
+    "nettype",
+    "nexttime",
+    "randcase",
+    "randsequence",
+    "reject_on",
+    "restrict",
+    "s_always",
+    "s_eventually",
+    "s_nexttime",
+    "s_until",
+    "s_until_with",
+    "shortreal",
+    "soft",
+    "solve",
+    "strong",
+    "sync_accept_on",
+    "sync_reject_on",
+    "tagged",
+    "throughout",
+    "timeprecision",
+    "timeunit",
+    "unique0",
+    "until",
+    "until_with",
+    "untyped",
+    "wait_order",
+    "weak",
+    "wildcard",
+    "within",
+    // The top module's own port names (a module may not share a name with its port)
+    "a",
+    "b",
+    "cin",
+    "s",
+    "cout",
+    "clk",
     // SPICE / ngspice words (ngspice manual)
     "subckt",
     "ends",
@@ -941,8 +1066,32 @@ pub fn check_identifier(name: &str) -> std::result::Result<(), String> {
     }
     if RESERVED.contains(&name.to_ascii_lowercase().as_str()) {
         return Err(format!(
-            "`{name}` is a Verilog or SPICE keyword; choose another name"
+            "`{name}` is a Verilog or SPICE keyword or one of the top module's ports; choose another name"
         ));
+    }
+    Ok(())
+}
+
+/// A device model or library section name as SPICE prints it: a plain word.
+pub fn check_spice_word(name: &str) -> std::result::Result<(), String> {
+    let mut chars = name.chars();
+    let ok_first = matches!(chars.next(), Some(c) if c.is_ascii_alphabetic() || c == '_');
+    if !ok_first
+        || !name
+            .chars()
+            .all(|c| c.is_ascii_alphanumeric() || "_.-".contains(c))
+        || name.len() > 64
+    {
+        return Err(format!(
+            "`{}` is not a plain SPICE name ([A-Za-z_][A-Za-z0-9_.-]*, at most 64 characters)",
+            printable(name)
+        ));
+    }
+    if matches!(
+        name.to_ascii_lowercase().as_str(),
+        "control" | "endc" | "end" | "ends" | "subckt"
+    ) {
+        return Err(format!("`{name}` is a SPICE control word"));
     }
     Ok(())
 }
@@ -966,6 +1115,15 @@ pub fn check_path_text(p: &str) -> std::result::Result<(), String> {
         return Err("the path contains a SPICE control word".into());
     }
     Ok(())
+}
+
+/// A number for a message: plain when it is of ordinary size, else in exponent form.
+fn short_num(v: f64) -> String {
+    if v != 0.0 && (v.abs() < 1e-3 || v.abs() >= 1e6) {
+        format!("{v:e}")
+    } else {
+        format!("{v}")
+    }
 }
 
 /// Show untrusted text in a message on one line.

@@ -3,7 +3,7 @@
 //! ngspice models; any other technology is a YAML file.
 
 use crate::error::{Error, Result};
-use crate::spec::{check_identifier, check_path_text, LoadOptions, Source};
+use crate::spec::{check_identifier, check_path_text, check_spice_word, LoadOptions, Source};
 use serde::{Deserialize, Serialize};
 use std::path::{Path, PathBuf};
 
@@ -171,8 +171,8 @@ pub fn load_file(path: &Path, opts: &LoadOptions) -> Result<Technology> {
     };
     let raw: RawTech = src.parse()?;
     check_identifier(&raw.name).map_err(|m| src.error("name", m))?;
-    check_identifier(&raw.nmos).map_err(|m| src.error("nmos", m))?;
-    check_identifier(&raw.pmos).map_err(|m| src.error("pmos", m))?;
+    check_spice_word(&raw.nmos).map_err(|m| src.error("nmos", m))?;
+    check_spice_word(&raw.pmos).map_err(|m| src.error("pmos", m))?;
     let range = |key: &str, v: f64, lo: f64, hi: f64| -> Result<()> {
         if v.is_finite() && (lo..=hi).contains(&v) {
             Ok(())
@@ -208,7 +208,12 @@ pub fn load_file(path: &Path, opts: &LoadOptions) -> Result<Technology> {
         .chain(raw.lib.iter().map(|l| &l.file))
         .any(|p| p.starts_with("${MODEL_DIR}"));
     let dir = if needs_dir {
-        Some(model_dir(opts, &raw.name)?)
+        let key = if raw.include.iter().any(|p| p.starts_with("${MODEL_DIR}")) {
+            "include"
+        } else {
+            "lib"
+        };
+        Some(model_dir(opts, &raw.name).map_err(|e| src.error(key, e.message()))?)
     } else {
         None
     };
@@ -223,6 +228,9 @@ pub fn load_file(path: &Path, opts: &LoadOptions) -> Result<Technology> {
                 format!("model file {}: {e}", crate::spec::printable(p)),
             )
         })?;
+        if !abs.is_file() {
+            return Err(src.error(key, format!("{} is not a file", abs.display())));
+        }
         let s = abs.to_string_lossy().to_string();
         check_path_text(&s).map_err(|m| src.error(key, m))?;
         Ok(s)
@@ -233,7 +241,7 @@ pub fn load_file(path: &Path, opts: &LoadOptions) -> Result<Technology> {
     }
     let mut lib = vec![];
     for (i, l) in raw.lib.iter().enumerate() {
-        check_identifier(&l.section).map_err(|m| src.error(&format!("lib[{i}].section"), m))?;
+        check_spice_word(&l.section).map_err(|m| src.error(&format!("lib[{i}].section"), m))?;
         lib.push((
             resolve(&format!("lib[{i}].file"), &l.file)?,
             l.section.clone(),

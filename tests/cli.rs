@@ -615,11 +615,13 @@ fn technology_file_that_does_not_exist_is_refused() {
 
 #[test]
 fn technology_path_with_a_quote() {
+    // The technology path itself is never printed into a deck (only the model paths it
+    // names are, and those are checked); a quote is just part of a file name that is missing.
     refuse(
         &base_plus("technology: \"te'ch.yaml\"\n"),
         "technology",
         5,
-        &["SPICE deck"],
+        &["not found"],
     );
 }
 
@@ -629,13 +631,97 @@ fn technology_path_with_a_newline() {
         &base_plus("technology: \"te\\nch.yaml\"\n"),
         "technology",
         5,
-        &["SPICE deck"],
+        &["control character"],
     );
 }
 
 // ---------------------------------------------------------------------------------------
 // Refused specs: sizing and testbench
 // ---------------------------------------------------------------------------------------
+
+#[test]
+fn device_below_the_technology_minimum_width() {
+    // 0.25 x 1.0 um PMOS units are below the generic technology's 0.5 um minimum width.
+    let dir = tempfile::tempdir().unwrap();
+    let spec = dir.path().join("spec.yaml");
+    std::fs::write(
+        &spec,
+        "name: t8\nwidth: 8\narchitecture: ripple\nsizing: {unit_n: 1.0, pn_ratio: 0.25}\n",
+    )
+    .unwrap();
+    let out = std::process::Command::new(env!("CARGO_BIN_EXE_carrywright"))
+        .arg("generate")
+        .arg(&spec)
+        .arg("-o")
+        .arg(dir.path().join("out"))
+        .output()
+        .unwrap();
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(2), "{err}");
+    assert!(
+        err.contains("sizing") && err.contains("w_min") && err.lines().count() == 1,
+        "{err}"
+    );
+    assert!(!dir.path().join("out").exists());
+}
+
+#[test]
+fn name_that_is_also_an_internal_net() {
+    let dir = tempfile::tempdir().unwrap();
+    let spec = dir.path().join("spec.yaml");
+    std::fs::write(&spec, "name: g1\nwidth: 8\narchitecture: kogge-stone\n").unwrap();
+    let out = std::process::Command::new(env!("CARGO_BIN_EXE_carrywright"))
+        .arg("generate")
+        .arg(&spec)
+        .arg("-o")
+        .arg(dir.path().join("out"))
+        .output()
+        .unwrap();
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(2), "{err}");
+    assert!(
+        err.contains("name: `g1`") && err.contains("net or instance"),
+        "{err}"
+    );
+}
+
+#[test]
+fn systemverilog_keyword_and_port_names_are_refused() {
+    for name in ["assert", "inside", "modport", "cin", "cout"] {
+        refuse(
+            &format!("name: {name}\nwidth: 8\narchitecture: manchester\n"),
+            "name",
+            1,
+            &[name],
+        );
+    }
+}
+
+#[test]
+fn tiny_keeper_and_short_dynamic_period() {
+    refuse(
+        &base_plus("style: dynamic\nsizing: {keeper: 1e-320}\n"),
+        "sizing.keeper",
+        6,
+        &["between 0.02 and 0.9"],
+    );
+    refuse(
+        &base_plus("style: dynamic\ntestbench: {period: 200p}\n"),
+        "testbench.period",
+        6,
+        &["at least"],
+    );
+}
+
+#[test]
+fn type_error_inside_buffers_names_the_sub_key() {
+    refuse(
+        &base_plus("buffers: {every: x}\n"),
+        "buffers.every",
+        5,
+        &["integer"],
+    );
+}
 
 #[test]
 fn keeper_on_a_static_spec() {

@@ -158,7 +158,7 @@ fn structural_check_catches_bad_wiring() {
 /// and a long dynamic block makes the series pull-down path weaker than the default keeper.
 #[test]
 fn ratio_rule_refuses_a_strong_keeper() {
-    let strong = parse("name: d8\nwidth: 8\narchitecture: manchester\nstyle: dynamic\nblock: 8\nsizing: {keeper: 1.0}\n");
+    let strong = parse("name: d8\nwidth: 8\narchitecture: manchester\nstyle: dynamic\nblock: 8\nsizing: {keeper: 0.9}\n");
     let err = carrywright::build(&strong).unwrap_err();
     assert_eq!(err.exit_code(), 1);
     assert!(err.to_string().contains("ratio rule"), "{err}");
