@@ -189,7 +189,8 @@ fn bench_generate() {
         )
         .unwrap()
     });
-    let render = measure(5, 50, || emit::render_all(&spec, &design).unwrap());
+    let counts = summary::counts(&design);
+    let render = measure(5, 50, || emit::render_all(&spec, &design, &counts).unwrap());
     line("  build (arch + structural check)", &build);
     line("  check_or_fail (16,384 random + 7)", &check);
     line("  render_all (five files)", &render);
@@ -230,7 +231,7 @@ fn bench_generate() {
         (
             "    summary::json",
             measure(3, 30, || {
-                summary::json(&spec, &design, &plan, &deck).unwrap()
+                summary::json(&spec, &design, &counts, &plan, &deck).unwrap()
             }),
         ),
     ];
@@ -697,6 +698,7 @@ fn bench_architectures() {
 
     let s128 = arch_spec("kogge-stone", 128);
     let d128 = carrywright::build(&s128).unwrap();
+    let c128 = summary::counts(&d128);
     println!("  split for kogge-stone N=128:");
     line(
         "    build (arch + structural check)",
@@ -724,7 +726,7 @@ fn bench_architectures() {
     );
     line(
         "    render_all",
-        &measure(1, 9, || emit::render_all(&s128, &d128).unwrap()),
+        &measure(1, 9, || emit::render_all(&s128, &d128, &c128).unwrap()),
     );
     line("    logic_depth", &measure(1, 9, || d128.logic_depth()));
     println!("  growth with width (generate median; prefix cells; time per cell):");

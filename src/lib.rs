@@ -96,6 +96,8 @@ fn check_name_is_free(spec: &Spec, design: &Design) -> Result<()> {
 pub struct Generated {
     pub design: Design,
     pub check: sim::CheckReport,
+    /// Transistor and cell counts and logic depth (also in NAME.json).
+    pub counts: emit::summary::Counts,
     /// (file name, contents), in a fixed order.
     pub files: Vec<(String, String)>,
 }
@@ -109,10 +111,12 @@ pub fn generate(spec: &Spec) -> Result<Generated> {
         GENERATE_RANDOM,
         GENERATE_EXHAUSTIVE_MAX,
     )?;
-    let files = emit::render_all(spec, &design)?;
+    let counts = emit::summary::counts(&design);
+    let files = emit::render_all(spec, &design, &counts)?;
     Ok(Generated {
         design,
         check,
+        counts,
         files,
     })
 }

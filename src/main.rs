@@ -86,7 +86,7 @@ fn run(cli: Cli) -> Result<ExitCode> {
                 return Ok(ExitCode::from(1));
             }
             carrywright::write_outputs(&out, &g.files)?;
-            let c = emit::summary::counts(&g.design);
+            let c = &g.counts;
             say!("{}: {}", s.name, emit::title(&s));
             say!(
                 "  {} transistors, {} cells; logic check passed on {} vectors{}",

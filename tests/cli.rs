@@ -459,26 +459,16 @@ fn sqrt_block_only_for_skip_and_select() {
 
 #[test]
 fn describe_prints_prefix_counts_and_writes_svg() {
-    let dir = tempfile::tempdir().unwrap();
-    let spec = dir.path().join("spec.yaml");
-    std::fs::write(&spec, "name: ks8\nwidth: 8\narchitecture: kogge-stone\n").unwrap();
-    let svg = dir.path().join("ks8.svg");
-    let out = std::process::Command::new(env!("CARGO_BIN_EXE_carrywright"))
-        .args(["describe"])
-        .arg(&spec)
-        .arg("--svg")
-        .arg(&svg)
-        .output()
-        .unwrap();
-    let stdout = String::from_utf8_lossy(&out.stdout);
-    assert!(
-        out.status.success(),
-        "{stdout}{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
+    let sb = Sandbox::with_spec("name: ks8\nwidth: 8\narchitecture: kogge-stone\n");
+    let run = sb.run(&["describe", "spec.yaml", "--svg", "ks8.svg"]);
+    assert_eq!(run.code, Some(0), "{}", run.describe());
     // Kogge-Stone, N = 8: 17 prefix cells, 3 levels (Harris 2003).
-    assert!(stdout.contains("17 (10 black, 7 grey)"), "{stdout}");
-    let text = std::fs::read_to_string(&svg).unwrap();
+    assert!(
+        run.stdout.contains("17 (10 black, 7 grey)"),
+        "{}",
+        run.describe()
+    );
+    let text = String::from_utf8(sb.read("ks8.svg")).unwrap();
     assert!(text.starts_with("<svg") && text.trim_end().ends_with("</svg>"));
     assert_eq!(
         text.matches("<title>black cell (").count(),
@@ -642,47 +632,30 @@ fn technology_path_with_a_newline() {
 #[test]
 fn device_below_the_technology_minimum_width() {
     // 0.25 x 1.0 um PMOS units are below the generic technology's 0.5 um minimum width.
-    let dir = tempfile::tempdir().unwrap();
-    let spec = dir.path().join("spec.yaml");
-    std::fs::write(
-        &spec,
+    let sb = Sandbox::with_spec(
         "name: t8\nwidth: 8\narchitecture: ripple\nsizing: {unit_n: 1.0, pn_ratio: 0.25}\n",
-    )
-    .unwrap();
-    let out = std::process::Command::new(env!("CARGO_BIN_EXE_carrywright"))
-        .arg("generate")
-        .arg(&spec)
-        .arg("-o")
-        .arg(dir.path().join("out"))
-        .output()
-        .unwrap();
-    let err = String::from_utf8_lossy(&out.stderr);
-    assert_eq!(out.status.code(), Some(2), "{err}");
-    assert!(
-        err.contains("sizing") && err.contains("w_min") && err.lines().count() == 1,
-        "{err}"
     );
-    assert!(!dir.path().join("out").exists());
+    let run = sb.run(&["generate", "spec.yaml", "-o", "out"]);
+    let err = one_error_line(&run);
+    assert!(
+        err.contains("sizing") && err.contains("w_min"),
+        "{}",
+        run.describe()
+    );
+    assert_nothing_written(&sb, &run);
 }
 
 #[test]
 fn name_that_is_also_an_internal_net() {
-    let dir = tempfile::tempdir().unwrap();
-    let spec = dir.path().join("spec.yaml");
-    std::fs::write(&spec, "name: g1\nwidth: 8\narchitecture: kogge-stone\n").unwrap();
-    let out = std::process::Command::new(env!("CARGO_BIN_EXE_carrywright"))
-        .arg("generate")
-        .arg(&spec)
-        .arg("-o")
-        .arg(dir.path().join("out"))
-        .output()
-        .unwrap();
-    let err = String::from_utf8_lossy(&out.stderr);
-    assert_eq!(out.status.code(), Some(2), "{err}");
+    let sb = Sandbox::with_spec("name: g1\nwidth: 8\narchitecture: kogge-stone\n");
+    let run = sb.run(&["generate", "spec.yaml", "-o", "out"]);
+    let err = one_error_line(&run);
     assert!(
         err.contains("name: `g1`") && err.contains("net or instance"),
-        "{err}"
+        "{}",
+        run.describe()
     );
+    assert_nothing_written(&sb, &run);
 }
 
 #[test]

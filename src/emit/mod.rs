@@ -116,7 +116,12 @@ pub fn title(spec: &Spec) -> String {
 }
 
 /// Every output file, in memory: (file name, contents).
-pub fn render_all(spec: &Spec, design: &Design) -> Result<Vec<(String, String)>> {
+/// `counts` is the design's [`summary::counts`], computed once by the caller.
+pub fn render_all(
+    spec: &Spec,
+    design: &Design,
+    counts: &summary::Counts,
+) -> Result<Vec<(String, String)>> {
     let plan = vectors::plan(spec.width, spec.testbench.random, spec.testbench.seed);
     let deck = spice::DeckPlan::new(spec, &plan);
     let n = &spec.name;
@@ -127,7 +132,7 @@ pub fn render_all(spec: &Spec, design: &Design) -> Result<Vec<(String, String)>>
         (format!("{n}_tb.sp"), spice::deck(spec, design, &deck)?),
         (
             format!("{n}.json"),
-            summary::json(spec, design, &plan, &deck)?,
+            summary::json(spec, design, counts, &plan, &deck)?,
         ),
     ])
 }

@@ -64,7 +64,7 @@ struct Summary<'a> {
     buffers: &'a crate::spec::Buffers,
     technology: serde_json::Value,
     sizing: &'a crate::spec::Sizing,
-    counts: Counts,
+    counts: &'a Counts,
     verilog_testbench: serde_json::Value,
     spice_deck: serde_json::Value,
     vectors: Vec<VectorOut>,
@@ -74,7 +74,13 @@ fn hex(x: u128) -> String {
     format!("0x{x:x}")
 }
 
-pub fn json(spec: &Spec, design: &Design, plan: &[Labeled], deck: &DeckPlan) -> Result<String> {
+pub fn json(
+    spec: &Spec,
+    design: &Design,
+    counts: &Counts,
+    plan: &[Labeled],
+    deck: &DeckPlan,
+) -> Result<String> {
     let chain = matches!(
         spec.architecture,
         Architecture::Manchester | Architecture::CarrySkip
@@ -117,7 +123,7 @@ pub fn json(spec: &Spec, design: &Design, plan: &[Labeled], deck: &DeckPlan) -> 
             "pmos": tech.pmos,
         }),
         sizing: &spec.sizing,
-        counts: counts(design),
+        counts,
         verilog_testbench: serde_json::json!({
             "exhaustive": spec.width <= TB_EXHAUSTIVE_MAX,
             "listed_vectors": plan.len(),
