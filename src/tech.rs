@@ -377,7 +377,7 @@ pub fn load_file(path: &Path, opts: &LoadOptions) -> Result<Technology> {
     }
     let mut t = Technology {
         origin: format!(
-            "technology file `{}` (models as the file names them)",
+            "technology file {} (models as the file names them)",
             raw.name
         ),
         corner: if raw.lib.is_empty() {
