@@ -418,14 +418,6 @@ impl Svg {
                 true,
                 true,
             ),
-                    (x + half + 3.0, y + 6.0),
-                    (x - half - 3.0, y + 6.0),
-                    (x - half - 3.0, y),
-                ],
-                BYPASS,
-                true,
-                true,
-            ),
         }
     }
 
