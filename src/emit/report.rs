@@ -745,11 +745,27 @@ fn chain_drawing(spec: &Spec, s: &mut Svg) {
     let wrap = wrap_width(s, body);
 
     let k = ranges.len();
+    let blocks = if k == 1 {
+        "1 block".to_string()
+    } else {
+        format!("{k} blocks")
+    };
     let mut sub = match arch {
-        A::Ripple => format!("{n} mirror full adders; the carry ripples from bit 0 on the right to bit {} on the left.", n - 1),
-        A::Manchester => format!("{k} blocks of pass-transistor carry chain; the carry flows from bit 0 on the right towards the MSB on the left."),
-        A::CarrySkip => format!("{k} Manchester blocks, each with a bypass taken when the whole block propagates; bit 0 on the right."),
-        A::CarrySelect => format!("{k} blocks: the first ripples from cin; each later block computes its sums and carry for both carry-ins and the incoming carry picks. Bit 0 on the right."),
+        A::Ripple if n == 1 => "1 mirror full adder.".to_string(),
+        A::Ripple => format!(
+            "{n} mirror full adders; the carry ripples from bit 0 on the right to bit {} on the left.",
+            n - 1
+        ),
+        A::Manchester => format!(
+            "{blocks} of pass-transistor carry chain; the carry flows from bit 0 on the right towards the MSB on the left."
+        ),
+        A::CarrySkip => format!(
+            "{blocks} of Manchester chain, each with a bypass taken when the whole block propagates; bit 0 on the right."
+        ),
+        A::CarrySelect if k == 1 => "1 block, rippling from cin.".to_string(),
+        A::CarrySelect => format!(
+            "{blocks}: the first ripples from cin; each later block computes its sums and carry for both carry-ins and the incoming carry picks. Bit 0 on the right."
+        ),
         _ => String::new(),
     };
     if arch == A::Manchester && spec.buffers.positions.is_empty() {
