@@ -268,7 +268,7 @@ fn check_prefix(name: &str, spec: &Spec, table: &str, p: &Picture) {
         .and_then(|s| s.rsplit(' ').next())
         .and_then(|s| s.parse().ok())
         .unwrap_or_else(|| panic!("{name}: no level count in {caption:?}"));
-    let n_rows = if spec.width > 1 { rows.len() } else { 0 };
+    let n_rows = rows.len();
     assert_eq!(
         levels, n_rows,
         "{name}: caption says {levels} levels, {n_rows} rows drawn"

@@ -115,6 +115,18 @@ struct Shape {
     tip: Option<String>,
 }
 
+/// A filled shape outlined in the wire colour.
+fn outlined(kind: &'static str, fill: &'static str, tip: Option<String>) -> Shape {
+    Shape {
+        kind,
+        fill,
+        stroke: WIRE,
+        width: 1.0,
+        tip,
+        ..Default::default()
+    }
+}
+
 #[derive(Serialize)]
 struct Text {
     class: &'static str,
@@ -194,17 +206,12 @@ impl Svg {
     ) {
         self.reach(x + w, y + h);
         let shape = Shape {
-            kind: "rect",
             x: r2(x),
             y: r2(y),
             w: r2(w),
             h: r2(h),
             rx,
-            fill,
-            stroke: WIRE,
-            width: 1.0,
-            tip,
-            ..Default::default()
+            ..outlined("rect", fill, tip)
         };
         self.push(shape, class);
     }
@@ -220,15 +227,10 @@ impl Svg {
     ) {
         self.reach(x + r, y + r);
         let shape = Shape {
-            kind: "circle",
             x: r2(x),
             y: r2(y),
             r,
-            fill,
-            stroke: WIRE,
-            width: 1.0,
-            tip,
-            ..Default::default()
+            ..outlined("circle", fill, tip)
         };
         self.push(shape, class);
     }
@@ -252,13 +254,8 @@ impl Svg {
     ) {
         let points = self.points(pts);
         let shape = Shape {
-            kind: "polygon",
             points,
-            fill,
-            stroke: WIRE,
-            width: 1.0,
-            tip,
-            ..Default::default()
+            ..outlined("polygon", fill, tip)
         };
         self.push(shape, class);
     }
