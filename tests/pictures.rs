@@ -200,6 +200,19 @@ fn check_layout(name: &str, p: &Picture) {
             s.class
         );
     }
+    // No text runs into a box, circle or triangle (block labels sit inside their block,
+    // checked with the chain).
+    for t in p.texts.iter().filter(|t| t.class != "block-label") {
+        for s in p.shapes.iter().filter(|s| s.tag != "polyline") {
+            let (x0, y0, x1, y1) = s.bbox;
+            let overlap = t.x0 < x1 - 0.5 && x0 < t.x1 - 0.5 && t.y0 < y1 - 0.5 && y0 < t.y1 - 0.5;
+            assert!(
+                !overlap,
+                "{name}: text {:?} runs into {} {}",
+                t.text, s.tag, s.class
+            );
+        }
+    }
     // Every symbol drawn is named in the legend (bubbles and the XOR's plus are parts).
     let legend: Vec<&str> = p
         .shapes
@@ -295,6 +308,15 @@ fn check_prefix(name: &str, spec: &Spec, table: &str, p: &Picture) {
             (centre(c) - (pg_y + level as f64 * pitch)).abs() < 0.01,
             "{name}: {} not on row {level}",
             c.tip
+        );
+    }
+    // Every diagonal runs from the row just above its cell.
+    for w in drawn(p, "span") {
+        let (top, bottom) = (w.points[0].1, w.points[1].1);
+        assert!(
+            (bottom - top - pitch).abs() < 0.01,
+            "{name}: a diagonal spans {} rows",
+            (bottom - top) / pitch
         );
     }
     // The count in the caption is the count of cells drawn.
