@@ -1,0 +1,975 @@
+//! The transistor-level timing engine: the one netlist flattened to transistors, partitioned
+//! into channel-connected stages, and timed by event-driven evaluation of input vector pairs.
+//!
+//! Method (published methods only):
+//! - Channel-connected stages: nodes joined through a device's source/drain form one stage,
+//!   the rails and the top inputs (ideal sources) excluded (switch-level timing analysis:
+//!   Ousterhout, "Crystal", 1983; Jouppi, DAC 1983). A whole unbuffered transmission-gate or
+//!   pass-NMOS chain with its driver is one stage.
+//! - Switch-level values (Bryant, IEEE Trans. Computers C-33(2), 1984): a device conducts
+//!   by its gate value; each node takes the value of its strongest conducting path to a
+//!   source (strong beats weak, keepers are weak; between equals the lower resistance wins);
+//!   a node with no path keeps its charge.
+//! - Delay of a node that changes: 0.69 × its Elmore delay (Elmore 1948; Rubinstein, Penfield
+//!   & Horowitz, IEEE TCAD 2(3), 1983) in the tree of conducting devices from the winning
+//!   source, each device R = r/W from the characterised values by direction and kind (pull-down
+//!   NMOS, pull-up PMOS, pass NMOS, transmission gate; series stacks with the characterised
+//!   stack values), counting the capacitance of the nodes that switch; a ladder of N pass
+//!   devices gives 0.69·R·C·N(N+1)/2 (Rabaey, Chandrakasan & Nikolić, §6.2.3). Then a slope
+//!   term (a fraction of the triggering input's transition time) and, where a weaker path
+//!   opposes the transition (a keeper), the fight factor 1 / (1 − R_win / R_opp) (the net
+//!   current is the difference of the two paths' currents, linearised).
+//! - Each event remembers the event whose evaluation caused it, so the latest output event
+//!   traces back to its input: the critical path with each stage's share.
+
+use super::Timing;
+use crate::cells::{Dir, Mos, Role};
+use crate::error::{Error, Result};
+use crate::netlist::Design;
+use crate::spec::Spec;
+use std::cmp::Ordering;
+use std::collections::{BinaryHeap, HashMap, VecDeque};
+
+/// Step response 50 % point of a single pole, in time constants (ln 2; Rabaey et al. §6.2.3).
+pub const LN2: f64 = 0.69;
+/// 10–90 % transition of a single pole, in time constants (ln 9).
+pub const SLEW_PER_TAU: f64 = 2.2;
+/// Share of the triggering input's 10–90 % transition added to a stage's delay: the input
+/// must travel from 50 % to about the device threshold before the stage moves much, less
+/// what the output gains while it does (from memory; checked against ngspice in
+/// tests/timing.rs).
+pub const SLOPE_SHARE: f64 = 0.25;
+/// Largest slow-down a fight may cause (a node that barely wins is reported this much slower
+/// than without the opposing path).
+pub const FIGHT_MAX: f64 = 5.0;
+
+const NONE: u32 = u32::MAX;
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum NodeKind {
+    Vss,
+    Vdd,
+    /// A top input (index into `Graph::inputs`): an ideal source.
+    Input(usize),
+    Inner,
+}
+
+#[derive(Debug, Clone)]
+pub struct Dev {
+    pub mos: Mos,
+    pub role: Role,
+    pub g: u32,
+    pub a: u32,
+    pub b: u32,
+    pub w: f64,
+    pub l: f64,
+    pub leaf: u32,
+    /// The other half of a transmission gate (same leaf, same two nodes, opposite type).
+    pub partner: u32,
+}
+
+/// A channel-connected stage: its nodes and the devices whose channel touches them.
+#[derive(Debug, Clone, Default)]
+pub struct Stage {
+    pub nodes: Vec<u32>,
+    pub devs: Vec<u32>,
+}
+
+/// The transistor view of one netlist.
+pub struct Graph {
+    pub names: Vec<String>,
+    pub cap_ff: Vec<f64>,
+    pub kind: Vec<NodeKind>,
+    pub devs: Vec<Dev>,
+    pub stages: Vec<Stage>,
+    pub stage_of: Vec<u32>,
+    /// Index of a node inside its stage.
+    pub local: Vec<u32>,
+    /// Stages whose devices a node gates.
+    pub fanout: Vec<Vec<u32>>,
+    /// Devices whose channel touches a node: (device, other end).
+    pub adj: Vec<Vec<(u32, u32)>>,
+    pub inputs: Vec<u32>,
+    pub outputs: Vec<u32>,
+    pub clk: Option<u32>,
+    pub leaf_paths: Vec<String>,
+    pub width: usize,
+    pub dynamic: bool,
+    pub vdd_v: f64,
+    /// Input transition 10–90 %, ps.
+    pub input_slew_ps: f64,
+    pub tm: Timing,
+}
+
+impl Graph {
+    pub fn new(spec: &Spec, design: &Design, tm: &Timing) -> Result<Graph> {
+        let flat = design.flatten();
+        let mut names = flat.names.clone();
+        let vss = names.len() as u32;
+        names.push("vss".into());
+        let vdd = names.len() as u32;
+        names.push("vdd".into());
+        let mut kind = vec![NodeKind::Inner; names.len()];
+        kind[vss as usize] = NodeKind::Vss;
+        kind[vdd as usize] = NodeKind::Vdd;
+        let mut inputs = vec![];
+        let mut outputs = vec![];
+        let mut clk = None;
+        for ((_, dir), &g) in design.top().pin_dirs().iter().zip(&flat.top_ports) {
+            match dir {
+                Dir::In => {
+                    kind[g as usize] = NodeKind::Input(inputs.len());
+                    if names[g as usize] == "clk" {
+                        clk = Some(g);
+                    }
+                    inputs.push(g);
+                }
+                Dir::Out => outputs.push(g),
+            }
+        }
+        let mut devs: Vec<Dev> = vec![];
+        let mut leaf_paths = vec![];
+        for (li, leaf) in flat.leaves.iter().enumerate() {
+            leaf_paths.push(leaf.path.clone());
+            let cell = &design.cells[&leaf.kind];
+            let mut local: HashMap<String, u32> = HashMap::new();
+            for (p, &g) in cell.pins.iter().zip(&leaf.nets) {
+                local.insert(p.name.to_string(), g);
+            }
+            local.insert("vss".into(), vss);
+            local.insert("vdd".into(), vdd);
+            let first = devs.len();
+            for d in &cell.devices {
+                let mut node = |n: &str| -> u32 {
+                    *local.entry(n.to_string()).or_insert_with(|| {
+                        names.push(format!("{}.{n}", leaf.path));
+                        kind.push(NodeKind::Inner);
+                        (names.len() - 1) as u32
+                    })
+                };
+                let (a, b, g) = (node(&d.d), node(&d.s), node(&d.g));
+                devs.push(Dev {
+                    mos: d.mos,
+                    role: d.role,
+                    g,
+                    a,
+                    b,
+                    w: d.w,
+                    l: d.l,
+                    leaf: li as u32,
+                    partner: NONE,
+                });
+            }
+            // Transmission gates: an NMOS and a PMOS of this leaf across the same two nodes.
+            for i in first..devs.len() {
+                for j in first..devs.len() {
+                    let (x, y) = (&devs[i], &devs[j]);
+                    if i != j
+                        && x.mos == Mos::N
+                        && y.mos == Mos::P
+                        && x.partner == NONE
+                        && y.partner == NONE
+                        && ((x.a == y.a && x.b == y.b) || (x.a == y.b && x.b == y.a))
+                    {
+                        devs[i].partner = j as u32;
+                        devs[j].partner = i as u32;
+                    }
+                }
+            }
+        }
+        let n = names.len();
+        let is_source = |k: NodeKind| !matches!(k, NodeKind::Inner);
+        // Capacitance of every node, fF.
+        let mut cap_ff = vec![0.0; n];
+        for d in &devs {
+            let (cg, cd) = match d.mos {
+                Mos::N => (tm.c_gate_n_ff_um, tm.c_diff_n_ff_um),
+                Mos::P => (tm.c_gate_p_ff_um, tm.c_diff_p_ff_um),
+            };
+            cap_ff[d.g as usize] += cg * d.w;
+            cap_ff[d.a as usize] += cd * d.w;
+            cap_ff[d.b as usize] += cd * d.w;
+        }
+        for &o in &outputs {
+            cap_ff[o as usize] += spec.testbench.load * 1e15;
+        }
+        // Channel-connected stages by union-find over source/drain, sources excluded.
+        let mut parent: Vec<u32> = (0..n as u32).collect();
+        fn find(p: &mut [u32], mut x: u32) -> u32 {
+            while p[x as usize] != x {
+                p[x as usize] = p[p[x as usize] as usize];
+                x = p[x as usize];
+            }
+            x
+        }
+        let mut touched = vec![false; n];
+        let mut adj: Vec<Vec<(u32, u32)>> = vec![vec![]; n];
+        for (i, d) in devs.iter().enumerate() {
+            adj[d.a as usize].push((i as u32, d.b));
+            adj[d.b as usize].push((i as u32, d.a));
+            for x in [d.a, d.b] {
+                if !is_source(kind[x as usize]) {
+                    touched[x as usize] = true;
+                }
+            }
+            if !is_source(kind[d.a as usize]) && !is_source(kind[d.b as usize]) {
+                let (ra, rb) = (find(&mut parent, d.a), find(&mut parent, d.b));
+                if ra != rb {
+                    parent[ra.max(rb) as usize] = ra.min(rb);
+                }
+            }
+        }
+        let mut stage_of = vec![NONE; n];
+        let mut local = vec![NONE; n];
+        let mut stages: Vec<Stage> = vec![];
+        let mut root_stage: HashMap<u32, u32> = HashMap::new();
+        for x in 0..n as u32 {
+            if !touched[x as usize] {
+                continue;
+            }
+            let r = find(&mut parent, x);
+            let s = *root_stage.entry(r).or_insert_with(|| {
+                stages.push(Stage::default());
+                (stages.len() - 1) as u32
+            });
+            stage_of[x as usize] = s;
+            local[x as usize] = stages[s as usize].nodes.len() as u32;
+            stages[s as usize].nodes.push(x);
+        }
+        for (i, d) in devs.iter().enumerate() {
+            let s = if stage_of[d.a as usize] != NONE {
+                stage_of[d.a as usize]
+            } else {
+                stage_of[d.b as usize]
+            };
+            if s != NONE {
+                stages[s as usize].devs.push(i as u32);
+            }
+        }
+        let mut fanout: Vec<Vec<u32>> = vec![vec![]; n];
+        for (si, st) in stages.iter().enumerate() {
+            for &di in &st.devs {
+                let g = devs[di as usize].g as usize;
+                if fanout[g].last() != Some(&(si as u32)) && !fanout[g].contains(&(si as u32)) {
+                    fanout[g].push(si as u32);
+                }
+            }
+        }
+        let width = spec.width;
+        Ok(Graph {
+            names,
+            cap_ff,
+            kind,
+            devs,
+            stages,
+            stage_of,
+            local,
+            fanout,
+            adj,
+            inputs,
+            outputs,
+            clk,
+            leaf_paths,
+            width,
+            dynamic: design.dynamic,
+            vdd_v: spec.technology.vdd,
+            // The deck's sources ramp 0–100 % in `slew`; 10–90 % is 0.8 of it.
+            input_slew_ps: spec.technology.slew * 1e12 * 0.8,
+            tm: tm.clone(),
+        })
+    }
+
+    /// Does this device conduct with these node values?
+    fn on(&self, d: &Dev, val: &[bool]) -> bool {
+        match d.mos {
+            Mos::N => val[d.g as usize],
+            Mos::P => !val[d.g as usize],
+        }
+    }
+
+    /// The value a source node holds, if the node is a source.
+    fn source_value(&self, x: u32, val: &[bool]) -> Option<bool> {
+        match self.kind[x as usize] {
+            NodeKind::Vss => Some(false),
+            NodeKind::Vdd => Some(true),
+            NodeKind::Input(_) => Some(val[x as usize]),
+            NodeKind::Inner => None,
+        }
+    }
+
+    /// Resistance (kΩ) of a conducting device (or a whole transmission gate when `tg`)
+    /// carrying the node towards `v`, as a stack of `k` like devices.
+    fn r_kohm(&self, d: &Dev, v: bool, tg: bool, k: usize) -> f64 {
+        let t = &self.tm;
+        let k = k.clamp(1, 3) - 1;
+        let (n, p) = if tg {
+            let p = &self.devs[d.partner as usize];
+            match d.mos {
+                Mos::N => (d.w, p.w),
+                Mos::P => (p.w, d.w),
+            }
+        } else {
+            (d.w, d.w)
+        };
+        if tg {
+            return if v {
+                t.r_tg_rise_kohm_um / n
+            } else {
+                t.r_tg_fall_kohm_um / n
+            };
+        }
+        let _ = p;
+        let pass = d.role == Role::Pass;
+        match (d.mos, v) {
+            (Mos::N, false) if pass => t.r_pass_n_fall_kohm_um / d.w,
+            (Mos::N, false) => t.r_n_fall_kohm_um[k] / d.w,
+            // An NMOS passing a one: the pass-device value whatever its role.
+            (Mos::N, true) => t.r_pass_n_rise_kohm_um / d.w,
+            (Mos::P, true) => t.r_p_rise_kohm_um[k] / d.w,
+            // A PMOS passing a zero, degraded as an NMOS passing a one is.
+            (Mos::P, false) => {
+                t.r_p_rise_kohm_um[0] * (t.r_pass_n_rise_kohm_um / t.r_pass_n_fall_kohm_um)
+                    / d.w
+            }
+        }
+    }
+
+    pub fn n_nodes(&self) -> usize {
+        self.names.len()
+    }
+}
+
+/// Path strength: (weak, resistance kΩ); smaller is stronger.
+#[derive(Clone, Copy, PartialEq, Debug)]
+struct Cost {
+    weak: bool,
+    r: f64,
+}
+
+impl Cost {
+    const INF: Cost = Cost {
+        weak: true,
+        r: f64::INFINITY,
+    };
+    fn cmp(&self, o: &Cost) -> Ordering {
+        self.weak.cmp(&o.weak).then(self.r.total_cmp(&o.r))
+    }
+}
+
+#[derive(PartialEq)]
+struct HeapItem(Cost, u32);
+impl Eq for HeapItem {}
+impl PartialOrd for HeapItem {
+    fn partial_cmp(&self, o: &Self) -> Option<Ordering> {
+        Some(self.cmp(o))
+    }
+}
+impl Ord for HeapItem {
+    fn cmp(&self, o: &Self) -> Ordering {
+        // Min-heap on cost, then on node for a deterministic order.
+        o.0.cmp(&self.0).then(o.1.cmp(&self.1))
+    }
+}
+
+/// A node of a stage that a solve drives: its value, its delay model and the device that
+/// carries the charge into it (for the path report).
+#[derive(Debug, Clone, Copy)]
+pub struct Driven {
+    pub node: u32,
+    pub value: bool,
+    /// Elmore delay (ps) times the fight factor; 0.69 × this is the step delay.
+    pub tau_ps: f64,
+    pub dev: u32,
+}
+
+/// Scratch space for solving stages (reused to avoid allocation).
+#[derive(Default)]
+pub struct Scratch {
+    dist: [Vec<Cost>; 2],
+    pred: [Vec<(u32, u32)>; 2],
+    order: [Vec<u32>; 2],
+    down: Vec<f64>,
+    tau: Vec<f64>,
+    rpath: Vec<f64>,
+    up: Vec<u32>,
+    below: Vec<u32>,
+    children: Vec<u32>,
+    heap: BinaryHeap<HeapItem>,
+    out: Vec<Driven>,
+}
+
+impl Graph {
+    /// Solve one stage at switch level with the present gate values `val`; `proj` holds each
+    /// node's projected value (a pending event's value, else its present value). Fills
+    /// `sc.out` with every node that has a conducting path to a source.
+    pub fn solve(&self, s: u32, val: &[bool], proj: &[bool], sc: &mut Scratch) {
+        let st = &self.stages[s as usize];
+        let m = st.nodes.len();
+        sc.out.clear();
+        for v in 0..2 {
+            sc.dist[v].clear();
+            sc.dist[v].resize(m, Cost::INF);
+            sc.pred[v].clear();
+            sc.pred[v].resize(m, (NONE, NONE));
+            sc.order[v].clear();
+        }
+        for (vi, v) in [false, true].into_iter().enumerate() {
+            sc.heap.clear();
+            // Seeds: conducting devices from a source holding v.
+            for &di in &st.devs {
+                let d = &self.devs[di as usize];
+                if !self.on(d, val) {
+                    continue;
+                }
+                if d.mos == Mos::P && d.partner != NONE && self.on(&self.devs[d.partner as usize], val)
+                {
+                    continue; // the NMOS half carries the gate
+                }
+                let tg = d.partner != NONE && self.on(&self.devs[d.partner as usize], val);
+                for (x, y) in [(d.a, d.b), (d.b, d.a)] {
+                    if self.source_value(x, val) == Some(v) && self.kind[y as usize] == NodeKind::Inner
+                    {
+                        let li = self.local[y as usize] as usize;
+                        let c = Cost {
+                            weak: d.role == Role::Keeper,
+                            r: self.r_kohm(d, v, tg, 1),
+                        };
+                        if c.cmp(&sc.dist[vi][li]) == Ordering::Less {
+                            sc.dist[vi][li] = c;
+                            sc.pred[vi][li] = (NONE, di);
+                            sc.heap.push(HeapItem(c, li as u32));
+                        }
+                    }
+                }
+            }
+            while let Some(HeapItem(c, li)) = sc.heap.pop() {
+                if c.cmp(&sc.dist[vi][li as usize]) == Ordering::Greater {
+                    continue;
+                }
+                if sc.order[vi].last() == Some(&li) {
+                    continue;
+                }
+                sc.order[vi].push(li);
+                let x = st.nodes[li as usize];
+                for &(di, y) in &self.adj[x as usize] {
+                    if self.kind[y as usize] != NodeKind::Inner {
+                        continue;
+                    }
+                    let d = &self.devs[di as usize];
+                    if !self.on(d, val) {
+                        continue;
+                    }
+                    let tg = d.partner != NONE && self.on(&self.devs[d.partner as usize], val);
+                    if tg && d.mos == Mos::P {
+                        continue;
+                    }
+                    let yl = self.local[y as usize] as usize;
+                    let nc = Cost {
+                        weak: c.weak || d.role == Role::Keeper,
+                        r: c.r + self.r_kohm(d, v, tg, 1),
+                    };
+                    if nc.cmp(&sc.dist[vi][yl]) == Ordering::Less {
+                        sc.dist[vi][yl] = nc;
+                        sc.pred[vi][yl] = (li, di);
+                        sc.heap.push(HeapItem(nc, yl as u32));
+                    }
+                }
+            }
+        }
+        // Winners.
+        let win = |li: usize, sc: &Scratch| -> Option<bool> {
+            let (c0, c1) = (sc.dist[0][li], sc.dist[1][li]);
+            match (c0.r.is_finite(), c1.r.is_finite()) {
+                (false, false) => None,
+                (true, false) => Some(false),
+                (false, true) => Some(true),
+                (true, true) => Some(c1.cmp(&c0) == Ordering::Less),
+            }
+        };
+        sc.down.clear();
+        sc.down.resize(m, 0.0);
+        sc.tau.clear();
+        sc.tau.resize(m, 0.0);
+        sc.rpath.clear();
+        sc.rpath.resize(m, 0.0);
+        sc.up.clear();
+        sc.up.resize(m, 0);
+        sc.below.clear();
+        sc.below.resize(m, 0);
+        sc.children.clear();
+        sc.children.resize(m, 0);
+        for (vi, v) in [false, true].into_iter().enumerate() {
+            let order = std::mem::take(&mut sc.order[vi]);
+            // Downstream switching capacitance and single-child runs, leaves first.
+            for &li in order.iter().rev() {
+                let li = li as usize;
+                let x = st.nodes[li];
+                let mine = win(li, sc) == Some(v) && proj[x as usize] != v;
+                if mine {
+                    sc.down[li] += self.cap_ff[x as usize];
+                }
+                let (p, di) = sc.pred[vi][li];
+                if p != NONE {
+                    let pl = p as usize;
+                    sc.down[pl] += sc.down[li];
+                    sc.children[pl] += 1;
+                    let logic = self.is_stack_dev(di, val);
+                    sc.below[pl] = if logic { sc.below[li] + 1 } else { 0 };
+                }
+            }
+            // Path resistance and Elmore delay, root first.
+            for &li in order.iter() {
+                let li = li as usize;
+                let (p, di) = sc.pred[vi][li];
+                let d = &self.devs[di as usize];
+                let logic = self.is_stack_dev(di, val);
+                let (up_parent, r_parent, t_parent) = if p == NONE {
+                    (0, 0.0, 0.0)
+                } else {
+                    let pl = p as usize;
+                    (sc.up[pl], sc.rpath[pl], sc.tau[pl])
+                };
+                sc.up[li] = if logic { up_parent + 1 } else { 0 };
+                let below = if sc.children[li] == 1 { sc.below[li] } else { 0 };
+                let k = if logic { (sc.up[li] + below) as usize } else { 1 };
+                let tg = d.partner != NONE && self.on(&self.devs[d.partner as usize], val);
+                let r = self.r_kohm(d, v, tg, k);
+                sc.rpath[li] = r_parent + r;
+                // kΩ × fF = ps.
+                sc.tau[li] = t_parent + r * sc.down[li];
+            }
+            for &li in order.iter() {
+                let l = li as usize;
+                if win(l, sc) != Some(v) {
+                    continue;
+                }
+                let x = st.nodes[l];
+                let opp = sc.dist[1 - vi][l];
+                let mut factor = 1.0;
+                if opp.r.is_finite() {
+                    let ratio = sc.rpath[l] / opp.r;
+                    factor = if ratio < 1.0 - 1.0 / FIGHT_MAX {
+                        1.0 / (1.0 - ratio)
+                    } else {
+                        FIGHT_MAX
+                    };
+                }
+                sc.out.push(Driven {
+                    node: x,
+                    value: v,
+                    tau_ps: sc.tau[l] * factor,
+                    dev: sc.pred[vi][l].1,
+                });
+            }
+            // Reset the per-value arrays the next value reuses.
+            for &li in order.iter() {
+                let l = li as usize;
+                sc.down[l] = 0.0;
+                sc.children[l] = 0;
+                sc.below[l] = 0;
+            }
+            sc.order[vi] = order;
+        }
+    }
+
+    /// A device that counts in a series stack (not a pass device or transmission gate).
+    fn is_stack_dev(&self, di: u32, val: &[bool]) -> bool {
+        let d = &self.devs[di as usize];
+        d.role != Role::Pass
+            && !(d.partner != NONE && self.on(&self.devs[d.partner as usize], val))
+    }
+}
+
+/// One node transition of a timed run.
+#[derive(Debug, Clone, Copy)]
+pub struct Event {
+    pub node: u32,
+    pub value: bool,
+    pub time_ps: f64,
+    /// 10–90 % transition time, ps.
+    pub slew_ps: f64,
+    /// The event whose evaluation scheduled this one (None: an input edge).
+    pub cause: u32,
+    /// The device that carried the charge (NONE for inputs).
+    pub dev: u32,
+}
+
+#[derive(PartialEq)]
+struct Timed(f64, u32);
+impl Eq for Timed {}
+impl PartialOrd for Timed {
+    fn partial_cmp(&self, o: &Self) -> Option<Ordering> {
+        Some(self.cmp(o))
+    }
+}
+impl Ord for Timed {
+    fn cmp(&self, o: &Self) -> Ordering {
+        o.0.total_cmp(&self.0).then(o.1.cmp(&self.1))
+    }
+}
+
+/// The state of a simulation: node values and reusable space.
+pub struct Sim<'g> {
+    pub g: &'g Graph,
+    pub val: Vec<bool>,
+    proj: Vec<bool>,
+    pending: Vec<u32>,
+    sc: Scratch,
+    queue: VecDeque<u32>,
+    queued: Vec<bool>,
+    pub events: Vec<Event>,
+    /// Last event of every node in the latest timed run (NONE: none).
+    pub last: Vec<u32>,
+    heap: BinaryHeap<Timed>,
+}
+
+impl<'g> Sim<'g> {
+    /// All nodes low, then settled (rails at their values).
+    pub fn new(g: &'g Graph) -> Result<Sim<'g>> {
+        let n = g.n_nodes();
+        let mut val = vec![false; n];
+        for (i, k) in g.kind.iter().enumerate() {
+            if *k == NodeKind::Vdd {
+                val[i] = true;
+            }
+        }
+        let mut s = Sim {
+            g,
+            proj: val.clone(),
+            val,
+            pending: vec![NONE; n],
+            sc: Scratch::default(),
+            queue: VecDeque::new(),
+            queued: vec![false; g.stages.len()],
+            events: vec![],
+            last: vec![NONE; n],
+            heap: BinaryHeap::new(),
+        };
+        for st in 0..g.stages.len() as u32 {
+            s.enqueue(st);
+        }
+        s.settle()?;
+        Ok(s)
+    }
+
+    fn enqueue(&mut self, st: u32) {
+        if !self.queued[st as usize] {
+            self.queued[st as usize] = true;
+            self.queue.push_back(st);
+        }
+    }
+
+    /// Set input nodes (untimed) and settle. Returns the switched capacitance, fF.
+    pub fn apply_untimed(&mut self, changes: &[(u32, bool)]) -> Result<f64> {
+        let before = self.val.clone();
+        for &(x, v) in changes {
+            if self.val[x as usize] != v {
+                self.val[x as usize] = v;
+                self.proj[x as usize] = v;
+                for k in 0..self.g.fanout[x as usize].len() {
+                    let st = self.g.fanout[x as usize][k];
+                    self.enqueue(st);
+                }
+            }
+        }
+        self.settle()?;
+        Ok(self
+            .val
+            .iter()
+            .zip(&before)
+            .enumerate()
+            .filter(|(i, (a, b))| a != b && self.g.kind[*i] == NodeKind::Inner)
+            .map(|(i, _)| self.g.cap_ff[i])
+            .sum())
+    }
+
+    /// Zero-delay settling of every queued stage.
+    fn settle(&mut self) -> Result<()> {
+        let mut budget = 200 * (self.g.stages.len() + 10);
+        while let Some(st) = self.queue.pop_front() {
+            self.queued[st as usize] = false;
+            budget = budget.checked_sub(1).ok_or_else(|| {
+                Error::Check("timing: the circuit does not settle (oscillation?)".into())
+            })?;
+            let mut sc = std::mem::take(&mut self.sc);
+            self.g.solve(st, &self.val, &self.proj, &mut sc);
+            for d in &sc.out {
+                let x = d.node as usize;
+                if self.val[x] != d.value {
+                    self.val[x] = d.value;
+                    self.proj[x] = d.value;
+                    for k in 0..self.g.fanout[x].len() {
+                        let s2 = self.g.fanout[x][k];
+                        self.enqueue(s2);
+                    }
+                }
+            }
+            self.sc = sc;
+        }
+        Ok(())
+    }
+
+    /// Apply input edges at t = 0 and propagate events in time order. `events` and `last`
+    /// describe the run afterwards.
+    pub fn run_timed(&mut self, changes: &[(u32, bool)]) -> Result<()> {
+        let g = self.g;
+        self.events.clear();
+        for x in self.last.iter_mut() {
+            *x = NONE;
+        }
+        self.heap.clear();
+        for &(x, v) in changes {
+            if self.val[x as usize] != v {
+                let id = self.events.len() as u32;
+                self.events.push(Event {
+                    node: x,
+                    value: v,
+                    time_ps: 0.0,
+                    slew_ps: g.input_slew_ps,
+                    cause: NONE,
+                    dev: NONE,
+                });
+                self.pending[x as usize] = id;
+                self.proj[x as usize] = v;
+                self.heap.push(Timed(0.0, id));
+            }
+        }
+        let limit = 200 * (g.n_nodes() + 10);
+        while let Some(Timed(t, id)) = self.heap.pop() {
+            let e = self.events[id as usize];
+            let x = e.node as usize;
+            if self.pending[x] != id {
+                continue;
+            }
+            self.pending[x] = NONE;
+            self.val[x] = e.value;
+            self.last[x] = id;
+            if self.events.len() > limit {
+                return Err(Error::Check(
+                    "timing: too many events (the circuit oscillates?)".into(),
+                ));
+            }
+            for k in 0..g.fanout[x].len() {
+                let st = g.fanout[x][k];
+                let mut sc = std::mem::take(&mut self.sc);
+                g.solve(st, &self.val, &self.proj, &mut sc);
+                for d in &sc.out {
+                    let y = d.node as usize;
+                    if d.value == self.proj[y] {
+                        continue;
+                    }
+                    if d.value == self.val[y] {
+                        // A pending change is called off.
+                        self.pending[y] = NONE;
+                        self.proj[y] = d.value;
+                        continue;
+                    }
+                    let delay = LN2 * d.tau_ps + SLOPE_SHARE * e.slew_ps;
+                    let nid = self.events.len() as u32;
+                    self.events.push(Event {
+                        node: d.node,
+                        value: d.value,
+                        time_ps: t + delay,
+                        slew_ps: SLEW_PER_TAU * d.tau_ps,
+                        cause: id,
+                        dev: d.dev,
+                    });
+                    self.pending[y] = nid;
+                    self.proj[y] = d.value;
+                    self.heap.push(Timed(t + delay, nid));
+                }
+                self.sc = sc;
+            }
+        }
+        Ok(())
+    }
+
+    /// Switched capacitance of the latest timed run (every transition, glitches included), fF.
+    pub fn run_switched_ff(&self) -> f64 {
+        self.events
+            .iter()
+            .filter(|e| self.g.kind[e.node as usize] == NodeKind::Inner)
+            .map(|e| self.g.cap_ff[e.node as usize])
+            .sum()
+    }
+}
+
+/// Add up the transistor figures: count, gate area ΣW·L (µm²), total width (µm).
+pub fn device_totals(g: &Graph) -> (usize, f64, f64) {
+    let area = g.devs.iter().map(|d| d.w * d.l).sum();
+    let width = g.devs.iter().map(|d| d.w).sum();
+    (g.devs.len(), area, width)
+}
+
+/// The topological bound: the longest path through the stages, each node timed as if it
+/// switched through the slowest tree of its stage (grown from every place the stage meets a
+/// rail or an input, all devices conducting, every node of the stage switching), ignoring
+/// whether any input vector makes that path happen. Keeper gates are not followed (the
+/// feedback loop of a keeper is not a path). Returns (bound ps, arrival per node).
+pub fn topological_bound(g: &Graph) -> Result<(f64, Vec<f64>)> {
+    let ns = g.stages.len();
+    // Stage inputs: gates of its devices except keepers.
+    let mut indeg = vec![0usize; ns];
+    let mut ins: Vec<Vec<u32>> = vec![vec![]; ns];
+    for (si, st) in g.stages.iter().enumerate() {
+        for &di in &st.devs {
+            let d = &g.devs[di as usize];
+            if d.role == Role::Keeper || ins[si].contains(&d.g) {
+                continue;
+            }
+            ins[si].push(d.g);
+        }
+    }
+    let mut readers: Vec<Vec<u32>> = vec![vec![]; ns];
+    for (si, gates) in ins.iter().enumerate() {
+        for &x in gates {
+            let s = g.stage_of[x as usize];
+            if s != NONE && s as usize != si {
+                readers[s as usize].push(si as u32);
+                indeg[si] += 1;
+            }
+        }
+    }
+    let mut arrival = vec![0.0f64; g.n_nodes()];
+    let mut slew = vec![g.input_slew_ps; g.n_nodes()];
+    let mut ready: VecDeque<usize> = (0..ns).filter(|&s| indeg[s] == 0).collect();
+    let mut done = 0;
+    while let Some(si) = ready.pop_front() {
+        done += 1;
+        let (t_in, s_in) = ins[si]
+            .iter()
+            .map(|&x| (arrival[x as usize], slew[x as usize]))
+            .fold((0.0f64, g.input_slew_ps), |acc, (t, s)| {
+                if t > acc.0 {
+                    (t, s)
+                } else {
+                    acc
+                }
+            });
+        for (x, tau) in slowest_taus(g, si) {
+            arrival[x as usize] = t_in + LN2 * tau + SLOPE_SHARE * s_in;
+            slew[x as usize] = SLEW_PER_TAU * tau;
+        }
+        for &r in &readers[si] {
+            indeg[r as usize] -= 1;
+            if indeg[r as usize] == 0 {
+                ready.push_back(r as usize);
+            }
+        }
+    }
+    if done < ns {
+        return Err(Error::Check(
+            "timing: the stage graph has a loop other than a keeper's".into(),
+        ));
+    }
+    let bound = g
+        .outputs
+        .iter()
+        .map(|&o| arrival[o as usize])
+        .fold(0.0, f64::max);
+    Ok((bound, arrival))
+}
+
+/// For every node of a stage, the largest Elmore delay over trees grown breadth-first from
+/// each entry (a device from a source) through every device of the stage, both directions.
+fn slowest_taus(g: &Graph, si: usize) -> Vec<(u32, f64)> {
+    let st = &g.stages[si];
+    let m = st.nodes.len();
+    let mut best = vec![0.0f64; m];
+    let all_on = |_: &Dev| true;
+    let _ = all_on;
+    for &di in &st.devs {
+        let d = &g.devs[di as usize];
+        if d.role == Role::Keeper {
+            continue;
+        }
+        for (x, y) in [(d.a, d.b), (d.b, d.a)] {
+            if g.kind[x as usize] == NodeKind::Inner || g.kind[y as usize] != NodeKind::Inner {
+                continue;
+            }
+            for v in [false, true] {
+                if (d.mos == Mos::N && v && d.role != Role::Pass)
+                    || (d.mos == Mos::P && !v && d.role != Role::Pass)
+                {
+                    continue; // a pull-down does not raise a node, nor a pull-up lower it
+                }
+                // BFS tree from y over the stage's non-keeper devices.
+                let mut pred = vec![(NONE, NONE); m];
+                let mut seen = vec![false; m];
+                let mut order = vec![];
+                let y0 = g.local[y as usize] as usize;
+                seen[y0] = true;
+                pred[y0] = (NONE, di);
+                order.push(y0);
+                let mut h = 0;
+                while h < order.len() {
+                    let li = order[h];
+                    h += 1;
+                    let node = st.nodes[li];
+                    for &(dj, z) in &g.adj[node as usize] {
+                        let e = &g.devs[dj as usize];
+                        if g.kind[z as usize] != NodeKind::Inner || e.role == Role::Keeper {
+                            continue;
+                        }
+                        if e.mos == Mos::P && e.partner != NONE {
+                            continue; // the NMOS half stands for the gate
+                        }
+                        let zl = g.local[z as usize] as usize;
+                        if !seen[zl] {
+                            seen[zl] = true;
+                            pred[zl] = (li as u32, dj);
+                            order.push(zl);
+                        }
+                    }
+                }
+                let mut down = vec![0.0; m];
+                for &li in order.iter().rev() {
+                    down[li] += g.cap_ff[st.nodes[li] as usize];
+                    if pred[li].0 != NONE {
+                        let p = pred[li].0 as usize;
+                        down[p] += down[li];
+                    }
+                }
+                let mut tau = vec![0.0; m];
+                for &li in &order {
+                    let (p, dj) = pred[li];
+                    let e = &g.devs[dj as usize];
+                    let tg = e.partner != NONE;
+                    let r = g.r_kohm(e, v, tg, 1);
+                    let tp = if p == NONE { 0.0 } else { tau[p as usize] };
+                    tau[li] = tp + r * down[li];
+                    best[li] = best[li].max(tau[li]);
+                }
+            }
+        }
+    }
+    st.nodes.iter().copied().zip(best).collect()
+}
+
+pub use super::search::{estimate, estimate_with, Budget, Estimate};
+
+/// The technology's characterised timing parameters.
+///
+/// PROVISIONAL until the characterised technologies land: rough GF180MCU 3.3 V typical
+/// values so the engine can be developed; replaced by the technology's own `timing`.
+pub fn timing_of(spec: &Spec) -> Result<Timing> {
+    let _ = spec;
+    Ok(Timing {
+        input_slew_ps: 50.0,
+        n_width_um: 1.0,
+        p_width_um: 2.0,
+        r_n_fall_kohm_um: [6.0, 7.0, 8.0],
+        r_p_rise_kohm_um: [14.0, 16.0, 18.0],
+        r_pass_n_fall_kohm_um: 7.0,
+        r_pass_n_rise_kohm_um: 16.0,
+        r_tg_fall_kohm_um: 5.0,
+        r_tg_rise_kohm_um: 6.0,
+        c_gate_n_ff_um: 1.8,
+        c_gate_p_ff_um: 1.8,
+        c_diff_n_ff_um: 1.0,
+        c_diff_p_ff_um: 1.0,
+        fo4_ps: 100.0,
+        tau_ps: 20.0,
+        p_inv: 1.0,
+    })
+}
