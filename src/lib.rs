@@ -17,6 +17,7 @@ pub mod ratio;
 pub mod sim;
 pub mod spec;
 pub mod tech;
+pub mod timing;
 
 use error::{Error, Result};
 use netlist::Design;
