@@ -56,6 +56,28 @@ enum Command {
         #[arg(long, value_name = "DIR")]
         model_dir: Option<PathBuf>,
     },
+    /// Characterise a technology in ngspice (switching resistances, capacitances, pass
+    /// devices, FO4, tau, p_inv) and write a technology file carrying the timing parameters.
+    Characterize {
+        /// A built-in technology or a technology .yaml file.
+        #[arg(long, value_name = "T")]
+        technology: String,
+        /// Process corner (a library section the technology lists).
+        #[arg(long, value_name = "C")]
+        corner: Option<String>,
+        /// Temperature, degC (-55 to 175).
+        #[arg(long, value_name = "DEG", allow_negative_numbers = true)]
+        temp: Option<f64>,
+        /// Supply, volts (70 % to 130 % of nominal).
+        #[arg(long, value_name = "V")]
+        vdd: Option<f64>,
+        /// Model folder (else the technology's environment variable).
+        #[arg(long, value_name = "DIR")]
+        model_dir: Option<PathBuf>,
+        /// The technology file to write.
+        #[arg(short, long, value_name = "FILE.yaml")]
+        out: PathBuf,
+    },
 }
 
 /// Print to stdout, ignoring a closed pipe (`carrywright check x | head`).
@@ -176,6 +198,31 @@ fn run(cli: Cli) -> Result<ExitCode> {
                 );
                 Ok(ExitCode::from(1))
             }
+        }
+        Command::Characterize {
+            technology,
+            corner,
+            temp,
+            vdd,
+            model_dir,
+            out,
+        } => {
+            let r = carrywright::timing::characterize::run(
+                &carrywright::timing::characterize::Options {
+                    technology,
+                    corner,
+                    temp,
+                    vdd,
+                    model_dir,
+                    out: out.clone(),
+                },
+            )?;
+            let cpu = r
+                .ngspice_cpu_s
+                .map(|c| format!("{c:.1} s"))
+                .unwrap_or_else(|| "not reported".into());
+            say!("wrote {} (ngspice CPU {cpu})", out.display());
+            Ok(ExitCode::SUCCESS)
         }
     }
 }

@@ -167,6 +167,9 @@ struct RawSpec {
     buffers: Option<serde_yaml::Value>,
     #[serde(default)]
     technology: Option<String>,
+    /// Corner, temperature and supply (see `tech::Technology::apply_conditions`).
+    #[serde(default)]
+    conditions: Option<tech::RawConditions>,
     #[serde(default)]
     sizing: Option<RawSizing>,
     #[serde(default)]
@@ -511,6 +514,13 @@ fn validate(raw: RawSpec, src: &Source, base: &Path, opts: &LoadOptions) -> Resu
             }
         }
     };
+
+    let mut technology = technology;
+    if let Some(c) = &raw.conditions {
+        technology
+            .apply_conditions(&c.to_conditions())
+            .map_err(|(k, m)| src.error(&format!("conditions.{k}"), m))?;
+    }
 
     let rs = raw.sizing.unwrap_or_default();
     let sizing = Sizing {

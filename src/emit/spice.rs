@@ -9,7 +9,6 @@ use crate::cells::Mos;
 use crate::error::{Error, Result};
 use crate::netlist::{Design, Master};
 use crate::spec::{fmt_si, trim_num, Architecture, Spec, Style};
-use crate::tech::Models;
 use serde::Serialize;
 
 const LINE: usize = 78;
@@ -47,10 +46,6 @@ struct SubcktCtx {
     dynamic: bool,
     cells: Vec<CellCtx>,
     modules: Vec<ModuleCtx>,
-}
-
-fn um(x: f64) -> String {
-    format!("{}u", trim_num(x))
 }
 
 /// Pin names of a master in connection order, plus the supplies.
@@ -93,21 +88,11 @@ pub fn subcircuits(spec: &Spec, design: &Design) -> Result<String> {
                 .devices
                 .iter()
                 .map(|d| {
-                    let (bulk, model) = match d.mos {
-                        Mos::N => ("vss", &tech.nmos),
-                        Mos::P => ("vdd", &tech.pmos),
+                    let (bulk, pmos) = match d.mos {
+                        Mos::N => ("vss", false),
+                        Mos::P => ("vdd", true),
                     };
-                    format!(
-                        "{} {} {} {} {} {} w={} l={}",
-                        d.name,
-                        d.d,
-                        d.g,
-                        d.s,
-                        bulk,
-                        model,
-                        um(d.w),
-                        um(d.l)
-                    )
+                    tech.device_line(&d.name, &d.d, &d.g, &d.s, bulk, pmos, d.w, d.l)
                 })
                 .collect(),
         })
@@ -320,6 +305,7 @@ struct DeckCtx {
     corner: String,
     temp: String,
     need_model_dir: bool,
+    model_env: String,
     netlist: String,
     dynamic: bool,
     vdd: String,
@@ -454,18 +440,7 @@ pub fn deck(spec: &Spec, design: &Design, plan: &DeckPlan, netlist: &str) -> Res
             });
         }
     }
-    let model_lines = match &tech.models {
-        Models::Inline(text) => {
-            let mut l = vec!["* Illustrative level-1 models (not a real process):".to_string()];
-            l.extend(text.lines().map(str::to_string));
-            l
-        }
-        Models::Files { include, lib } => include
-            .iter()
-            .map(|p| format!(".include {}", p.deck))
-            .chain(lib.iter().map(|(p, sec)| format!(".lib {} {sec}", p.deck)))
-            .collect(),
-    };
+    let model_lines = tech.models.deck_lines();
     // Start looking a little before the vector begins: a `td` exactly on the input's
     // breakpoint can make ngspice miss the crossing.
     let rise_td = (WORST_CASE_RISE as f64 - 0.05) * t;
@@ -488,6 +463,7 @@ pub fn deck(spec: &Spec, design: &Design, plan: &DeckPlan, netlist: &str) -> Res
         corner: tech.corner.clone(),
         temp: trim_num(tech.temp),
         need_model_dir: tech.models.need_model_dir(),
+        model_env: tech.model_env.clone(),
         netlist: netlist.trim_end().to_string(),
         dynamic,
         vdd: vdd_text.clone(),

@@ -948,28 +948,14 @@ fn slowest_taus(g: &Graph, si: usize) -> Vec<(u32, f64)> {
 
 pub use super::search::{estimate, estimate_with, Budget, Estimate};
 
-/// The technology's characterised timing parameters.
-///
-/// PROVISIONAL until the characterised technologies land: rough GF180MCU 3.3 V typical
-/// values so the engine can be developed; replaced by the technology's own `timing`.
+/// The technology's characterised timing parameters at its present conditions, or an input
+/// error naming what is missing.
 pub fn timing_of(spec: &Spec) -> Result<Timing> {
-    let _ = spec;
-    Ok(Timing {
-        input_slew_ps: 50.0,
-        n_width_um: 1.0,
-        p_width_um: 2.0,
-        r_n_fall_kohm_um: [6.0, 7.0, 8.0],
-        r_p_rise_kohm_um: [14.0, 16.0, 18.0],
-        r_pass_n_fall_kohm_um: 7.0,
-        r_pass_n_rise_kohm_um: 16.0,
-        r_tg_fall_kohm_um: 5.0,
-        r_tg_rise_kohm_um: 6.0,
-        c_gate_n_ff_um: 1.8,
-        c_gate_p_ff_um: 1.8,
-        c_diff_n_ff_um: 1.0,
-        c_diff_p_ff_um: 1.0,
-        fo4_ps: 100.0,
-        tau_ps: 20.0,
-        p_inv: 1.0,
+    let t = &spec.technology;
+    t.timing.clone().ok_or_else(|| {
+        Error::Input(format!(
+            "technology: {} has no characterised timing at corner {}, {} °C, {} V; run `carrywright characterize` and use the file it writes",
+            t.name, t.corner, t.temp, t.vdd
+        ))
     })
 }

@@ -1,28 +1,142 @@
-//! TEMPORARY copy of the timing parameters (branch h-char owns this file); replaced by the
-//! characterised definition when h-char is merged. Only `pub mod engine;` and
-//! `pub mod search;` are this branch's lines.
+//! Timing parameters of a technology, characterised from its own devices in ngspice
+//! ([`characterize`]), and the characterised files built into the tool.
+//!
+//! Every resistance is per µm of device width (kΩ·µm: divide by the width in µm to get kΩ),
+//! every capacitance per µm of width (fF/µm). The conditions they hold at (corner,
+//! temperature, supply) travel with them: a technology carries its timing only at exactly
+//! those conditions.
 
+pub mod characterize;
 pub mod engine;
 pub mod search;
 
+use crate::tech::Technology;
 use serde::{Deserialize, Serialize};
 
+/// Characterised timing parameters (see `characterize` for how each is measured and fitted).
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
 pub struct Timing {
+    /// Input ramp (0-100 %) of the characterisation circuits, ps.
     pub input_slew_ps: f64,
+    /// Widths of the characterised devices, µm (NMOS; PMOS = NMOS × the technology's
+    /// pn_ratio), at the technology's minimum length.
     pub n_width_um: f64,
     pub p_width_um: f64,
+    /// NMOS pull-down, output falling: effective resistance × width of each device, for a
+    /// single device and series stacks of 2 and 3 (equal widths), kΩ·µm.
     pub r_n_fall_kohm_um: [f64; 3],
+    /// PMOS pull-up, output rising: likewise, kΩ·µm.
     pub r_p_rise_kohm_um: [f64; 3],
+    /// Pass NMOS (gate at VDD) passing a 0 (output falling) and a 1 (rising), kΩ·µm.
     pub r_pass_n_fall_kohm_um: f64,
     pub r_pass_n_rise_kohm_um: f64,
+    /// Transmission gate (NMOS of the given width, PMOS pn_ratio wider), falling and
+    /// rising, per µm of NMOS width, kΩ·µm.
     pub r_tg_fall_kohm_um: f64,
     pub r_tg_rise_kohm_um: f64,
+    /// Gate capacitance per µm of width (charge over a full gate swing, channel ends at
+    /// the rail), fF/µm.
     pub c_gate_n_ff_um: f64,
     pub c_gate_p_ff_um: f64,
+    /// Drain capacitance of an off device per µm of width (junction and overlap, charge
+    /// over a full drain swing), fF/µm.
     pub c_diff_n_ff_um: f64,
     pub c_diff_p_ff_um: f64,
+    /// Fan-out-of-4 inverter delay in a chain of FO4 inverters (mean of rise and fall), ps.
     pub fo4_ps: f64,
+    /// Logical effort's τ (slope of inverter delay against electrical fan-out), ps, and the
+    /// inverter's parasitic delay in units of τ.
     pub tau_ps: f64,
     pub p_inv: f64,
+    /// The conditions these values hold at (the file's `conditions:` record).
+    #[serde(skip)]
+    pub at: At,
+}
+
+/// Corner, temperature (°C) and supply (V) of a characterisation.
+#[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct At {
+    pub corner: String,
+    pub temp: f64,
+    pub vdd: f64,
+}
+
+impl Timing {
+    /// These values were characterised at the technology's present conditions.
+    pub fn matches(&self, t: &Technology) -> bool {
+        self.at.corner == t.corner
+            && (self.at.temp - t.temp).abs() < 1e-9
+            && (self.at.vdd - t.vdd).abs() < 1e-9
+    }
+
+    /// Every value is a finite positive number (p_inv may be zero or slightly negative
+    /// only if a fit says so; it is checked finite). `Err((key, message))`.
+    pub fn check(&self) -> std::result::Result<(), (String, String)> {
+        let mut named: Vec<(&str, f64)> = vec![
+            ("input_slew_ps", self.input_slew_ps),
+            ("n_width_um", self.n_width_um),
+            ("p_width_um", self.p_width_um),
+            ("r_pass_n_fall_kohm_um", self.r_pass_n_fall_kohm_um),
+            ("r_pass_n_rise_kohm_um", self.r_pass_n_rise_kohm_um),
+            ("r_tg_fall_kohm_um", self.r_tg_fall_kohm_um),
+            ("r_tg_rise_kohm_um", self.r_tg_rise_kohm_um),
+            ("c_gate_n_ff_um", self.c_gate_n_ff_um),
+            ("c_gate_p_ff_um", self.c_gate_p_ff_um),
+            ("c_diff_n_ff_um", self.c_diff_n_ff_um),
+            ("c_diff_p_ff_um", self.c_diff_p_ff_um),
+            ("fo4_ps", self.fo4_ps),
+            ("tau_ps", self.tau_ps),
+        ];
+        for (i, v) in self.r_n_fall_kohm_um.iter().enumerate() {
+            named.push((["r_n_fall_kohm_um[0]", "r_n_fall_kohm_um[1]", "r_n_fall_kohm_um[2]"][i], *v));
+        }
+        for (i, v) in self.r_p_rise_kohm_um.iter().enumerate() {
+            named.push((["r_p_rise_kohm_um[0]", "r_p_rise_kohm_um[1]", "r_p_rise_kohm_um[2]"][i], *v));
+        }
+        for (k, v) in named {
+            if !(v.is_finite() && v > 0.0 && v < 1e6) {
+                return Err((
+                    format!("timing.{k}"),
+                    format!("must be a positive number, got {v}"),
+                ));
+            }
+        }
+        if !self.p_inv.is_finite() || self.p_inv.abs() > 100.0 {
+            return Err(("timing.p_inv".into(), format!("must be a number of modest size, got {}", self.p_inv)));
+        }
+        Ok(())
+    }
+}
+
+/// The `conditions:` and `timing:` blocks of a characterised technology file (other keys
+/// are read by [`crate::tech::load_file`]).
+#[derive(Deserialize)]
+struct TimingFile {
+    conditions: At,
+    timing: Timing,
+}
+
+/// Read the conditions and timing of a characterised file's text.
+pub fn parse_timing(text: &str) -> std::result::Result<Timing, String> {
+    let f: TimingFile = serde_yaml::from_str(text).map_err(|e| e.to_string())?;
+    let mut t = f.timing;
+    t.at = f.conditions;
+    t.check().map_err(|(k, m)| format!("{k}: {m}"))?;
+    Ok(t)
+}
+
+/// The characterised files built into the tool: (technology, corner, file text). Each was
+/// written by `carrywright characterize` and checked in under `configs/technologies/`.
+pub const BUILTIN_FILES: &[(&str, &str, &str)] = &[];
+
+/// The built-in characterisation of this technology at its present corner, if it was
+/// characterised at exactly its present temperature and supply.
+pub fn builtin_timing(t: &Technology) -> Option<Timing> {
+    BUILTIN_FILES
+        .iter()
+        .filter(|(name, corner, _)| *name == t.name && *corner == t.corner)
+        .filter_map(|(_, _, text)| parse_timing(text).ok())
+        .find(|tm| tm.matches(t))
 }

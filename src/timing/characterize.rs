@@ -1,0 +1,582 @@
+//! `carrywright characterize`: measure a technology's own devices in ngspice and fit the
+//! timing parameters of [`super::Timing`].
+//!
+//! One netlist holds every characterisation circuit side by side (so the models are read
+//! once: SKY130's library alone costs about 5 s of CPU to load) and one transient runs them
+//! all on one thread. Devices are written by [`Technology::device_line`], the same code the
+//! SPICE view uses, so prefixes and size units are shared.
+//!
+//! Method (each choice is also written into the output file's comments):
+//! - Switching resistance: a gate of k equal devices in series (k = 1, 2, 3; all gates driven
+//!   together by a ramp of the technology's input slew) with one opposite device to set the
+//!   starting level, loaded by C = 4, 8, 16, 32 fF. Delay (input 50 % to output 50 %) is fitted
+//!   by least squares to d = 0.69·R·C + d0 (Elmore; the 0.69 = ln 2 step-response factor,
+//!   Rabaey, Chandrakasan & Nikolić, §6.2.3): R = slope / 0.69. The device's own and internal
+//!   node capacitances go into d0, so R is the effective resistance of the stack. Reported as
+//!   R × W (kΩ·µm).
+//! - Pass NMOS (gate at VDD) and transmission gate: an ideal source ramps one side, the
+//!   other side drives the swept load; the same fit.
+//! - Capacitances by charge: a source ramps the terminal 0 to VDD (VDD to 0 for PMOS) with the
+//!   other terminals at their rail; C = |∫ i dt| / VDD / W over 8 unit devices.
+//! - Logical effort (Sutherland, Sproull & Harris 1999): an inverter driven by an identical
+//!   inverter drives h identical inverters, h = 1, 2, 3, 4, 6, 8; the mean of rise and fall
+//!   delay is fitted to d = τ·h + τ·p_inv. FO4 is measured in a chain where every inverter
+//!   drives four copies of itself (the third stage is timed, mean of rise and fall).
+
+use super::{At, Timing};
+use crate::error::{Error, Result};
+use crate::spec::{printable, trim_num};
+use crate::tech::{Models, Technology};
+use std::collections::BTreeMap;
+use std::fmt::Write as _;
+use std::path::Path;
+
+/// Load capacitances swept for the resistance fits, fF.
+pub const LOADS_FF: [f64; 4] = [4.0, 8.0, 16.0, 32.0];
+/// Electrical fan-outs swept for τ and p_inv.
+pub const FANOUTS: [f64; 6] = [1.0, 2.0, 3.0, 4.0, 6.0, 8.0];
+/// Unit devices in parallel for the charge measurements.
+pub const CHARGE_DEVICES: usize = 8;
+/// Elmore's step-response factor ln 2 (Rabaey et al. §6.2.3).
+pub const LN2: f64 = 0.69;
+
+/// Times of the two input edges and the end of the run, seconds.
+const T0: f64 = 0.2e-9;
+const T1: f64 = 4.2e-9;
+const TSTOP: f64 = 8.4e-9;
+
+/// What a characterisation run produced.
+pub struct Characterized {
+    pub timing: Timing,
+    /// The technology YAML file (comments, conditions, timing).
+    pub yaml: String,
+    /// CPU time of the ngspice run, seconds (user + system, measured as this process's
+    /// children's time).
+    pub ngspice_cpu_s: Option<f64>,
+    /// Fits: name -> (slope-derived value, intercept ps, worst residual ps).
+    pub fits: BTreeMap<String, Fit>,
+}
+
+/// A least-squares line.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Fit {
+    pub slope: f64,
+    pub intercept: f64,
+    /// Largest |residual|, same unit as y.
+    pub worst: f64,
+}
+
+/// Least squares y = slope·x + intercept.
+pub fn fit_line(x: &[f64], y: &[f64]) -> Fit {
+    let n = x.len() as f64;
+    let mx = x.iter().sum::<f64>() / n;
+    let my = y.iter().sum::<f64>() / n;
+    let sxy: f64 = x.iter().zip(y).map(|(a, b)| (a - mx) * (b - my)).sum();
+    let sxx: f64 = x.iter().map(|a| (a - mx) * (a - mx)).sum();
+    let slope = sxy / sxx;
+    let intercept = my - slope * mx;
+    let worst = x
+        .iter()
+        .zip(y)
+        .map(|(a, b)| (b - slope * a - intercept).abs())
+        .fold(0.0, f64::max);
+    Fit {
+        slope,
+        intercept,
+        worst,
+    }
+}
+
+/// The characterisation netlist and the names of the measurements it prints.
+struct Bench {
+    lines: Vec<String>,
+    meas: Vec<String>,
+    w_n: f64,
+    w_p: f64,
+}
+
+impl Bench {
+    fn dev(&mut self, t: &Technology, name: &str, d: &str, g: &str, s: &str, pmos: bool, w: f64) {
+        let b = if pmos { "vdd" } else { "vss" };
+        let name = format!("{}_{name}", if pmos { "mp" } else { "mn" });
+        self.lines
+            .push(t.device_line(&name, d, g, s, b, pmos, w, t.l_min));
+    }
+    fn inv(&mut self, t: &Technology, name: &str, a: &str, y: &str) {
+        let (wn, wp) = (self.w_n, self.w_p);
+        self.dev(t, name, y, a, "vss", false, wn);
+        self.dev(t, name, y, a, "vdd", true, wp);
+    }
+    /// `meas` of a delay from `from` (rise or fall) to `to`, both at 50 % VDD.
+    fn delay(&mut self, name: &str, from: &str, from_edge: &str, to: &str, to_edge: &str, vdd: f64) {
+        let h = trim_num(vdd / 2.0);
+        self.meas.push(format!(
+            "meas tran {name} trig v({from}) val={h} {from_edge}=1 targ v({to}) val={h} {to_edge}=1"
+        ));
+        self.meas.push(name.to_string());
+    }
+}
+
+fn pwl(vdd: f64, rising_first: bool, slew: f64) -> String {
+    let (lo, hi) = if rising_first {
+        ("0".to_string(), trim_num(vdd))
+    } else {
+        (trim_num(vdd), "0".to_string())
+    };
+    let p = |x: f64| format!("{:.4e}", x);
+    format!(
+        "pwl(0 {lo} {} {lo} {} {hi} {} {hi} {} {lo})",
+        p(T0),
+        p(T0 + slew),
+        p(T1),
+        p(T1 + slew)
+    )
+}
+
+/// Build the netlist of every characterisation circuit for `t`.
+fn bench(t: &Technology, model_lines: &[String]) -> Bench {
+    let vdd = t.vdd;
+    let w_n = t.unit_n;
+    let w_p = (t.unit_n * t.pn_ratio * 1000.0).round() / 1000.0;
+    let mut b = Bench {
+        lines: vec![format!("* carrywright characterisation of {}", t.name)],
+        meas: vec![],
+        w_n,
+        w_p,
+    };
+    b.lines.extend(model_lines.iter().cloned());
+    b.lines.push(format!("vvdd vdd 0 {}", trim_num(vdd)));
+    b.lines.push("vvss vss 0 0".into());
+    b.lines.push(format!("vin in 0 {}", pwl(vdd, true, t.slew)));
+    b.lines.push(format!("vinb inb 0 {}", pwl(vdd, false, t.slew)));
+    // Stacks: k series devices, all gates on the input, one opposite device for the start.
+    for k in 1..=3usize {
+        for (li, c) in LOADS_FF.iter().enumerate() {
+            // NMOS pull-down, output falling when `in` rises.
+            let out = format!("nd{k}_{li}");
+            b.dev(t, &format!("nd{k}_{li}_up"), &out, "in", "vdd", true, w_p);
+            for j in 0..k {
+                let d = if j == 0 { out.clone() } else { format!("nd{k}_{li}_x{j}") };
+                let s = if j + 1 == k { "vss".to_string() } else { format!("nd{k}_{li}_x{}", j + 1) };
+                b.dev(t, &format!("nd{k}_{li}_{j}"), &d, "in", &s, false, w_n);
+            }
+            b.lines.push(format!("c{out} {out} 0 {}f", trim_num(*c)));
+            b.delay(&format!("t_{out}"), "in", "rise", &out, "fall", vdd);
+            // PMOS pull-up, output rising when `inb` falls.
+            let out = format!("pu{k}_{li}");
+            b.dev(t, &format!("pu{k}_{li}_dn"), &out, "inb", "vss", false, w_n);
+            for j in 0..k {
+                let d = if j == 0 { out.clone() } else { format!("pu{k}_{li}_x{j}") };
+                let s = if j + 1 == k { "vdd".to_string() } else { format!("pu{k}_{li}_x{}", j + 1) };
+                b.dev(t, &format!("pu{k}_{li}_{j}"), &d, "inb", &s, true, w_p);
+            }
+            b.lines.push(format!("c{out} {out} 0 {}f", trim_num(*c)));
+            b.delay(&format!("t_{out}"), "inb", "fall", &out, "rise", vdd);
+        }
+    }
+    // Pass NMOS and transmission gate between a driven node and the load: passing a 0 from
+    // an output at VDD (the side driven by `inb`, which falls) and a 1 from an output at 0
+    // (driven by `in`, which rises), each from its own circuit so it starts at the rail.
+    for (li, c) in LOADS_FF.iter().enumerate() {
+        for kind in ["pn", "tg"] {
+            for (edge, src) in [("f", "inb"), ("r", "in")] {
+                let out = format!("{kind}{edge}_{li}");
+                b.dev(t, &out, &out, "vdd", src, false, w_n);
+                if kind == "tg" {
+                    b.dev(t, &out, &out, "vss", src, true, w_p);
+                }
+                b.lines.push(format!("c{out} {out} 0 {}f", trim_num(*c)));
+                let e = if edge == "f" { "fall" } else { "rise" };
+                b.delay(&format!("t_{out}"), src, e, &out, e, vdd);
+            }
+        }
+    }
+    // Charge: gate (N from 0 up, P from VDD down) and drain of an off device.
+    let sources = [
+        ("qgn", "in", false, true),
+        ("qgp", "inb", true, true),
+        ("qdn", "in", false, false),
+        ("qdp", "inb", true, false),
+    ];
+    for (q, shape, pmos, gate) in sources {
+        let node = format!("{q}_node");
+        b.lines.push(format!(
+            "v{q} {node} 0 {}",
+            pwl(vdd, shape == "in", t.slew)
+        ));
+        let rail = if pmos { "vdd" } else { "vss" };
+        for j in 0..CHARGE_DEVICES {
+            let w = w_n;
+            if gate {
+                b.dev(t, &format!("{q}{j}"), rail, &node, rail, pmos, w);
+            } else {
+                b.dev(t, &format!("{q}{j}"), &node, rail, rail, pmos, w);
+            }
+        }
+        b.meas.push(format!(
+            "meas tran {q} integ i(v{q}) from={:.4e} to={:.4e}",
+            T0 - 0.05e-9,
+            T0 + 2.0e-9
+        ));
+        b.meas.push(q.to_string());
+    }
+    // Logical effort: driver -> inverter under test -> h loads.
+    for (hi, h) in FANOUTS.iter().enumerate() {
+        let a = format!("le{hi}_a");
+        let y = format!("le{hi}_y");
+        b.inv(t, &format!("le{hi}_drv"), "in", &a);
+        b.inv(t, &format!("le{hi}_dut"), &a, &y);
+        for j in 0..(*h as usize) {
+            b.inv(t, &format!("le{hi}_ld{j}"), &y, &format!("le{hi}_z{j}"));
+        }
+        b.delay(&format!("lr_{hi}"), &a, "fall", &y, "rise", vdd);
+        b.delay(&format!("lf_{hi}"), &a, "rise", &y, "fall", vdd);
+    }
+    // FO4 chain: each stage drives the next and three copies of it.
+    let mut prev = "in".to_string();
+    for s in 1..=5 {
+        let next = format!("fo{s}");
+        b.inv(t, &format!("fo{s}"), &prev, &next);
+        if s > 1 {
+            for j in 0..3 {
+                b.inv(t, &format!("fo{s}_ld{j}"), &prev, &format!("fo{s}_z{j}"));
+            }
+        }
+        prev = next;
+    }
+    // in rises -> fo1 falls -> fo2 rises -> fo3 falls: time stage 3 (fo2 -> fo3).
+    b.delay("fo4_f", "fo2", "rise", "fo3", "fall", vdd);
+    b.delay("fo4_r", "fo2", "fall", "fo3", "rise", vdd);
+    b
+}
+
+/// The deck ngspice runs (a plain netlist with a control block).
+fn deck_text(t: &Technology, b: &Bench) -> String {
+    let mut s = String::new();
+    for l in &b.lines {
+        let _ = writeln!(s, "{l}");
+    }
+    let _ = writeln!(s, ".temp {}", trim_num(t.temp));
+    let _ = writeln!(s, ".options noinit");
+    let _ = writeln!(s, ".control");
+    let _ = writeln!(s, "set num_threads=1");
+    let _ = writeln!(s, "save all");
+    let _ = writeln!(s, "tran 1p {:.4e} 0 2p", TSTOP);
+    for pair in b.meas.chunks(2) {
+        let (cmd, name) = (&pair[0], &pair[1]);
+        let _ = writeln!(s, "let {name} = -1e9");
+        let _ = writeln!(s, "{cmd}");
+        let _ = writeln!(s, "echo \"cw_meas {name} $&{name}\"");
+    }
+    let _ = writeln!(s, "quit 0");
+    let _ = writeln!(s, ".endc");
+    let _ = writeln!(s, ".end");
+    s
+}
+
+/// Model lines with the model folder written out (this netlist is private to the run).
+fn local_model_lines(t: &Technology) -> Result<Vec<String>> {
+    let lines = t.models.deck_lines();
+    if let Models::Files { .. } = &t.models {
+        if t.models.need_model_dir() {
+            let Some(root) = &t.model_root else {
+                return Err(Error::Input(t.models_missing.clone().unwrap_or_else(|| {
+                    format!("technology `{}`: model folder not found", t.name)
+                })));
+            };
+            let root = root.to_string_lossy().to_string();
+            let var = format!("${}", crate::tech::DECK_MODEL_VAR);
+            return Ok(lines.into_iter().map(|l| l.replace(&var, &root)).collect());
+        }
+    }
+    Ok(lines)
+}
+
+/// CPU seconds (user + system) of this process's finished and waited-for children, from
+/// `/proc/self/stat` (Linux; None elsewhere). Clock ticks are taken as 100 a second, the
+/// Linux default.
+fn children_cpu() -> Option<f64> {
+    let stat = std::fs::read_to_string("/proc/self/stat").ok()?;
+    // Fields after the command name in parentheses; cutime and cstime are fields 16 and 17.
+    let rest = &stat[stat.rfind(')')? + 2..];
+    let f: Vec<&str> = rest.split_whitespace().collect();
+    let cutime: f64 = f.get(13)?.parse().ok()?;
+    let cstime: f64 = f.get(14)?.parse().ok()?;
+    Some((cutime + cstime) / 100.0)
+}
+
+/// Run ngspice on the characterisation netlist of `t` and fit.
+pub fn characterize(t: &Technology) -> Result<Characterized> {
+    let models = local_model_lines(t)?;
+    let b = bench(t, &models);
+    let deck = deck_text(t, &b);
+    let dir = tempfile::tempdir()
+        .map_err(|e| Error::Output(format!("characterize: temporary folder: {e}")))?;
+    let path = dir.path().join("characterize.sp");
+    std::fs::write(&path, &deck)
+        .map_err(|e| Error::Output(format!("characterize: {}: {e}", path.display())))?;
+    let cpu_before = children_cpu();
+    let out = std::process::Command::new("ngspice")
+        .arg("-b")
+        .arg(&path)
+        .current_dir(dir.path())
+        .env("OMP_NUM_THREADS", "1")
+        .output()
+        .map_err(|e| Error::Check(format!("characterize: cannot run ngspice: {e}")))?;
+    let stdout = String::from_utf8_lossy(&out.stdout);
+    let mut got: BTreeMap<String, f64> = BTreeMap::new();
+    let cpu = match (cpu_before, children_cpu()) {
+        (Some(a), Some(b)) => Some(b - a),
+        _ => None,
+    };
+    for line in stdout.lines() {
+        let w: Vec<&str> = line.split_whitespace().collect();
+        if w.len() == 3 && w[0] == "cw_meas" {
+            if let Ok(v) = w[2].parse::<f64>() {
+                got.insert(w[1].to_string(), v);
+            }
+        }
+    }
+    let need = |name: &str| -> Result<f64> {
+        match got.get(name) {
+            Some(v) if *v > -1e8 => Ok(*v),
+            _ => {
+                let err = String::from_utf8_lossy(&out.stderr);
+                let first = err
+                    .lines()
+                    .chain(stdout.lines())
+                    .find(|l| l.to_ascii_lowercase().contains("error"))
+                    .unwrap_or("no error message");
+                Err(Error::Check(format!(
+                    "characterize {}: measurement {name} failed in ngspice (exit {:?}): {}",
+                    t.name,
+                    out.status.code(),
+                    printable(first.trim())
+                )))
+            }
+        }
+    };
+    fit_all(t, &b, &need, cpu)
+}
+
+fn fit_all(
+    t: &Technology,
+    b: &Bench,
+    need: &dyn Fn(&str) -> Result<f64>,
+    cpu: Option<f64>,
+) -> Result<Characterized> {
+    let loads: Vec<f64> = LOADS_FF.iter().map(|c| c * 1e-15).collect();
+    let mut fits = BTreeMap::new();
+    // R × W in kΩ·µm from a delay-vs-load fit (delays in s, loads in F).
+    let mut fit_r = |key: String, names: Vec<String>, w: f64| -> Result<f64> {
+        let d: Vec<f64> = names.iter().map(|n| need(n)).collect::<Result<_>>()?;
+        let f = fit_line(&loads, &d);
+        let r = f.slope / LN2;
+        fits.insert(
+            key,
+            Fit {
+                slope: r * w / 1e3,
+                intercept: f.intercept * 1e12,
+                worst: f.worst * 1e12,
+            },
+        );
+        Ok(r * w / 1e3)
+    };
+    let mut r_n = [0.0; 3];
+    let mut r_p = [0.0; 3];
+    for k in 1..=3 {
+        r_n[k - 1] = fit_r(
+            format!("r_n_fall[{}]", k - 1),
+            (0..LOADS_FF.len()).map(|li| format!("t_nd{k}_{li}")).collect(),
+            b.w_n,
+        )?;
+        r_p[k - 1] = fit_r(
+            format!("r_p_rise[{}]", k - 1),
+            (0..LOADS_FF.len()).map(|li| format!("t_pu{k}_{li}")).collect(),
+            b.w_p,
+        )?;
+    }
+    let mut pass = BTreeMap::new();
+    for kind in ["pn", "tg"] {
+        for edge in ["r", "f"] {
+            let v = fit_r(
+                format!("{kind}_{edge}"),
+                (0..LOADS_FF.len()).map(|li| format!("t_{kind}{edge}_{li}")).collect(),
+                b.w_n,
+            )?;
+            pass.insert((kind, edge), v);
+        }
+    }
+    let per_um = |q: &str| -> Result<f64> {
+        let charge = need(q)?.abs();
+        Ok(charge / t.vdd / (CHARGE_DEVICES as f64 * b.w_n) * 1e15)
+    };
+    let (cgn, cgp, cdn, cdp) = (per_um("qgn")?, per_um("qgp")?, per_um("qdn")?, per_um("qdp")?);
+    let d_le: Vec<f64> = (0..FANOUTS.len())
+        .map(|hi| Ok((need(&format!("lr_{hi}"))? + need(&format!("lf_{hi}"))?) / 2.0 * 1e12))
+        .collect::<Result<_>>()?;
+    let le = fit_line(&FANOUTS, &d_le);
+    fits.insert("tau".into(), Fit { slope: le.slope, intercept: le.intercept, worst: le.worst });
+    let fo4 = (need("fo4_r")? + need("fo4_f")?) / 2.0 * 1e12;
+    let r4 = |x: f64| {
+        if x == 0.0 || !x.is_finite() {
+            return x;
+        }
+        let mag = 10f64.powf(3.0 - x.abs().log10().floor());
+        (x * mag).round() / mag
+    };
+    let timing = Timing {
+        input_slew_ps: r4(t.slew * 1e12),
+        n_width_um: b.w_n,
+        p_width_um: b.w_p,
+        r_n_fall_kohm_um: r_n.map(r4),
+        r_p_rise_kohm_um: r_p.map(r4),
+        r_pass_n_fall_kohm_um: r4(pass[&("pn", "f")]),
+        r_pass_n_rise_kohm_um: r4(pass[&("pn", "r")]),
+        r_tg_fall_kohm_um: r4(pass[&("tg", "f")]),
+        r_tg_rise_kohm_um: r4(pass[&("tg", "r")]),
+        c_gate_n_ff_um: r4(cgn),
+        c_gate_p_ff_um: r4(cgp),
+        c_diff_n_ff_um: r4(cdn),
+        c_diff_p_ff_um: r4(cdp),
+        fo4_ps: r4(fo4),
+        tau_ps: r4(le.slope),
+        p_inv: r4(le.intercept / le.slope),
+        at: At {
+            corner: t.corner.clone(),
+            temp: t.temp,
+            vdd: t.vdd,
+        },
+    };
+    timing.check().map_err(|(k, m)| {
+        Error::Check(format!("characterize {}: fitted {k} {m}", t.name))
+    })?;
+    let yaml = render_yaml(t, &timing, &fits);
+    Ok(Characterized {
+        timing,
+        yaml,
+        ngspice_cpu_s: cpu,
+        fits,
+    })
+}
+
+fn num(x: f64) -> String {
+    trim_num(x)
+}
+
+/// The technology file: comments stating every choice, the conditions and the timing.
+fn render_yaml(t: &Technology, tm: &Timing, fits: &BTreeMap<String, Fit>) -> String {
+    let mut s = String::new();
+    let w = &mut s;
+    let loads = LOADS_FF.map(num).join(", ");
+    let _ = writeln!(w, "# carrywright technology file: {} characterised at corner {}, {} degC, VDD {} V.", t.name, t.corner, num(t.temp), num(t.vdd));
+    let _ = writeln!(w, "# Written by `carrywright characterize` (carrywright {}); regenerate, do not edit.", env!("CARGO_PKG_VERSION"));
+    let _ = writeln!(w, "# Models: {}.", t.origin);
+    let _ = writeln!(w, "# Devices at L = {} um: NMOS W = {} um, PMOS W = {} um (pn_ratio {}); input ramp {} ps (0-100 %).",
+        num(t.l_min), num(tm.n_width_um), num(tm.p_width_um), num(t.pn_ratio), num(tm.input_slew_ps));
+    let _ = writeln!(w, "# All circuits run in one ngspice transient (one thread, print step 1 ps, internal step <= 2 ps);");
+    let _ = writeln!(w, "# delays are input 50 % to output 50 % of VDD.");
+    let _ = writeln!(w, "# Resistances: delay fitted by least squares to d = 0.69 R C + d0 over loads C = {loads} fF");
+    let _ = writeln!(w, "#   (Elmore; 0.69 = ln 2, Rabaey, Chandrakasan & Nikolic, 2nd ed., 6.2.3); R = slope / 0.69, the");
+    let _ = writeln!(w, "#   devices' own capacitance falls into d0. Written as R x W of each device (kOhm um).");
+    let _ = writeln!(w, "#   Stacks: k equal devices in series, every gate driven together, one opposite device sets the");
+    let _ = writeln!(w, "#   starting level. Pass NMOS: gate at VDD, an ideal ramp on one side. Transmission gate: NMOS W_n");
+    let _ = writeln!(w, "#   and PMOS W_p in parallel, per um of NMOS width.");
+    let _ = writeln!(w, "# Capacitances by charge: |integral of i dt| / VDD / W over {CHARGE_DEVICES} devices of W_n; gate: gate ramped");
+    let _ = writeln!(w, "#   over the full swing, drain, source and bulk at the rail; drain: drain ramped, device off.");
+    let _ = writeln!(w, "# Logical effort (Sutherland, Sproull & Harris 1999): an inverter driven by its twin drives h");
+    let _ = writeln!(w, "#   copies (h = {}); mean of rise and fall delay fitted to d = tau h + tau p_inv.", FANOUTS.map(num).join(", "));
+    let _ = writeln!(w, "#   FO4: third stage of a chain in which every inverter drives four copies of itself.");
+    let _ = writeln!(w, "# Fits (intercept d0 and worst residual, ps):");
+    for (k, f) in fits {
+        let _ = writeln!(w, "#   {k}: d0 {:.1}, worst residual {:.2}", f.intercept, f.worst);
+    }
+    let _ = writeln!(w, "#   cross-check: tau (4 + p_inv) = {:.1} ps against the FO4 measured in the chain, {} ps.",
+        tm.tau_ps * (4.0 + tm.p_inv), num(tm.fo4_ps));
+    let _ = writeln!(w, "name: {}", file_name_stem(t));
+    let _ = writeln!(w, "base: {}", t.name);
+    let _ = writeln!(w, "conditions: {{corner: {}, temp: {}, vdd: {}}}", yaml_str(&t.corner), num(t.temp), num(t.vdd));
+    let _ = writeln!(w, "timing:");
+    let _ = writeln!(w, "  input_slew_ps: {}", num(tm.input_slew_ps));
+    let _ = writeln!(w, "  n_width_um: {}", num(tm.n_width_um));
+    let _ = writeln!(w, "  p_width_um: {}", num(tm.p_width_um));
+    let _ = writeln!(w, "  # single device, stack of 2, stack of 3 (R x W of each device)");
+    let _ = writeln!(w, "  r_n_fall_kohm_um: [{}]", tm.r_n_fall_kohm_um.map(num).join(", "));
+    let _ = writeln!(w, "  r_p_rise_kohm_um: [{}]", tm.r_p_rise_kohm_um.map(num).join(", "));
+    let _ = writeln!(w, "  r_pass_n_fall_kohm_um: {}   # passing a 0", num(tm.r_pass_n_fall_kohm_um));
+    let _ = writeln!(w, "  r_pass_n_rise_kohm_um: {}   # passing a 1 (output stops near VDD - Vt)", num(tm.r_pass_n_rise_kohm_um));
+    let _ = writeln!(w, "  r_tg_fall_kohm_um: {}", num(tm.r_tg_fall_kohm_um));
+    let _ = writeln!(w, "  r_tg_rise_kohm_um: {}", num(tm.r_tg_rise_kohm_um));
+    let _ = writeln!(w, "  c_gate_n_ff_um: {}", num(tm.c_gate_n_ff_um));
+    let _ = writeln!(w, "  c_gate_p_ff_um: {}", num(tm.c_gate_p_ff_um));
+    let _ = writeln!(w, "  c_diff_n_ff_um: {}", num(tm.c_diff_n_ff_um));
+    let _ = writeln!(w, "  c_diff_p_ff_um: {}", num(tm.c_diff_p_ff_um));
+    let _ = writeln!(w, "  fo4_ps: {}", num(tm.fo4_ps));
+    let _ = writeln!(w, "  tau_ps: {}", num(tm.tau_ps));
+    let _ = writeln!(w, "  p_inv: {}", num(tm.p_inv));
+    s
+}
+
+fn yaml_str(s: &str) -> String {
+    if s.chars().all(|c| c.is_ascii_alphanumeric() || c == '_') {
+        s.to_string()
+    } else {
+        format!("\"{}\"", s.replace('"', ""))
+    }
+}
+
+/// `gf180mcu_3v3_typical`: the technology and corner as one identifier.
+fn file_name_stem(t: &Technology) -> String {
+    let corner: String = t
+        .corner
+        .split_whitespace()
+        .next()
+        .unwrap_or("nominal")
+        .chars()
+        .filter(|c| c.is_ascii_alphanumeric())
+        .collect();
+    format!("{}_{}", t.name.replace('-', "_"), corner)
+}
+
+/// Options of `carrywright characterize`.
+#[derive(Debug, Clone, Default)]
+pub struct Options {
+    pub technology: String,
+    pub corner: Option<String>,
+    pub temp: Option<f64>,
+    pub vdd: Option<f64>,
+    pub model_dir: Option<std::path::PathBuf>,
+    pub out: std::path::PathBuf,
+}
+
+/// The `characterize` command: load the technology at the asked conditions, characterise,
+/// write the file (whole, or nothing). Returns what was written and ngspice's CPU time.
+pub fn run(o: &Options) -> Result<Characterized> {
+    let lo = crate::spec::LoadOptions {
+        model_dir: o.model_dir.clone(),
+    };
+    let mut t = if crate::tech::BUILTIN.contains(&o.technology.as_str()) {
+        crate::tech::builtin(&o.technology, &lo)?
+    } else if o.technology.ends_with(".yaml") || o.technology.ends_with(".yml") {
+        crate::tech::load_file(Path::new(&o.technology), &lo)?
+    } else {
+        return Err(Error::Input(format!(
+            "--technology: unknown technology `{}`; expected {} or a technology .yaml file",
+            printable(&o.technology),
+            crate::tech::BUILTIN.join(", ")
+        )));
+    };
+    if let Some(m) = &t.models_missing {
+        return Err(Error::Input(format!("--technology: {m}")));
+    }
+    let c = crate::tech::Conditions {
+        corner: o.corner.clone(),
+        temp: o.temp,
+        vdd: o.vdd,
+    };
+    t.apply_conditions(&c)
+        .map_err(|(k, m)| Error::Input(format!("--{k}: {m}")))?;
+    let r = characterize(&t)?;
+    crate::write_file(&o.out, &r.yaml)?;
+    Ok(r)
+}
