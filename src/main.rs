@@ -44,6 +44,19 @@ enum Command {
         #[arg(long, value_name = "DIR")]
         model_dir: Option<PathBuf>,
     },
+    /// Estimate timing, area and energy from the transistor netlist: the real worst path
+    /// (found over input vector pairs) with its path and pair, cin→cout, the topological
+    /// bound and the delay to every output.
+    Estimate {
+        /// The adder spec (YAML).
+        spec: PathBuf,
+        /// Print one JSON object instead of a table.
+        #[arg(long)]
+        json: bool,
+        /// Folder holding the GF180MCU ngspice models (else $CARRYWRIGHT_MODEL_DIR).
+        #[arg(long, value_name = "DIR")]
+        model_dir: Option<PathBuf>,
+    },
     /// Build the netlist, run its structural checks and a bit-parallel logic check against
     /// native integer addition (exhaustive up to 12 bits, else directed plus random vectors).
     Check {
@@ -141,6 +154,17 @@ fn run(cli: Cli) -> Result<ExitCode> {
             } else {
                 say!("{}", emit::report::table(&s, &design).trim_end());
             }
+            Ok(ExitCode::SUCCESS)
+        }
+        Command::Estimate {
+            spec,
+            json,
+            model_dir,
+        } => {
+            let s = spec::load(&spec, &LoadOptions { model_dir })?;
+            let design = carrywright::build(&s)?;
+            let e = carrywright::timing::engine::estimate(&s, &design)?;
+            say!("{}", carrywright::timing::search::render(&e, json).trim_end());
             Ok(ExitCode::SUCCESS)
         }
         Command::Check {

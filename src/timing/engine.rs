@@ -34,11 +34,21 @@ use std::collections::{BinaryHeap, HashMap, VecDeque};
 pub const LN2: f64 = 0.69;
 /// 10–90 % transition of a single pole, in time constants (ln 9).
 pub const SLEW_PER_TAU: f64 = 2.2;
-/// Share of the triggering input's 10–90 % transition added to a stage's delay: the input
-/// must travel from 50 % to about the device threshold before the stage moves much, less
-/// what the output gains while it does (from memory; checked against ngspice in
-/// tests/timing.rs).
-pub const SLOPE_SHARE: f64 = 0.25;
+/// Input-slope term: a stage whose input moves in t_in (10–90 %) is slower than its step
+/// delay t_step by SLOPE_SHARE · t_in · t_step / (t_in + t_step): about SLOPE_SHARE · t_in for a
+/// fast input, and at most SLOPE_SHARE · t_step for a slow one (a linear RC stage driven by a
+/// ramp lags by at most its time constant τ instead of 0.69 τ, i.e. 0.45 of its step delay;
+/// a gate switching near mid-supply sees even less of a slow input's ramp). From memory;
+/// checked against ngspice in tests/timing.rs.
+pub const SLOPE_SHARE: f64 = 0.5;
+
+/// Delay of a stage with step delay `step` and an input transition `t_in` (both ps).
+pub fn stage_delay(step: f64, t_in: f64) -> f64 {
+    if step + t_in <= 0.0 {
+        return 0.0;
+    }
+    step + SLOPE_SHARE * t_in * step / (t_in + step)
+}
 /// Largest slow-down a fight may cause (a node that barely wins is reported this much slower
 /// than without the opposing path).
 pub const FIGHT_MAX: f64 = 5.0;
@@ -322,10 +332,12 @@ impl Graph {
         let pass = d.role == Role::Pass;
         match (d.mos, v) {
             (Mos::N, false) if pass => t.r_pass_n_fall_kohm_um / d.w,
-            (Mos::N, false) => t.r_n_fall_kohm_um[k] / d.w,
+            // The characterised value is the whole stack's R × W of each device: one device
+            // of a stack of k carries 1/k of it.
+            (Mos::N, false) => t.r_n_fall_kohm_um[k] / d.w / (k + 1) as f64,
             // An NMOS passing a one: the pass-device value whatever its role.
             (Mos::N, true) => t.r_pass_n_rise_kohm_um / d.w,
-            (Mos::P, true) => t.r_p_rise_kohm_um[k] / d.w,
+            (Mos::P, true) => t.r_p_rise_kohm_um[k] / d.w / (k + 1) as f64,
             // A PMOS passing a zero, degraded as an NMOS passing a one is.
             (Mos::P, false) => {
                 t.r_p_rise_kohm_um[0] * (t.r_pass_n_rise_kohm_um / t.r_pass_n_fall_kohm_um)
@@ -755,7 +767,24 @@ impl<'g> Sim<'g> {
                 g.solve(st, &self.val, &self.proj, &mut sc);
                 for d in &sc.out {
                     let y = d.node as usize;
+                    let delay = stage_delay(LN2 * d.tau_ps, e.slew_ps);
                     if d.value == self.proj[y] {
+                        // Already on its way: an earlier arrival under the new conditions
+                        // (a fight ended, a stronger path opened) replaces the pending one.
+                        let p = self.pending[y];
+                        if p != NONE && t + delay < self.events[p as usize].time_ps {
+                            let nid = self.events.len() as u32;
+                            self.events.push(Event {
+                                node: d.node,
+                                value: d.value,
+                                time_ps: t + delay,
+                                slew_ps: SLEW_PER_TAU * d.tau_ps,
+                                cause: id,
+                                dev: d.dev,
+                            });
+                            self.pending[y] = nid;
+                            self.heap.push(Timed(t + delay, nid));
+                        }
                         continue;
                     }
                     if d.value == self.val[y] {
@@ -764,7 +793,6 @@ impl<'g> Sim<'g> {
                         self.proj[y] = d.value;
                         continue;
                     }
-                    let delay = LN2 * d.tau_ps + SLOPE_SHARE * e.slew_ps;
                     let nid = self.events.len() as u32;
                     self.events.push(Event {
                         node: d.node,
@@ -847,7 +875,7 @@ pub fn topological_bound(g: &Graph) -> Result<(f64, Vec<f64>)> {
                 }
             });
         for (x, tau) in slowest_taus(g, si) {
-            arrival[x as usize] = t_in + LN2 * tau + SLOPE_SHARE * s_in;
+            arrival[x as usize] = t_in + stage_delay(LN2 * tau, s_in);
             slew[x as usize] = SLEW_PER_TAU * tau;
         }
         for &r in &readers[si] {

@@ -596,3 +596,92 @@ pub fn estimate(spec: &Spec, design: &Design) -> Result<Estimate> {
     estimate_with(spec, design, &tm, budget)
 }
 
+
+/// The estimate as `carrywright estimate` prints it: a table, or one JSON object.
+pub fn render(e: &Estimate, json: bool) -> String {
+    use std::fmt::Write as _;
+    if json {
+        return serde_json::to_string_pretty(e).expect("an estimate serialises") + "\n";
+    }
+    let mut o = String::new();
+    let v = &e.worst_vectors;
+    let _ = writeln!(o, "{}: timing estimate at {}, {} fF loads", e.name, e.conditions, e.load_ff);
+    let _ = writeln!(
+        o,
+        "  worst path       {:>9.1} ps   {} -> {} (real: a vector pair produces it)",
+        e.worst_ps, v.from, v.to
+    );
+    let _ = writeln!(
+        o,
+        "    pair           before a={} b={} cin={}  after a={} b={} cin={}",
+        v.before.a, v.before.b, v.before.cin, v.after.a, v.after.b, v.after.cin
+    );
+    let _ = writeln!(
+        o,
+        "    toggling       {}   (logic view agrees the pair changes {})",
+        v.toggling.join(" "),
+        v.to
+    );
+    for s in &e.worst_path {
+        let _ = writeln!(
+            o,
+            "    {:>9.1} ps  +{:>7.1}  {:<6} {:<24} {}",
+            s.arrival_ps, s.stage_ps, s.edge, s.net, s.instance
+        );
+    }
+    match e.cin_cout_ps {
+        Some(x) => {
+            let _ = writeln!(o, "  cin -> cout      {x:>9.1} ps   every bit propagating");
+        }
+        None => {
+            let _ = writeln!(o, "  cin -> cout      {:>9}      no change", "-");
+        }
+    }
+    let _ = writeln!(
+        o,
+        "  bound            {:>9.1} ps   topological: longest stage path, ignoring sensitisation",
+        e.bound_ps
+    );
+    let _ = writeln!(o, "  delay to each output (worst seen over {} pairs):", e.pairs_timed);
+    let mut line = String::from("   ");
+    for (k, x) in &e.outputs_ps.0 {
+        let cell = match x {
+            Some(x) => format!(" {k} {x:.0}"),
+            None => format!(" {k} -"),
+        };
+        if line.len() + cell.len() > 92 {
+            let _ = writeln!(o, "{line}");
+            line = String::from("   ");
+        }
+        line.push_str(&cell);
+    }
+    let _ = writeln!(o, "{line}");
+    let _ = writeln!(o, "  transistors      {:>9}", e.transistors);
+    let _ = writeln!(o, "  gate area        {:>9.1} um2  (sum of W*L)", e.gate_area_um2);
+    let _ = writeln!(o, "  total width      {:>9.1} um", e.total_width_um);
+    let _ = writeln!(
+        o,
+        "  energy           {:>9.1} fJ   per addition, 50 % random activity{}",
+        e.energy_fj,
+        if e.conditions.is_empty() { "" } else { "" }
+    );
+    let mut caps: Vec<String> = vec![];
+    let mut seen: Vec<(f64, Vec<String>)> = vec![];
+    for (k, x) in &e.input_cap_ff.0 {
+        let x = x.unwrap_or(0.0);
+        match seen.iter_mut().find(|(c, _)| (*c - x).abs() < 1e-9) {
+            Some((_, names)) => names.push(k.clone()),
+            None => seen.push((x, vec![k.clone()])),
+        }
+    }
+    for (c, names) in seen {
+        let who = if names.len() > 3 {
+            format!("{} .. {} ({} inputs)", names[0], names[names.len() - 1], names.len())
+        } else {
+            names.join(" ")
+        };
+        caps.push(format!("{c:.1} fF: {who}"));
+    }
+    let _ = writeln!(o, "  input cap        {}", caps.join("; "));
+    o
+}
