@@ -164,7 +164,10 @@ fn run(cli: Cli) -> Result<ExitCode> {
             let s = spec::load(&spec, &LoadOptions { model_dir })?;
             let design = carrywright::build(&s)?;
             let e = carrywright::timing::engine::estimate(&s, &design)?;
-            say!("{}", carrywright::timing::search::render(&e, json).trim_end());
+            say!(
+                "{}",
+                carrywright::timing::search::render(&e, json).trim_end()
+            );
             Ok(ExitCode::SUCCESS)
         }
         Command::Check {

@@ -35,20 +35,32 @@ pub const LN2: f64 = 0.69;
 /// 10–90 % transition of a single pole, in time constants (ln 9).
 pub const SLEW_PER_TAU: f64 = 2.2;
 /// Input-slope term: a stage whose input moves in t_in (10–90 %) is slower than its step
-/// delay t_step by SLOPE_SHARE · t_in · t_step / (t_in + t_step): about SLOPE_SHARE · t_in for a
-/// fast input, and at most SLOPE_SHARE · t_step for a slow one (a linear RC stage driven by a
-/// ramp lags by at most its time constant τ instead of 0.69 τ, i.e. 0.45 of its step delay;
-/// a gate switching near mid-supply sees even less of a slow input's ramp). From memory;
-/// checked against ngspice in tests/timing.rs.
-pub const SLOPE_SHARE: f64 = 0.5;
-
-/// Delay of a stage with step delay `step` and an input transition `t_in` (both ps).
-pub fn stage_delay(step: f64, t_in: f64) -> f64 {
+/// delay t_step by k · t_in · t_step / (t_in + t_step): about k · t_in for a fast input and at
+/// most k · t_step for a slow one (a stage switching near mid-supply sees only part of a slow
+/// ramp). The share k is fitted per technology so that the model reproduces the technology's
+/// own characterised FO4 delay (see [`slope_share`]); no constant is tuned on adders.
+pub fn stage_delay(step: f64, t_in: f64, k: f64) -> f64 {
     if step + t_in <= 0.0 {
         return 0.0;
     }
-    step + SLOPE_SHARE * t_in * step / (t_in + step)
+    step + k * t_in * step / (t_in + step)
 }
+
+/// The slope share k that makes this model's FO4 inverter (the characterised NMOS and PMOS
+/// widths, four copies of itself as load, driven by an identical stage) as slow as the
+/// characterised `fo4_ps`, clamped to 0..2.
+pub fn slope_share(tm: &Timing) -> f64 {
+    let (wn, wp) = (tm.n_width_um, tm.p_width_um);
+    let c_in = wn * tm.c_gate_n_ff_um + wp * tm.c_gate_p_ff_um;
+    let c_self = wn * tm.c_diff_n_ff_um + wp * tm.c_diff_p_ff_um;
+    let c = 4.0 * c_in + c_self;
+    let tau = 0.5 * (tm.r_n_fall_kohm_um[0] / wn + tm.r_p_rise_kohm_um[0] / wp) * c;
+    let step = LN2 * tau;
+    let t_in = SLEW_PER_TAU * tau;
+    let per_k = t_in * step / (t_in + step);
+    ((tm.fo4_ps - step) / per_k).clamp(0.0, 2.0)
+}
+
 /// Largest slow-down a fight may cause (a node that barely wins is reported this much slower
 /// than without the opposing path).
 pub const FIGHT_MAX: f64 = 5.0;
@@ -108,6 +120,8 @@ pub struct Graph {
     pub vdd_v: f64,
     /// Input transition 10–90 %, ps.
     pub input_slew_ps: f64,
+    /// The input-slope share fitted to the technology's FO4 ([`slope_share`]).
+    pub slope_k: f64,
     pub tm: Timing,
 }
 
@@ -285,6 +299,7 @@ impl Graph {
             vdd_v: spec.technology.vdd,
             // The deck's sources ramp 0–100 % in `slew`; 10–90 % is 0.8 of it.
             input_slew_ps: spec.technology.slew * 1e12 * 0.8,
+            slope_k: slope_share(tm),
             tm: tm.clone(),
         })
     }
@@ -340,8 +355,7 @@ impl Graph {
             (Mos::P, true) => t.r_p_rise_kohm_um[k] / d.w / (k + 1) as f64,
             // A PMOS passing a zero, degraded as an NMOS passing a one is.
             (Mos::P, false) => {
-                t.r_p_rise_kohm_um[0] * (t.r_pass_n_rise_kohm_um / t.r_pass_n_fall_kohm_um)
-                    / d.w
+                t.r_p_rise_kohm_um[0] * (t.r_pass_n_rise_kohm_um / t.r_pass_n_fall_kohm_um) / d.w
             }
         }
     }
@@ -414,7 +428,7 @@ impl Graph {
     /// Solve one stage at switch level with the present gate values `val`; `proj` holds each
     /// node's projected value (a pending event's value, else its present value). Fills
     /// `sc.out` with every node that has a conducting path to a source.
-    pub fn solve(&self, s: u32, val: &[bool], proj: &[bool], sc: &mut Scratch) {
+    pub fn solve(&self, s: u32, val: &[bool], sc: &mut Scratch) {
         let st = &self.stages[s as usize];
         let m = st.nodes.len();
         sc.out.clear();
@@ -433,13 +447,16 @@ impl Graph {
                 if !self.on(d, val) {
                     continue;
                 }
-                if d.mos == Mos::P && d.partner != NONE && self.on(&self.devs[d.partner as usize], val)
+                if d.mos == Mos::P
+                    && d.partner != NONE
+                    && self.on(&self.devs[d.partner as usize], val)
                 {
                     continue; // the NMOS half carries the gate
                 }
                 let tg = d.partner != NONE && self.on(&self.devs[d.partner as usize], val);
                 for (x, y) in [(d.a, d.b), (d.b, d.a)] {
-                    if self.source_value(x, val) == Some(v) && self.kind[y as usize] == NodeKind::Inner
+                    if self.source_value(x, val) == Some(v)
+                        && self.kind[y as usize] == NodeKind::Inner
                     {
                         let li = self.local[y as usize] as usize;
                         let c = Cost {
@@ -516,7 +533,8 @@ impl Graph {
             for &li in order.iter().rev() {
                 let li = li as usize;
                 let x = st.nodes[li];
-                let mine = win(li, sc) == Some(v) && proj[x as usize] != v;
+                // Charge still to move: the node is not at v yet (a pending change counts).
+                let mine = win(li, sc) == Some(v) && val[x as usize] != v;
                 if mine {
                     sc.down[li] += self.cap_ff[x as usize];
                 }
@@ -542,8 +560,16 @@ impl Graph {
                     (sc.up[pl], sc.rpath[pl], sc.tau[pl])
                 };
                 sc.up[li] = if logic { up_parent + 1 } else { 0 };
-                let below = if sc.children[li] == 1 { sc.below[li] } else { 0 };
-                let k = if logic { (sc.up[li] + below) as usize } else { 1 };
+                let below = if sc.children[li] == 1 {
+                    sc.below[li]
+                } else {
+                    0
+                };
+                let k = if logic {
+                    (sc.up[li] + below) as usize
+                } else {
+                    1
+                };
                 let tg = d.partner != NONE && self.on(&self.devs[d.partner as usize], val);
                 let r = self.r_kohm(d, v, tg, k);
                 sc.rpath[li] = r_parent + r;
@@ -587,8 +613,7 @@ impl Graph {
     /// A device that counts in a series stack (not a pass device or transmission gate).
     fn is_stack_dev(&self, di: u32, val: &[bool]) -> bool {
         let d = &self.devs[di as usize];
-        d.role != Role::Pass
-            && !(d.partner != NONE && self.on(&self.devs[d.partner as usize], val))
+        d.role != Role::Pass && !(d.partner != NONE && self.on(&self.devs[d.partner as usize], val))
     }
 }
 
@@ -704,7 +729,7 @@ impl<'g> Sim<'g> {
                 Error::Check("timing: the circuit does not settle (oscillation?)".into())
             })?;
             let mut sc = std::mem::take(&mut self.sc);
-            self.g.solve(st, &self.val, &self.proj, &mut sc);
+            self.g.solve(st, &self.val, &mut sc);
             for d in &sc.out {
                 let x = d.node as usize;
                 if self.val[x] != d.value {
@@ -764,10 +789,10 @@ impl<'g> Sim<'g> {
             for k in 0..g.fanout[x].len() {
                 let st = g.fanout[x][k];
                 let mut sc = std::mem::take(&mut self.sc);
-                g.solve(st, &self.val, &self.proj, &mut sc);
+                g.solve(st, &self.val, &mut sc);
                 for d in &sc.out {
                     let y = d.node as usize;
-                    let delay = stage_delay(LN2 * d.tau_ps, e.slew_ps);
+                    let delay = stage_delay(LN2 * d.tau_ps, e.slew_ps, g.slope_k);
                     if d.value == self.proj[y] {
                         // Already on its way: an earlier arrival under the new conditions
                         // (a fight ended, a stronger path opened) replaces the pending one.
@@ -875,7 +900,7 @@ pub fn topological_bound(g: &Graph) -> Result<(f64, Vec<f64>)> {
                 }
             });
         for (x, tau) in slowest_taus(g, si) {
-            arrival[x as usize] = t_in + stage_delay(LN2 * tau, s_in);
+            arrival[x as usize] = t_in + stage_delay(LN2 * tau, s_in, g.slope_k);
             slew[x as usize] = SLEW_PER_TAU * tau;
         }
         for &r in &readers[si] {

@@ -218,7 +218,10 @@ pub fn hard_pairs(width: usize) -> Vec<Pair> {
             let before = In { a, b, cin };
             out.push(Pair {
                 before,
-                after: In { cin: !cin, ..before },
+                after: In {
+                    cin: !cin,
+                    ..before
+                },
             });
         }
         for i in 0..width {
@@ -510,13 +513,26 @@ pub struct Estimate {
 }
 
 /// Estimate a design with the given timing parameters and search budget.
-pub fn estimate_with(spec: &Spec, design: &Design, tm: &Timing, budget: Budget) -> Result<Estimate> {
+pub fn estimate_with(
+    spec: &Spec,
+    design: &Design,
+    tm: &Timing,
+    budget: Budget,
+) -> Result<Estimate> {
     let g = Graph::new(spec, design, tm)?;
     let worst = search(&g, budget)?;
     let (bound, _) = engine::topological_bound(&g)?;
     let (transistors, area, width) = engine::device_totals(&g);
-    let out_names: Vec<String> = g.outputs.iter().map(|&o| g.names[o as usize].clone()).collect();
-    let in_names: Vec<String> = g.inputs.iter().map(|&i| g.names[i as usize].clone()).collect();
+    let out_names: Vec<String> = g
+        .outputs
+        .iter()
+        .map(|&o| g.names[o as usize].clone())
+        .collect();
+    let in_names: Vec<String> = g
+        .inputs
+        .iter()
+        .map(|&i| g.names[i as usize].clone())
+        .collect();
     let checked = pair_changes_output(design, worst.pair, worst.output)?;
     if !checked {
         return Err(Error::Check(format!(
@@ -596,7 +612,6 @@ pub fn estimate(spec: &Spec, design: &Design) -> Result<Estimate> {
     estimate_with(spec, design, &tm, budget)
 }
 
-
 /// The estimate as `carrywright estimate` prints it: a table, or one JSON object.
 pub fn render(e: &Estimate, json: bool) -> String {
     use std::fmt::Write as _;
@@ -605,7 +620,11 @@ pub fn render(e: &Estimate, json: bool) -> String {
     }
     let mut o = String::new();
     let v = &e.worst_vectors;
-    let _ = writeln!(o, "{}: timing estimate at {}, {} fF loads", e.name, e.conditions, e.load_ff);
+    let _ = writeln!(
+        o,
+        "{}: timing estimate at {}, {} fF loads",
+        e.name, e.conditions, e.load_ff
+    );
     let _ = writeln!(
         o,
         "  worst path       {:>9.1} ps   {} -> {} (real: a vector pair produces it)",
@@ -642,7 +661,11 @@ pub fn render(e: &Estimate, json: bool) -> String {
         "  bound            {:>9.1} ps   topological: longest stage path, ignoring sensitisation",
         e.bound_ps
     );
-    let _ = writeln!(o, "  delay to each output (worst seen over {} pairs):", e.pairs_timed);
+    let _ = writeln!(
+        o,
+        "  delay to each output (worst seen over {} pairs):",
+        e.pairs_timed
+    );
     let mut line = String::from("   ");
     for (k, x) in &e.outputs_ps.0 {
         let cell = match x {
@@ -657,7 +680,11 @@ pub fn render(e: &Estimate, json: bool) -> String {
     }
     let _ = writeln!(o, "{line}");
     let _ = writeln!(o, "  transistors      {:>9}", e.transistors);
-    let _ = writeln!(o, "  gate area        {:>9.1} um2  (sum of W*L)", e.gate_area_um2);
+    let _ = writeln!(
+        o,
+        "  gate area        {:>9.1} um2  (sum of W*L)",
+        e.gate_area_um2
+    );
     let _ = writeln!(o, "  total width      {:>9.1} um", e.total_width_um);
     let _ = writeln!(
         o,
@@ -676,7 +703,12 @@ pub fn render(e: &Estimate, json: bool) -> String {
     }
     for (c, names) in seen {
         let who = if names.len() > 3 {
-            format!("{} .. {} ({} inputs)", names[0], names[names.len() - 1], names.len())
+            format!(
+                "{} .. {} ({} inputs)",
+                names[0],
+                names[names.len() - 1],
+                names.len()
+            )
         } else {
             names.join(" ")
         };
