@@ -134,6 +134,9 @@ fn main() {
     if run("architectures") {
         bench_architectures();
     }
+    if run("estimate") {
+        bench_estimate();
+    }
     println!();
     println!("  load average at end: {}", loadavg());
 }
@@ -748,5 +751,108 @@ fn bench_architectures() {
                 w * w.trailing_zeros() as usize
             );
         }
+    }
+}
+
+// ---------------------------------------------------------------------------------------
+// 5. timing estimate (src/timing): graph building, one timed vector pair, the whole search
+// ---------------------------------------------------------------------------------------
+
+/// GF180MCU 3.3 V typical, as `carrywright characterize --technology gf180mcu-3v3` wrote it on
+/// the development machine; used when the spec's technology carries no timing of its own.
+const BENCH_TIMING: &str = "conditions: {corner: typical, temp: 27, vdd: 3.3}
+timing: {input_slew_ps: 50, n_width_um: 1, p_width_um: 2,
+  r_n_fall_kohm_um: [4.796, 7.614, 10.38], r_p_rise_kohm_um: [10.3, 19.59, 28.91],
+  r_pass_n_fall_kohm_um: 3.298, r_pass_n_rise_kohm_um: 9.326, r_tg_fall_kohm_um: 3.175,
+  r_tg_rise_kohm_um: 3.017, c_gate_n_ff_um: 1.334, c_gate_p_ff_um: 1.391,
+  c_diff_n_ff_um: 0.9968, c_diff_p_ff_um: 0.9416, fo4_ps: 111.1, tau_ps: 14.63, p_inv: 1.904}
+";
+
+const ESTIMATE_TARGET_MS: f64 = 2.0;
+
+fn bench_estimate() {
+    use carrywright::timing::engine::{self, Graph};
+    use carrywright::timing::search::{Budget, In, Pair, Timer};
+    println!();
+    println!("5. timing estimate: transistor graph, one timed pair, the whole worst-path search");
+    let fallback = carrywright::timing::parse_timing(BENCH_TIMING).expect("bench timing");
+    let mut at64 = None;
+    for arch in ["manchester", "kogge-stone", "ripple"] {
+        for width in [8usize, 16, 32, 64, 128] {
+            let text = format!(
+                "name: e{width}\nwidth: {width}\narchitecture: {arch}\nblock: 4\nbuffers: {}\n",
+                if arch == "manchester" {
+                    "{every: 8}"
+                } else {
+                    "none"
+                }
+            );
+            let s = parse(&text);
+            let d = carrywright::build(&s).unwrap();
+            let tm = s
+                .technology
+                .timing
+                .clone()
+                .unwrap_or_else(|| fallback.clone());
+            let g_st = measure(1, 5, || Graph::new(&s, &d, &tm).unwrap());
+            let g = Graph::new(&s, &d, &tm).unwrap();
+            let m = vectors::mask(width);
+            let mut t = Timer::new(&g).unwrap();
+            let mut flip = false;
+            let pair_st = measure(5, 41, || {
+                // cin toggled with every bit propagating, alternating edges.
+                flip = !flip;
+                let before = In {
+                    a: m,
+                    b: 0,
+                    cin: flip,
+                };
+                t.time(Pair {
+                    before,
+                    after: In {
+                        cin: !flip,
+                        ..before
+                    },
+                })
+                .unwrap()
+            });
+            let budget = Budget {
+                seed: 1,
+                ..Budget::default()
+            };
+            let runs = if width >= 64 { 3 } else { 5 };
+            let mut pairs = 0;
+            let est_st = measure(0, runs, || {
+                let e = engine::estimate_with(&s, &d, &tm, budget).unwrap();
+                pairs = e.pairs_timed;
+                e
+            });
+            println!(
+                "  {arch:<12} {width:>3} bits: {:>6} devices {:>5} stages; graph {:>8.3} ms, one pair {:>8.3} ms, estimate {:>9.2} ms ({pairs} pairs, {:.3} ms/pair)",
+                g.devs.len(),
+                g.stages.len(),
+                ms(g_st.median),
+                ms(pair_st.median),
+                ms(est_st.median),
+                ms(est_st.median) / pairs as f64
+            );
+            if arch == "manchester" && width == 64 {
+                at64 = Some((ms(pair_st.median), ms(est_st.median)));
+            }
+        }
+    }
+    if let Some((pair, est)) = at64 {
+        figure(
+            "estimate 64-bit static Manchester, one pair (median)",
+            &format!("{pair:.3} ms"),
+            "-",
+            "-",
+        );
+        figure(
+            "estimate 64-bit static Manchester, whole search (median)",
+            &format!("{est:.1} ms"),
+            &format!("< {ESTIMATE_TARGET_MS} ms"),
+            verdict(est < ESTIMATE_TARGET_MS),
+        );
     }
 }

@@ -657,6 +657,8 @@ pub struct Sim<'g> {
     pub events: Vec<Event>,
     /// Last event of every node in the latest timed run (NONE: none).
     pub last: Vec<u32>,
+    /// Capacitance switched by the events applied in the latest timed run (fF).
+    switched_ff: f64,
     heap: BinaryHeap<Timed>,
 }
 
@@ -680,6 +682,7 @@ impl<'g> Sim<'g> {
             queued: vec![false; g.stages.len()],
             events: vec![],
             last: vec![NONE; n],
+            switched_ff: 0.0,
             heap: BinaryHeap::new(),
         };
         for st in 0..g.stages.len() as u32 {
@@ -755,6 +758,7 @@ impl<'g> Sim<'g> {
             *x = NONE;
         }
         self.heap.clear();
+        self.switched_ff = 0.0;
         for &(x, v) in changes {
             if self.val[x as usize] != v {
                 let id = self.events.len() as u32;
@@ -781,6 +785,9 @@ impl<'g> Sim<'g> {
             self.pending[x] = NONE;
             self.val[x] = e.value;
             self.last[x] = id;
+            if g.kind[x] == NodeKind::Inner {
+                self.switched_ff += g.cap_ff[x];
+            }
             if self.events.len() > limit {
                 return Err(Error::Check(
                     "timing: too many events (the circuit oscillates?)".into(),
@@ -837,13 +844,10 @@ impl<'g> Sim<'g> {
         Ok(())
     }
 
-    /// Switched capacitance of the latest timed run (every transition, glitches included), fF.
+    /// Switched capacitance of the latest timed run: every transition that happened,
+    /// glitches included, called-off changes not (fF).
     pub fn run_switched_ff(&self) -> f64 {
-        self.events
-            .iter()
-            .filter(|e| self.g.kind[e.node as usize] == NodeKind::Inner)
-            .map(|e| self.g.cap_ff[e.node as usize])
-            .sum()
+        self.switched_ff
     }
 }
 
