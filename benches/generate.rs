@@ -781,7 +781,7 @@ fn bench_estimate() {
         for width in [8usize, 16, 32, 64, 128] {
             let text = format!(
                 "name: e{width}\nwidth: {width}\narchitecture: {arch}\nblock: 4\nbuffers: {}\n",
-                if arch == "manchester" {
+                if arch == "manchester" && width > 8 {
                     "{every: 8}"
                 } else {
                     "none"

@@ -108,15 +108,7 @@ impl Bench {
         self.dev(t, name, y, a, "vdd", true, wp);
     }
     /// `meas` of a delay from `from` (rise or fall) to `to`, both at 50 % VDD.
-    fn delay(
-        &mut self,
-        name: &str,
-        from: &str,
-        from_edge: &str,
-        to: &str,
-        to_edge: &str,
-        vdd: f64,
-    ) {
+    fn delay(&mut self, name: &str, from: &str, from_edge: &str, to: &str, to_edge: &str, vdd: f64) {
         let h = trim_num(vdd / 2.0);
         self.meas.push(format!(
             "meas tran {name} trig v({from}) val={h} {from_edge}=1 targ v({to}) val={h} {to_edge}=1"
@@ -156,8 +148,7 @@ fn bench(t: &Technology, model_lines: &[String]) -> Bench {
     b.lines.push(format!("vvdd vdd 0 {}", trim_num(vdd)));
     b.lines.push("vvss vss 0 0".into());
     b.lines.push(format!("vin in 0 {}", pwl(vdd, true, t.slew)));
-    b.lines
-        .push(format!("vinb inb 0 {}", pwl(vdd, false, t.slew)));
+    b.lines.push(format!("vinb inb 0 {}", pwl(vdd, false, t.slew)));
     // Stacks: k series devices, all gates on the input, one opposite device for the start.
     for k in 1..=3usize {
         for (li, c) in LOADS_FF.iter().enumerate() {
@@ -165,16 +156,8 @@ fn bench(t: &Technology, model_lines: &[String]) -> Bench {
             let out = format!("nd{k}_{li}");
             b.dev(t, &format!("nd{k}_{li}_up"), &out, "in", "vdd", true, w_p);
             for j in 0..k {
-                let d = if j == 0 {
-                    out.clone()
-                } else {
-                    format!("nd{k}_{li}_x{j}")
-                };
-                let s = if j + 1 == k {
-                    "vss".to_string()
-                } else {
-                    format!("nd{k}_{li}_x{}", j + 1)
-                };
+                let d = if j == 0 { out.clone() } else { format!("nd{k}_{li}_x{j}") };
+                let s = if j + 1 == k { "vss".to_string() } else { format!("nd{k}_{li}_x{}", j + 1) };
                 b.dev(t, &format!("nd{k}_{li}_{j}"), &d, "in", &s, false, w_n);
             }
             b.lines.push(format!("c{out} {out} 0 {}f", trim_num(*c)));
@@ -183,16 +166,8 @@ fn bench(t: &Technology, model_lines: &[String]) -> Bench {
             let out = format!("pu{k}_{li}");
             b.dev(t, &format!("pu{k}_{li}_dn"), &out, "inb", "vss", false, w_n);
             for j in 0..k {
-                let d = if j == 0 {
-                    out.clone()
-                } else {
-                    format!("pu{k}_{li}_x{j}")
-                };
-                let s = if j + 1 == k {
-                    "vdd".to_string()
-                } else {
-                    format!("pu{k}_{li}_x{}", j + 1)
-                };
+                let d = if j == 0 { out.clone() } else { format!("pu{k}_{li}_x{j}") };
+                let s = if j + 1 == k { "vdd".to_string() } else { format!("pu{k}_{li}_x{}", j + 1) };
                 b.dev(t, &format!("pu{k}_{li}_{j}"), &d, "inb", &s, true, w_p);
             }
             b.lines.push(format!("c{out} {out} 0 {}f", trim_num(*c)));
@@ -225,8 +200,10 @@ fn bench(t: &Technology, model_lines: &[String]) -> Bench {
     ];
     for (q, shape, pmos, gate) in sources {
         let node = format!("{q}_node");
-        b.lines
-            .push(format!("v{q} {node} 0 {}", pwl(vdd, shape == "in", t.slew)));
+        b.lines.push(format!(
+            "v{q} {node} 0 {}",
+            pwl(vdd, shape == "in", t.slew)
+        ));
         let rail = if pmos { "vdd" } else { "vss" };
         for j in 0..CHARGE_DEVICES {
             let w = w_n;
@@ -303,9 +280,9 @@ fn local_model_lines(t: &Technology) -> Result<Vec<String>> {
     if let Models::Files { .. } = &t.models {
         if t.models.need_model_dir() {
             let Some(root) = &t.model_root else {
-                return Err(Error::Input(t.models_missing.clone().unwrap_or_else(
-                    || format!("technology `{}`: model folder not found", t.name),
-                )));
+                return Err(Error::Input(t.models_missing.clone().unwrap_or_else(|| {
+                    format!("technology `{}`: model folder not found", t.name)
+                })));
             };
             let root = root.to_string_lossy().to_string();
             let var = format!("${}", crate::tech::DECK_MODEL_VAR);
@@ -410,16 +387,12 @@ fn fit_all(
     for k in 1..=3 {
         r_n[k - 1] = fit_r(
             format!("r_n_fall[{}]", k - 1),
-            (0..LOADS_FF.len())
-                .map(|li| format!("t_nd{k}_{li}"))
-                .collect(),
+            (0..LOADS_FF.len()).map(|li| format!("t_nd{k}_{li}")).collect(),
             b.w_n,
         )?;
         r_p[k - 1] = fit_r(
             format!("r_p_rise[{}]", k - 1),
-            (0..LOADS_FF.len())
-                .map(|li| format!("t_pu{k}_{li}"))
-                .collect(),
+            (0..LOADS_FF.len()).map(|li| format!("t_pu{k}_{li}")).collect(),
             b.w_p,
         )?;
     }
@@ -428,9 +401,7 @@ fn fit_all(
         for edge in ["r", "f"] {
             let v = fit_r(
                 format!("{kind}_{edge}"),
-                (0..LOADS_FF.len())
-                    .map(|li| format!("t_{kind}{edge}_{li}"))
-                    .collect(),
+                (0..LOADS_FF.len()).map(|li| format!("t_{kind}{edge}_{li}")).collect(),
                 b.w_n,
             )?;
             pass.insert((kind, edge), v);
@@ -440,24 +411,12 @@ fn fit_all(
         let charge = need(q)?.abs();
         Ok(charge / t.vdd / (CHARGE_DEVICES as f64 * b.w_n) * 1e15)
     };
-    let (cgn, cgp, cdn, cdp) = (
-        per_um("qgn")?,
-        per_um("qgp")?,
-        per_um("qdn")?,
-        per_um("qdp")?,
-    );
+    let (cgn, cgp, cdn, cdp) = (per_um("qgn")?, per_um("qgp")?, per_um("qdn")?, per_um("qdp")?);
     let d_le: Vec<f64> = (0..FANOUTS.len())
         .map(|hi| Ok((need(&format!("lr_{hi}"))? + need(&format!("lf_{hi}"))?) / 2.0 * 1e12))
         .collect::<Result<_>>()?;
     let le = fit_line(&FANOUTS, &d_le);
-    fits.insert(
-        "tau".into(),
-        Fit {
-            slope: le.slope,
-            intercept: le.intercept,
-            worst: le.worst,
-        },
-    );
+    fits.insert("tau".into(), Fit { slope: le.slope, intercept: le.intercept, worst: le.worst });
     let fo4 = (need("fo4_r")? + need("fo4_f")?) / 2.0 * 1e12;
     let r4 = |x: f64| {
         if x == 0.0 || !x.is_finite() {
@@ -489,9 +448,9 @@ fn fit_all(
             vdd: t.vdd,
         },
     };
-    timing
-        .check()
-        .map_err(|(k, m)| Error::Check(format!("characterize {}: fitted {k} {m}", t.name)))?;
+    timing.check().map_err(|(k, m)| {
+        Error::Check(format!("characterize {}: fitted {k} {m}", t.name))
+    })?;
     let yaml = render_yaml(t, &timing, &fits);
     Ok(Characterized {
         timing,
@@ -510,19 +469,8 @@ fn render_yaml(t: &Technology, tm: &Timing, fits: &BTreeMap<String, Fit>) -> Str
     let mut s = String::new();
     let w = &mut s;
     let loads = LOADS_FF.map(num).join(", ");
-    let _ = writeln!(
-        w,
-        "# carrywright technology file: {} characterised at corner {}, {} degC, VDD {} V.",
-        t.name,
-        t.corner,
-        num(t.temp),
-        num(t.vdd)
-    );
-    let _ = writeln!(
-        w,
-        "# Written by `carrywright characterize` (carrywright {}); regenerate, do not edit.",
-        env!("CARGO_PKG_VERSION")
-    );
+    let _ = writeln!(w, "# carrywright technology file: {} characterised at corner {}, {} degC, VDD {} V.", t.name, t.corner, num(t.temp), num(t.vdd));
+    let _ = writeln!(w, "# Written by `carrywright characterize` (carrywright {}); regenerate, do not edit.", env!("CARGO_PKG_VERSION"));
     let _ = writeln!(w, "# Models: {}.", t.origin);
     let _ = writeln!(w, "# Devices at L = {} um: NMOS W = {} um, PMOS W = {} um (pn_ratio {}); input ramp {} ps (0-100 %).",
         num(t.l_min), num(tm.n_width_um), num(tm.p_width_um), num(t.pn_ratio), num(tm.input_slew_ps));
@@ -530,76 +478,33 @@ fn render_yaml(t: &Technology, tm: &Timing, fits: &BTreeMap<String, Fit>) -> Str
     let _ = writeln!(w, "# delays are input 50 % to output 50 % of VDD.");
     let _ = writeln!(w, "# Resistances: delay fitted by least squares to d = 0.69 R C + d0 over loads C = {loads} fF");
     let _ = writeln!(w, "#   (Elmore; 0.69 = ln 2, Rabaey, Chandrakasan & Nikolic, 2nd ed., 6.2.3); R = slope / 0.69, the");
-    let _ = writeln!(
-        w,
-        "#   devices' own capacitance falls into d0. Written as R x W of each device (kOhm um)."
-    );
+    let _ = writeln!(w, "#   devices' own capacitance falls into d0. Written as R x W of each device (kOhm um).");
     let _ = writeln!(w, "#   Stacks: k equal devices in series, every gate driven together, one opposite device sets the");
     let _ = writeln!(w, "#   starting level. Pass NMOS: gate at VDD, an ideal ramp on one side. Transmission gate: NMOS W_n");
     let _ = writeln!(w, "#   and PMOS W_p in parallel, per um of NMOS width.");
     let _ = writeln!(w, "# Capacitances by charge: |integral of i dt| / VDD / W over {CHARGE_DEVICES} devices of W_n; gate: gate ramped");
     let _ = writeln!(w, "#   over the full swing, drain, source and bulk at the rail; drain: drain ramped, device off.");
     let _ = writeln!(w, "# Logical effort (Sutherland, Sproull & Harris 1999): an inverter driven by its twin drives h");
-    let _ = writeln!(
-        w,
-        "#   copies (h = {}); mean of rise and fall delay fitted to d = tau h + tau p_inv.",
-        FANOUTS.map(num).join(", ")
-    );
-    let _ = writeln!(
-        w,
-        "#   FO4: third stage of a chain in which every inverter drives four copies of itself."
-    );
+    let _ = writeln!(w, "#   copies (h = {}); mean of rise and fall delay fitted to d = tau h + tau p_inv.", FANOUTS.map(num).join(", "));
+    let _ = writeln!(w, "#   FO4: third stage of a chain in which every inverter drives four copies of itself.");
     let _ = writeln!(w, "# Fits (intercept d0 and worst residual, ps):");
     for (k, f) in fits {
-        let _ = writeln!(
-            w,
-            "#   {k}: d0 {:.1}, worst residual {:.2}",
-            f.intercept, f.worst
-        );
+        let _ = writeln!(w, "#   {k}: d0 {:.1}, worst residual {:.2}", f.intercept, f.worst);
     }
-    let _ = writeln!(
-        w,
-        "#   cross-check: tau (4 + p_inv) = {:.1} ps against the FO4 measured in the chain, {} ps.",
-        tm.tau_ps * (4.0 + tm.p_inv),
-        num(tm.fo4_ps)
-    );
+    let _ = writeln!(w, "#   cross-check: tau (4 + p_inv) = {:.1} ps against the FO4 measured in the chain, {} ps.",
+        tm.tau_ps * (4.0 + tm.p_inv), num(tm.fo4_ps));
     let _ = writeln!(w, "name: {}", file_name_stem(t));
     let _ = writeln!(w, "base: {}", t.name);
-    let _ = writeln!(
-        w,
-        "conditions: {{corner: {}, temp: {}, vdd: {}}}",
-        yaml_str(&t.corner),
-        num(t.temp),
-        num(t.vdd)
-    );
+    let _ = writeln!(w, "conditions: {{corner: {}, temp: {}, vdd: {}}}", yaml_str(&t.corner), num(t.temp), num(t.vdd));
     let _ = writeln!(w, "timing:");
     let _ = writeln!(w, "  input_slew_ps: {}", num(tm.input_slew_ps));
     let _ = writeln!(w, "  n_width_um: {}", num(tm.n_width_um));
     let _ = writeln!(w, "  p_width_um: {}", num(tm.p_width_um));
-    let _ = writeln!(
-        w,
-        "  # single device, stack of 2, stack of 3 (R x W of each device)"
-    );
-    let _ = writeln!(
-        w,
-        "  r_n_fall_kohm_um: [{}]",
-        tm.r_n_fall_kohm_um.map(num).join(", ")
-    );
-    let _ = writeln!(
-        w,
-        "  r_p_rise_kohm_um: [{}]",
-        tm.r_p_rise_kohm_um.map(num).join(", ")
-    );
-    let _ = writeln!(
-        w,
-        "  r_pass_n_fall_kohm_um: {}   # passing a 0",
-        num(tm.r_pass_n_fall_kohm_um)
-    );
-    let _ = writeln!(
-        w,
-        "  r_pass_n_rise_kohm_um: {}   # passing a 1 (output stops near VDD - Vt)",
-        num(tm.r_pass_n_rise_kohm_um)
-    );
+    let _ = writeln!(w, "  # single device, stack of 2, stack of 3 (R x W of each device)");
+    let _ = writeln!(w, "  r_n_fall_kohm_um: [{}]", tm.r_n_fall_kohm_um.map(num).join(", "));
+    let _ = writeln!(w, "  r_p_rise_kohm_um: [{}]", tm.r_p_rise_kohm_um.map(num).join(", "));
+    let _ = writeln!(w, "  r_pass_n_fall_kohm_um: {}   # passing a 0", num(tm.r_pass_n_fall_kohm_um));
+    let _ = writeln!(w, "  r_pass_n_rise_kohm_um: {}   # passing a 1 (output stops near VDD - Vt)", num(tm.r_pass_n_rise_kohm_um));
     let _ = writeln!(w, "  r_tg_fall_kohm_um: {}", num(tm.r_tg_fall_kohm_um));
     let _ = writeln!(w, "  r_tg_rise_kohm_um: {}", num(tm.r_tg_rise_kohm_um));
     let _ = writeln!(w, "  c_gate_n_ff_um: {}", num(tm.c_gate_n_ff_um));

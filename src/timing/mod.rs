@@ -90,24 +90,10 @@ impl Timing {
             ("tau_ps", self.tau_ps),
         ];
         for (i, v) in self.r_n_fall_kohm_um.iter().enumerate() {
-            named.push((
-                [
-                    "r_n_fall_kohm_um[0]",
-                    "r_n_fall_kohm_um[1]",
-                    "r_n_fall_kohm_um[2]",
-                ][i],
-                *v,
-            ));
+            named.push((["r_n_fall_kohm_um[0]", "r_n_fall_kohm_um[1]", "r_n_fall_kohm_um[2]"][i], *v));
         }
         for (i, v) in self.r_p_rise_kohm_um.iter().enumerate() {
-            named.push((
-                [
-                    "r_p_rise_kohm_um[0]",
-                    "r_p_rise_kohm_um[1]",
-                    "r_p_rise_kohm_um[2]",
-                ][i],
-                *v,
-            ));
+            named.push((["r_p_rise_kohm_um[0]", "r_p_rise_kohm_um[1]", "r_p_rise_kohm_um[2]"][i], *v));
         }
         for (k, v) in named {
             if !(v.is_finite() && v > 0.0 && v < 1e6) {
@@ -118,10 +104,7 @@ impl Timing {
             }
         }
         if !self.p_inv.is_finite() || self.p_inv.abs() > 100.0 {
-            return Err((
-                "timing.p_inv".into(),
-                format!("must be a number of modest size, got {}", self.p_inv),
-            ));
+            return Err(("timing.p_inv".into(), format!("must be a number of modest size, got {}", self.p_inv)));
         }
         Ok(())
     }
