@@ -194,11 +194,7 @@ pub fn printed(log: &str) -> std::collections::BTreeMap<String, f64> {
 /// self-contained), with `-D cw_samples` so it prints every output sample. The deck finds
 /// the model folder through CARRYWRIGHT_MODEL_DIR, inherited from the test's environment.
 pub fn ngspice(out: &Path, name: &str) -> (bool, String) {
-    ngspice_in(
-        out.parent().unwrap(),
-        &out.join(format!("{name}_tb.sp")),
-        &["-D", "cw_samples"],
-    )
+    ngspice_in(out.parent().unwrap(), &out.join(format!("{name}_tb.sp")), &["-D", "cw_samples"])
 }
 
 /// Run a deck from the folder `cwd` with extra ngspice arguments; (exit 0, stdout+stderr).
