@@ -550,10 +550,18 @@ fn name_with_a_single_quote() {
 
 #[test]
 fn names_that_are_keywords() {
-    for kw in ["module", "wire", "subckt", "end"] {
+    // Each refusal says which list the name is on.
+    for (kw, list) in [
+        ("module", "Verilog or SystemVerilog keyword"),
+        ("wire", "Verilog or SystemVerilog keyword"),
+        ("end", "Verilog or SystemVerilog keyword"),
+        ("subckt", "SPICE"),
+        ("a", "top module's ports"),
+        ("COUT", "top module's ports"),
+    ] {
         // The name goes on line 2 here, to check the line is found, not assumed.
         let spec = format!("width: 8\nname: {kw}\narchitecture: manchester\nblock: 4\n");
-        refuse(&spec, "name", 2, &[kw, "keyword"]);
+        refuse(&spec, "name", 2, &[kw, list]);
     }
 }
 
@@ -763,7 +771,7 @@ fn spec_file_that_does_not_exist() {
 
 #[test]
 fn spec_that_is_not_a_mapping() {
-    refuse("- 1\n", "spec", 1, &["sequence"]);
+    refuse("- 1\n", "top level", 1, &["sequence"]);
 }
 
 // ---------------------------------------------------------------------------------------
