@@ -352,29 +352,30 @@ impl Source<'_> {
     /// A YAML syntax error: where it is, the key written on that line if any, and for a
     /// bracket left open, where it was opened.
     fn syntax_error(&self, e: &serde_yaml::Error, scan: &Nesting) -> Error {
+        let key_at = |line: usize| {
+            self.text
+                .lines()
+                .nth(line.saturating_sub(1))
+                .and_then(key_on_line)
+                .map(|k| format!("{k}: "))
+                .unwrap_or_default()
+        };
         if let Some((l, c, ch)) = scan.unclosed {
             return Error::Input(format!(
-                "{}:{l}:{c}: syntax error: this `{ch}` is never closed",
-                self.label
+                "{}:{l}:{c}: {}syntax error: this `{ch}` is never closed",
+                self.label,
+                key_at(l)
             ));
         }
         let msg = clean_serde_message(&e.to_string(), "");
         match e.location() {
-            Some(loc) => {
-                let key = self
-                    .text
-                    .lines()
-                    .nth(loc.line().saturating_sub(1))
-                    .and_then(key_on_line)
-                    .map(|k| format!("{k}: "))
-                    .unwrap_or_default();
-                Error::Input(format!(
-                    "{}:{}:{}: {key}syntax error: {msg}",
-                    self.label,
-                    loc.line(),
-                    loc.column()
-                ))
-            }
+            Some(loc) => Error::Input(format!(
+                "{}:{}:{}: {}syntax error: {msg}",
+                self.label,
+                loc.line(),
+                loc.column(),
+                key_at(loc.line())
+            )),
             None => Error::Input(format!("{}: syntax error: {msg}", self.label)),
         }
     }
@@ -1430,31 +1431,9 @@ const PORT_NAMES: &[&str] = &["a", "b", "cin", "s", "cout", "clk"];
 
 /// Words that SPICE decks treat specially (ngspice manual).
 const SPICE_WORDS: &[&str] = &[
-    "subckt",
-    "ends",
-    "model",
-    "control",
-    "endc",
-    "param",
-    "lib",
-    "endl",
-    "tran",
-    "op",
-    "dc",
-    "ac",
-    "meas",
-    "measure",
-    "print",
-    "plot",
-    "run",
-    "quit",
-    "options",
-    "option",
-    "global",
-    "temp",
-    "gnd",
-    "vdd",
-    "vss",
+    "subckt", "ends", "model", "control", "endc", "param", "lib", "endl", "tran", "op", "dc", "ac",
+    "meas", "measure", "print", "plot", "run", "quit", "options", "option", "global", "temp",
+    "gnd", "vdd", "vss",
 ];
 
 /// A name is a plain identifier, not a keyword of either view, short enough for tools.
@@ -1472,7 +1451,10 @@ pub fn check_identifier(name: &str) -> std::result::Result<(), String> {
     }
     let lower = name.to_ascii_lowercase();
     for (list, what) in [
-        (PORT_NAMES, "one of the top module's ports (a, b, cin, s, cout, clk)"),
+        (
+            PORT_NAMES,
+            "one of the top module's ports (a, b, cin, s, cout, clk)",
+        ),
         (VERILOG_KEYWORDS, "a Verilog or SystemVerilog keyword"),
         (SPICE_WORDS, "a word SPICE decks treat specially"),
     ] {
