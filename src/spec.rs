@@ -310,6 +310,13 @@ impl Source<'_> {
                 self.label
             )));
         }
+        if let Some((l, c)) = scan.alias {
+            // Aliases can expand exponentially (a few lines become gigabytes); no spec needs one.
+            return Err(Error::Input(format!(
+                "{}:{l}:{c}: aliases (`*name`) are not accepted; write the value out",
+                self.label
+            )));
+        }
         if let Err(e) = serde_yaml::from_str::<serde_yaml::Value>(self.text) {
             if duplicate_key_name(&e.to_string()).is_none() {
                 return Err(self.syntax_error(&e, &scan));
@@ -476,6 +483,8 @@ struct Nesting {
     too_deep: Option<(usize, usize)>,
     /// The innermost `[` or `{` still open at the end of the text.
     unclosed: Option<(usize, usize, char)>,
+    /// The first alias (`*name`).
+    alias: Option<(usize, usize)>,
 }
 
 /// Scan YAML text for nesting depth: flow brackets (outside quoted scalars and comments)
@@ -487,6 +496,7 @@ fn scan_nesting(text: &str) -> Nesting {
     let mut block = 0usize;
     let mut quote: Option<char> = None;
     let mut comment = false;
+    let mut alias = None;
     let mut prev = '\n';
     let (mut line, mut col) = (1usize, 0usize);
     let mut at_line_start = true;
@@ -521,6 +531,7 @@ fn scan_nesting(text: &str) -> Nesting {
                     return Nesting {
                         too_deep: Some((line, indent + 1)),
                         unclosed: None,
+                        alias: None,
                     };
                 }
             }
@@ -563,12 +574,14 @@ fn scan_nesting(text: &str) -> Nesting {
                 match c {
                     '#' if prev.is_whitespace() => comment = true,
                     '"' | '\'' if token_start => quote = Some(c),
+                    '*' if token_start && alias.is_none() => alias = Some((line, col)),
                     '[' | '{' => {
                         flow.push((line, col, c));
                         if block + flow.len() > MAX_DEPTH {
                             return Nesting {
                                 too_deep: Some((line, col)),
                                 unclosed: None,
+                                alias: None,
                             };
                         }
                     }
@@ -585,6 +598,7 @@ fn scan_nesting(text: &str) -> Nesting {
     Nesting {
         too_deep: None,
         unclosed: flow.last().copied(),
+        alias,
     }
 }
 

@@ -1442,3 +1442,24 @@ fn spec_from_standard_input() {
     );
     assert!(err.contains("./nothere.yaml"), "{}", run.describe());
 }
+
+#[test]
+fn alias_bomb_is_refused_before_it_expands() {
+    // Nine levels of nine aliases would expand to 9^9 values.
+    let mut spec = String::from("x0: &a0 [w, w, w, w, w, w, w, w, w]\n");
+    for i in 1..9 {
+        let refs = vec![format!("*a{}", i - 1); 9].join(", ");
+        spec.push_str(&format!("x{i}: &a{i} [{refs}]\n"));
+    }
+    spec.push_str(BASE);
+    let sb = Sandbox::with_spec(&spec);
+    let run = sb.run(&["generate", "spec.yaml", "-o", "out"]);
+    let err = one_error_line(&run);
+    assert!(
+        err.starts_with("error: spec.yaml:2:10: "),
+        "{}",
+        run.describe()
+    );
+    assert!(err.contains("aliases"), "{}", run.describe());
+    assert_nothing_written(&sb, &run);
+}
