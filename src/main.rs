@@ -135,16 +135,17 @@ fn run(cli: Cli) -> Result<ExitCode> {
         } => {
             let s = load_spec(&spec, &LoadOptions { model_dir })?;
             let design = carrywright::build(&s)?;
+            // The drawing is written first, so a failure prints nothing on stdout.
+            if let Some(path) = &svg {
+                let text = emit::report::svg(&s, &design)?;
+                carrywright::write_file(path, &text)?;
+            }
             if json {
                 out.line(describe_json(&s, &design));
             } else {
                 out.line(emit::report::table(&s, &design).trim_end());
-            }
-            if let Some(path) = svg {
-                let text = emit::report::svg(&s, &design)?;
-                carrywright::write_file(&path, &text)?;
-                if !json {
-                    out.line(format!("  wrote {}", shown_path(&path)));
+                if let Some(path) = &svg {
+                    out.line(format!("  wrote {}", shown_path(path)));
                 }
             }
             Ok(ExitCode::SUCCESS)

@@ -1463,3 +1463,17 @@ fn alias_bomb_is_refused_before_it_expands() {
     assert!(err.contains("aliases"), "{}", run.describe());
     assert_nothing_written(&sb, &run);
 }
+
+#[test]
+fn standard_input_only_once() {
+    let sb = Sandbox::with_spec(BASE);
+    let run = sb.run_with(&["generate", "-", "-", "-o", "out"], |c| {
+        c.stdin(std::fs::File::open(sb.path().join("spec.yaml")).unwrap());
+    });
+    assert!(
+        one_error_line(&run).contains("only once"),
+        "{}",
+        run.describe()
+    );
+    assert_nothing_written(&sb, &run);
+}
