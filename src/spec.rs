@@ -367,21 +367,28 @@ impl Source<'_> {
                 .map(|k| format!("{k}: "))
                 .unwrap_or_default()
         };
-        if let Some((l, c, ch)) = scan.unclosed {
+        let raw = e.to_string();
+        let mut msg = clean_serde_message(&raw, "");
+        if let (Some((l, c, ch)), true) = (scan.unclosed, msg.contains("did not find expected")) {
             return Error::Input(format!(
                 "{}:{l}:{c}: {}syntax error: this `{ch}` is never closed",
                 self.label,
                 key_at(l)
             ));
         }
-        let msg = clean_serde_message(&e.to_string(), "");
-        match e.location() {
-            Some(loc) => Error::Input(format!(
-                "{}:{}:{}: {}syntax error: {msg}",
+        // Errors of the YAML reader (control characters, bad encoding) give a byte offset.
+        let mut at = e.location().map(|loc| (loc.line(), loc.column()));
+        if let Some((head, tail)) = msg.split_once(" at position ") {
+            if let Ok(offset) = tail.trim().parse::<usize>() {
+                at = Some(line_col(self.text, offset));
+                msg = head.to_string();
+            }
+        }
+        match at {
+            Some((l, c)) => Error::Input(format!(
+                "{}:{l}:{c}: {}syntax error: {msg}",
                 self.label,
-                loc.line(),
-                loc.column(),
-                key_at(loc.line())
+                key_at(l)
             )),
             None => Error::Input(format!("{}: syntax error: {msg}", self.label)),
         }
@@ -403,6 +410,18 @@ impl Source<'_> {
             _ => self.error(&path, "given twice"),
         }
     }
+}
+
+/// Line and column (from 1) of a byte offset in `text`.
+fn line_col(text: &str, offset: usize) -> (usize, usize) {
+    let mut end = offset.min(text.len());
+    while !text.is_char_boundary(end) {
+        end -= 1;
+    }
+    let before = &text[..end];
+    let line = before.matches('\n').count() + 1;
+    let col = before.chars().rev().take_while(|&c| c != '\n').count() + 1;
+    (line, col)
 }
 
 /// The key named by serde's duplicate-key message, if that is what it is.
@@ -575,7 +594,8 @@ fn scan_nesting(text: &str) -> Nesting {
                     '#' if prev.is_whitespace() => comment = true,
                     '"' | '\'' if token_start => quote = Some(c),
                     '*' if token_start && alias.is_none() => alias = Some((line, col)),
-                    '[' | '{' => {
+                    // Outside flow, a bracket opens one only where a value starts.
+                    '[' | '{' if token_start || !flow.is_empty() => {
                         flow.push((line, col, c));
                         if block + flow.len() > MAX_DEPTH {
                             return Nesting {

@@ -1477,3 +1477,15 @@ fn standard_input_only_once() {
     );
     assert_nothing_written(&sb, &run);
 }
+
+#[test]
+fn control_character_is_located_on_its_line() {
+    // The YAML reader gives a byte offset; it used to be shown as 1:1.
+    let err = refuse(
+        &base_plus("style: stat\u{1b}[31mic\n"),
+        "style",
+        5,
+        &["syntax error", "control characters"],
+    );
+    assert!(err.starts_with("error: spec.yaml:5:12: "), "{err}");
+}
