@@ -296,9 +296,9 @@ impl Source<'_> {
     }
 
     /// Deserialize with serde, turning its error into one line with key path and position.
-    /// The text is first checked for nesting depth (refused beyond [`MAX_DEPTH`] before the
-    /// YAML parser sees it) and for syntax, so a syntax error is reported as one and not
-    /// under the name of whichever key serde was reading.
+    /// The text is first checked for nesting depth and aliases (refused before the YAML
+    /// parser sees them); when serde fails, the text is parsed once more without types to
+    /// tell a syntax error from a type error.
     pub fn parse<T: serde::de::DeserializeOwned>(&self) -> Result<T> {
         if self.text.trim().is_empty() {
             return Err(Error::Input(format!("{}: the file is empty", self.label)));
@@ -317,11 +317,6 @@ impl Source<'_> {
                 self.label
             )));
         }
-        if let Err(e) = serde_yaml::from_str::<serde_yaml::Value>(self.text) {
-            if duplicate_key_name(&e.to_string()).is_none() {
-                return Err(self.syntax_error(&e, &scan));
-            }
-        }
         let de = serde_yaml::Deserializer::from_str(self.text);
         serde_path_to_error::deserialize(de).map_err(|e| {
             let path: String = e
@@ -335,6 +330,11 @@ impl Source<'_> {
             let parent = if path == "." { "" } else { path.as_str() };
             if let Some(key) = duplicate_key_name(&raw) {
                 return self.duplicate_error(parent, &key);
+            }
+            // A syntax error is reported as one, not under the key serde was reading.
+            let plain = serde_yaml::Deserializer::from_str(self.text);
+            if let Err(syntax) = serde::de::IgnoredAny::deserialize(plain) {
+                return self.syntax_error(&syntax, &scan);
             }
             let msg = clean_serde_message(&raw, &path);
             let shown = if parent.is_empty() {
@@ -539,7 +539,7 @@ fn scan_nesting(text: &str) -> Nesting {
                     j += 1;
                 }
             }
-            let blank = j >= bytes.len() || matches!(bytes[j], '\n' | '\r' | '#');
+            let blank = marks == 0 && (j >= bytes.len() || matches!(bytes[j], '\n' | '\r' | '#'));
             if !blank {
                 while indents.last().is_some_and(|&t| t >= indent) {
                     indents.pop();

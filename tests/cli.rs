@@ -1063,6 +1063,16 @@ fn deeply_nested_block_mapping_is_refused() {
 }
 
 #[test]
+fn deeply_nested_block_sequence_on_one_line_is_refused() {
+    let sb = Sandbox::with_spec(&"- ".repeat(100_000));
+    let run = sb.run(&["generate", "spec.yaml", "-o", "out"]);
+    let err = one_error_line(&run);
+    assert!(err.starts_with("error: spec.yaml:1:"), "{}", run.describe());
+    assert!(err.contains("nested deeper than 32"), "{}", run.describe());
+    assert_nothing_written(&sb, &run);
+}
+
+#[test]
 fn quotes_do_not_hide_nesting() {
     // A `]` inside a quoted scalar closes nothing.
     let spec = format!("{BASE}buffers: {}\n", "[\"]\", ".repeat(5_000));
