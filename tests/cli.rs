@@ -1035,17 +1035,25 @@ fn help_and_version_still_print_and_exit_zero() {
     assert!(h.stdout.contains("--random"), "{}", h.describe());
 }
 
-/// A spec nested far too deep: refused with one line naming the file and line, before the
-/// YAML parser runs (it used to take a minute on such a file; no time is asserted here).
-#[test]
-fn deeply_nested_flow_spec_is_refused() {
-    let spec = format!("{BASE}buffers: {}\n", "[".repeat(200_000));
-    let sb = Sandbox::with_spec(&spec);
+/// Generate from a spec nested too deep: refused with one line at `line`, before the YAML
+/// parser runs (it used to take a minute on such a file; no time is asserted here), and
+/// nothing written.
+fn refuse_too_deep(spec: &str, line: usize) {
+    let sb = Sandbox::with_spec(spec);
     let run = sb.run(&["generate", "spec.yaml", "-o", "out"]);
     let err = one_error_line(&run);
-    assert!(err.starts_with("error: spec.yaml:5:"), "{}", run.describe());
+    assert!(
+        err.starts_with(&format!("error: spec.yaml:{line}:")),
+        "{}",
+        run.describe()
+    );
     assert!(err.contains("nested deeper than 32"), "{}", run.describe());
     assert_nothing_written(&sb, &run);
+}
+
+#[test]
+fn deeply_nested_flow_spec_is_refused() {
+    refuse_too_deep(&format!("{BASE}buffers: {}\n", "[".repeat(200_000)), 5);
 }
 
 #[test]
@@ -1055,34 +1063,19 @@ fn deeply_nested_block_mapping_is_refused() {
     for i in 1..1000 {
         spec.push_str(&format!("{}k{i}:\n", " ".repeat(i)));
     }
-    let sb = Sandbox::with_spec(&spec);
-    let run = sb.run(&["generate", "spec.yaml", "-o", "out"]);
-    let err = one_error_line(&run);
-    assert!(err.contains("nested deeper than 32"), "{}", run.describe());
-    assert_nothing_written(&sb, &run);
+    // testbench is level 1 on line 5; k32 on line 37 is level 33.
+    refuse_too_deep(&spec, 37);
 }
 
 #[test]
 fn deeply_nested_block_sequence_on_one_line_is_refused() {
-    let sb = Sandbox::with_spec(&"- ".repeat(100_000));
-    let run = sb.run(&["generate", "spec.yaml", "-o", "out"]);
-    let err = one_error_line(&run);
-    assert!(err.starts_with("error: spec.yaml:1:"), "{}", run.describe());
-    assert!(err.contains("nested deeper than 32"), "{}", run.describe());
-    assert_nothing_written(&sb, &run);
+    refuse_too_deep(&"- ".repeat(100_000), 1);
 }
 
 #[test]
 fn quotes_do_not_hide_nesting() {
     // A `]` inside a quoted scalar closes nothing.
-    let spec = format!("{BASE}buffers: {}\n", "[\"]\", ".repeat(5_000));
-    let sb = Sandbox::with_spec(&spec);
-    let run = sb.run(&["generate", "spec.yaml", "-o", "out"]);
-    assert!(
-        one_error_line(&run).contains("nested deeper"),
-        "{}",
-        run.describe()
-    );
+    refuse_too_deep(&format!("{BASE}buffers: {}\n", "[\"]\", ".repeat(5_000)), 5);
 }
 
 #[test]
