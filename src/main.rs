@@ -77,7 +77,7 @@ fn run(cli: Cli) -> Result<ExitCode> {
             let s = spec::load(&spec, &LoadOptions { model_dir })?;
             let g = carrywright::generate(&s)?;
             if check {
-                let stale = carrywright::stale_files(&out, &g.files);
+                let stale = carrywright::stale_files(&out, &g.files)?;
                 if stale.is_empty() {
                     say!("{}: up to date ({} files)", out.display(), g.files.len());
                     return Ok(ExitCode::SUCCESS);
