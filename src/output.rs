@@ -229,7 +229,8 @@ fn create_new(dir: &Path, parent: &Path, files: &[(String, String)], lock: &Lock
     let mut stage = Stage::make(fs_path(parent), dir, "cannot create")?;
     for (name, text) in files {
         steps.check(&format!("stage {name}"))?;
-        write_synced(&stage.path.join(name), text, &dir.join(name))?;
+        write_synced(&stage.path.join(name), text)
+            .map_err(|e| io_err("cannot write", &dir.join(name), e))?;
     }
     sync_dir(&stage.path);
     steps.check("commit")?;
@@ -281,7 +282,8 @@ fn replace_in(dir: &Path, files: &[(String, String)], lock: &Lock) -> Result<()>
     }
     for (name, text) in files {
         steps.check(&format!("stage {name}"))?;
-        write_synced(&new.join(name), text, &dir.join(name))?;
+        write_synced(&new.join(name), text)
+            .map_err(|e| io_err("cannot write", &dir.join(name), e))?;
     }
     let names: Vec<&str> = files.iter().map(|(n, _)| n.as_str()).collect();
     let mut journal = names.join("\n");
@@ -289,8 +291,9 @@ fn replace_in(dir: &Path, files: &[(String, String)], lock: &Lock) -> Result<()>
     journal.push_str(END);
     journal.push('\n');
     let part = stage.path.join("journal.part");
-    write_synced(&part, &journal, &dir.join(files[0].0.as_str()))?;
-    fs::rename(&part, stage.path.join(JOURNAL)).map_err(|e| io_err("cannot write in", dir, e))?;
+    write_synced(&part, &journal)
+        .and_then(|()| fs::rename(&part, stage.path.join(JOURNAL)))
+        .map_err(|e| io_err("cannot write in", dir, e))?;
     sync_dir(&stage.path);
     steps.check("commit")?;
 
@@ -460,12 +463,11 @@ impl Drop for Stage {
     }
 }
 
-/// Write and sync one file; errors name `shown` (the user's path), never the staging folder.
-fn write_synced(p: &Path, text: &str, shown: &Path) -> Result<()> {
-    let mut f = File::create(p).map_err(|e| io_err("cannot write", shown, e))?;
-    f.write_all(text.as_bytes())
-        .and_then(|()| f.sync_all())
-        .map_err(|e| io_err("cannot write", shown, e))
+/// Write and sync one file (callers name the user's path in errors, never the staging one).
+fn write_synced(p: &Path, text: &str) -> io::Result<()> {
+    let mut f = File::create(p)?;
+    f.write_all(text.as_bytes())?;
+    f.sync_all()
 }
 
 /// Sync a folder's entries to disk (best effort: some file systems refuse).
