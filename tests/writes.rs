@@ -404,6 +404,23 @@ fn splitmix(state: &mut u64) -> u64 {
     z ^ (z >> 31)
 }
 
+/// Spin until a `.carrywright-*` entry shows in one of `dirs` or the child exits.
+fn wait_for_staging(dirs: &[PathBuf], child: &mut Child) {
+    while child.try_wait().unwrap().is_none() {
+        let staging = dirs.iter().any(|d| {
+            std::fs::read_dir(d).is_ok_and(|mut it| {
+                it.any(|e| {
+                    e.is_ok_and(|e| e.file_name().to_string_lossy().starts_with(".carrywright-"))
+                })
+            })
+        });
+        if staging {
+            return;
+        }
+        std::thread::yield_now();
+    }
+}
+
 #[test]
 fn signals_at_random_moments_leave_the_old_set_or_the_new_one() {
     let bench = Bench::new();
@@ -428,7 +445,15 @@ fn signals_at_random_moments_leave_the_old_set_or_the_new_one() {
             .stderr(Stdio::null())
             .spawn()
             .unwrap();
-        let delay = splitmix(&mut seed) % span;
+        // Half the signals at a moment anywhere in the run; half a moment after a staging
+        // folder appears (the write has begun: it lasts a few milliseconds).
+        let r = splitmix(&mut seed);
+        let delay = if i % 4 < 2 {
+            r % span
+        } else {
+            wait_for_staging(&[bench.path("out"), bench.path("")], &mut child);
+            r % 3000
+        };
         std::thread::sleep(std::time::Duration::from_micros(delay));
         signal(&child, sig);
         let status = child.wait().unwrap();
