@@ -1,4 +1,5 @@
-//! Errors and their exit codes: 2 for bad input or usage, 1 for a failed check.
+//! Errors and their exit codes: 2 for bad input or usage, 1 for a failed check, 128 + signal
+//! for a write stopped by a signal.
 
 use std::fmt;
 
