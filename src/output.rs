@@ -26,7 +26,8 @@
 //! - Files get the usual `0666 & !umask` mode, folders `0777 & !umask`.
 //!
 //! On a file system without `flock`, writers are not serialised and staging folders left by
-//! killed runs are not cleaned up (nothing proves them dead).
+//! killed runs are not cleaned up (nothing proves them dead). Signal handlers are process-wide:
+//! one process should not run two writes at once from two threads.
 
 use crate::error::{Error, Result};
 use std::ffi::OsStr;
@@ -89,11 +90,11 @@ pub fn stale_files(dir: &Path, files: &[(String, String)]) -> Result<Vec<String>
 
 /// Finish or roll back what killed runs left in `dir` (staging folders and their journals),
 /// under the lock. `generate` does this itself before writing; this is for tools and tests.
+/// Recovery is idempotent (the journal stays until the change is finished), so it needs no
+/// signal handling: a recovery that is itself killed is done again by the next one.
 pub fn recover(dir: &Path) -> Result<()> {
-    let signals = Signals::defer();
-    let result = Lock::take(dir, dir).and_then(|lock| clean_dead(dir, &lock));
-    signals.restore();
-    result
+    let lock = Lock::take(dir, dir)?;
+    clean_dead(dir, &lock)
 }
 
 /// `.` for an empty relative path (`-o out` has parent ``).
@@ -540,6 +541,9 @@ impl Lock {
                 _file: None,
                 held: false,
             });
+        }
+        if let Some(sig) = take_pending() {
+            return Err(interrupted(sig, shown));
         }
         eprintln!(
             "waiting for another carrywright writing {}",
