@@ -199,54 +199,55 @@ pub fn json(
 /// Significant digits of every non-integer number in `NAME.json`.
 pub const JSON_DIGITS: usize = 6;
 
-/// `x` rounded to [`JSON_DIGITS`] significant digits, so that it prints as `1e-14`, not as
+/// `x` rounded to `digits` significant digits, so that it prints as `1e-14`, not as
 /// `1.0000000000000002e-14` (float noise from unit conversions).
-pub fn round_sig(x: f64) -> f64 {
+pub fn round_sig(x: f64, digits: usize) -> f64 {
     if !x.is_finite() || x == 0.0 {
         return x;
     }
-    format!("{x:.prec$e}", prec = JSON_DIGITS - 1)
+    format!("{x:.prec$e}", prec = digits.max(1) - 1)
         .parse()
         .unwrap_or(x)
 }
 
-/// `x` as a JSON value with every float rounded by [`round_sig`]. Every part of the summary
+/// `x` as a JSON value with every float rounded to [`JSON_DIGITS`]. Every part of the summary
 /// that can hold a float goes through here.
 fn rounded(x: impl Serialize) -> Result<serde_json::Value> {
     let mut v = serde_json::to_value(x).map_err(|e| Error::Output(e.to_string()))?;
-    round_floats(&mut v);
+    round_floats(&mut v, JSON_DIGITS);
     Ok(v)
 }
 
 /// Round every floating-point number in a JSON value (integers stay exact).
-pub fn round_floats(v: &mut serde_json::Value) {
+pub fn round_floats(v: &mut serde_json::Value, digits: usize) {
     match v {
         serde_json::Value::Number(n) if n.is_f64() => {
             if let Some(r) = n
                 .as_f64()
-                .map(round_sig)
+                .map(|x| round_sig(x, digits))
                 .and_then(serde_json::Number::from_f64)
             {
                 *n = r;
             }
         }
-        serde_json::Value::Array(xs) => xs.iter_mut().for_each(round_floats),
-        serde_json::Value::Object(m) => m.values_mut().for_each(round_floats),
+        serde_json::Value::Array(xs) => xs.iter_mut().for_each(|x| round_floats(x, digits)),
+        serde_json::Value::Object(m) => m.values_mut().for_each(|x| round_floats(x, digits)),
         _ => {}
     }
 }
 
 /// What `spec_hash` covers, as said in `NAME.json`.
-pub const SPEC_HASH_COVERS: &str = "sha256 of the validated spec as the tool resolved it (name, width, architecture, style, block and block sizes, buffer positions, sizing, testbench, and the technology's values except where its model files are), whatever the YAML's formatting";
+pub const SPEC_HASH_COVERS: &str = "sha256 of the validated spec as the tool resolved it (name, width, architecture, style, block and block sizes, buffer positions, sizing, testbench, and the technology's values except where its model files are; numbers to 12 significant digits), whatever the YAML's formatting";
 
 /// SHA-256 of a canonical form of the validated spec: the resolved values (defaults filled
-/// in, quantities in SI units) in a fixed order, so that the same design gives the same hash
-/// however the YAML was written. The technology's model files are left out: their location
-/// differs from machine to machine.
+/// in, quantities in SI units, floats to 12 significant digits so that `10f` and `1e-14` are
+/// one value) in a fixed order, so that the same design gives the same hash however the YAML
+/// was written. The technology's model files are left out: their location differs from
+/// machine to machine.
 pub fn spec_hash(spec: &Spec) -> String {
     use sha2::{Digest, Sha256};
     let t = &spec.technology;
-    let canonical = serde_json::json!({
+    let mut canonical = serde_json::json!({
         "form": "carrywright spec hash 1",
         "name": spec.name,
         "width": spec.width,
@@ -272,6 +273,7 @@ pub fn spec_hash(spec: &Spec) -> String {
             "origin": t.origin,
         },
     });
+    round_floats(&mut canonical, 12);
     // Keys come out in a fixed order and floats print exactly (shortest round-trip form).
     let digest = Sha256::digest(canonical.to_string().as_bytes());
     let hex: String = digest.iter().map(|b| format!("{b:02x}")).collect();
