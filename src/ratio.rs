@@ -332,7 +332,7 @@ pub fn length_error(spec: &Spec, design: &Design) -> Option<Error> {
         let every = fits / spec.block * spec.block;
         (
             "buffers",
-            format!("the unbuffered dynamic chain from bit {lo} to bit {} ({n}) fails the keeper ratio rule at sizing.keeper {k}; the longest that passes is {longest}: add buffers (e.g. {{every: {every}}}), shorten block, or {lower}", hi - 1),
+            format!("the unbuffered dynamic chain from bit {lo} to bit {} ({n}) fails the keeper ratio rule at sizing.keeper {k}; the longest that passes is {longest}: add buffers (e.g. {{every: {every}}}) or {lower}", hi - 1),
         )
     } else {
         (

@@ -231,9 +231,7 @@ fn ratio_failure_names_the_key_and_the_longest_chain_that_passes() {
     let k = format!("sizing: {{keeper: {}}}\n", below * 0.99);
     carrywright::build(&spec(19, 1, &k)).unwrap();
     // Carry-skip restarts its dynamic chain at every block: the key is `block`.
-    let skip = parse(&format!(
-        "name: k\nwidth: 48\narchitecture: carry-skip\nstyle: dynamic\nblock: 24\n"
-    ));
+    let skip = parse("name: k\nwidth: 48\narchitecture: carry-skip\nstyle: dynamic\nblock: 24\n");
     let e = carrywright::build(&skip).unwrap_err();
     assert_eq!(e.exit_code(), 2, "{e}");
     assert!(e.to_string().starts_with("test:5:1: block: "), "{e}");
