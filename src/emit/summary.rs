@@ -153,7 +153,7 @@ pub fn json(
             "random_listed": plan.len() - n_directed,
             "random_drawn_in_testbench": spec.testbench.random.saturating_sub(plan.len() - n_directed),
             "seed": spec.testbench.seed,
-            "generator": "SplitMix64 from seed; random vector: a (128 bits, high word first, cut to the width), b likewise, cin the low bit of the next word",
+            "random_generator": "SplitMix64 from seed; random vector: a (128 bits, high word first, cut to the width), b likewise, cin the low bit of the next word",
             "dynamic_phases": spec.style == Style::Dynamic,
         }))?,
         spice_deck: rounded(serde_json::json!({
