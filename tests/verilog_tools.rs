@@ -176,15 +176,12 @@ fn broken_verilog_is_caught_by_icarus_and_yosys() {
     }
     let (dir, _g, s) = common::generate(&spec("brk8", 8, "manchester", "static", 4, "none"), None);
     let out = dir.path().join("out");
-    let v = out.join("brk8.v");
-    let text = std::fs::read_to_string(&v).unwrap();
-    let broken = text.replace("assign s = ~(p ^ ci);", "assign s = p ^ ci;");
-    assert_ne!(text, broken, "the sum cell's expression was found");
-    std::fs::write(&v, broken).unwrap();
-    let (passed, log) = common::icarus_run(&out, &s.name);
-    assert!(
-        !passed && log.contains("expected"),
-        "Icarus passed a broken adder:\n{log}"
+    icarus_catches(
+        &out,
+        &s.name,
+        "brk8.v",
+        ("assign s = ~(p ^ ci);", "assign s = p ^ ci;"),
+        "expected",
     );
     let (proved, log) = common::yosys_prove(&out, &s.name, 8, false);
     assert!(!proved, "Yosys proved a broken adder:\n{log}");
@@ -209,15 +206,12 @@ fn testbench_draws_its_random_vectors_like_carrywright() {
         let want = format!("PASS {}: {} vectors", s.name, 7 + s.testbench.random);
         assert!(log.contains(&want), "expected `{want}` in:\n{log}");
 
-        let tb = out.join(format!("{}_tb.v", s.name));
-        let text = std::fs::read_to_string(&tb).unwrap();
-        let drifted = text.replace("64'h94d049bb133111eb", "64'h94d049bb133111ed");
-        assert_ne!(text, drifted, "the generator's constant was found");
-        std::fs::write(&tb, drifted).unwrap();
-        let (passed, log) = common::icarus_run(&out, &s.name);
-        assert!(
-            !passed && log.contains("random vector 0: this generator drew"),
-            "a drifted generator was not caught:\n{log}"
+        icarus_catches(
+            &out,
+            &s.name,
+            &format!("{}_tb.v", s.name),
+            ("64'h94d049bb133111eb", "64'h94d049bb133111ed"),
+            "random vector 0: this generator drew",
         );
     }
 }
@@ -243,4 +237,24 @@ fn both_files_set_timescale_and_nettype() {
             assert!(text.ends_with("`default_nettype wire\n"), "{name}");
         }
     }
+}
+
+/// Edit one generated file (`from` -> `to`, which must occur) and check that the Icarus run
+/// then fails with `expect` in its log.
+fn icarus_catches(
+    out: &std::path::Path,
+    name: &str,
+    file: &str,
+    (from, to): (&str, &str),
+    expect: &str,
+) {
+    let path = out.join(file);
+    let text = std::fs::read_to_string(&path).unwrap();
+    assert!(text.contains(from), "`{from}` is not in {file}");
+    std::fs::write(&path, text.replace(from, to)).unwrap();
+    let (passed, log) = common::icarus_run(out, name);
+    assert!(
+        !passed && log.contains(expect),
+        "Icarus passed after `{from}` became `{to}` in {file}:\n{log}"
+    );
 }
