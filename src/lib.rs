@@ -11,6 +11,7 @@ pub mod arch;
 pub mod cells;
 pub mod emit;
 pub mod error;
+pub mod models;
 pub mod netlist;
 pub mod ratio;
 pub mod sim;
@@ -112,6 +113,10 @@ pub struct Generated {
 
 /// Build, check (structure and logic) and render every view. Nothing touches the disk.
 pub fn generate(spec: &Spec) -> Result<Generated> {
+    // The deck is checked against the model files it will load: without them, no deck.
+    if let Some(why) = &spec.technology.models_missing {
+        return Err(Error::Input(why.clone()));
+    }
     let design = build(spec)?;
     let check = sim::check_or_fail(
         &design,

@@ -480,10 +480,15 @@ fn validate(raw: RawSpec, src: &Source, base: &Path, opts: &LoadOptions) -> Resu
         None => tech::builtin("generic", opts)?,
         Some(t) => {
             if tech::BUILTIN.contains(&t.as_str()) {
-                tech::builtin(t, opts).map_err(|e| match e {
+                let mut t = tech::builtin(t, opts).map_err(|e| match e {
                     Error::Input(m) => src.error("technology", m),
                     other => other,
-                })?
+                })?;
+                // Located here, reported by `generate` (describe and check need no models).
+                t.models_missing = t
+                    .models_missing
+                    .map(|m| src.error("technology", m).to_string());
+                t
             } else if t.ends_with(".yaml") || t.ends_with(".yml") {
                 if t.chars().any(|c| c.is_control()) {
                     return Err(src.error("technology", "the path contains a control character"));
