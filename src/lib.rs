@@ -34,7 +34,15 @@ pub fn build(spec: &Spec) -> Result<Design> {
     let design = arch::build(spec);
     check_sizes(spec, &design)?;
     check_name_is_free(spec, &design)?;
-    design.check()?;
+    if let Err(e) = design.check() {
+        // A dynamic chain too long for its keeper is a spec problem (exit 2), not a fault.
+        if matches!(&e, Error::Check(m) if m.starts_with(ratio::RULE_FAILS)) {
+            if let Some(input) = ratio::length_error(spec, &design) {
+                return Err(input);
+            }
+        }
+        return Err(e);
+    }
     Ok(design)
 }
 

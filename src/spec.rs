@@ -149,6 +149,8 @@ pub struct Spec {
     pub technology: Technology,
     pub sizing: Sizing,
     pub testbench: Testbench,
+    /// The spec's label and text, to locate keys in errors found after validation.
+    pub source: Option<(String, String)>,
 }
 
 pub const MAX_WIDTH: usize = 128;
@@ -611,6 +613,7 @@ fn validate(raw: RawSpec, src: &Source, base: &Path, opts: &LoadOptions) -> Resu
             period,
             step,
         },
+        source: Some((src.label.to_string(), src.text.to_string())),
     })
 }
 

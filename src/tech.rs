@@ -324,10 +324,7 @@ pub fn load_file(path: &Path, opts: &LoadOptions) -> Result<Technology> {
                     if !full.is_file() {
                         return Err(src.error(
                             key,
-                            format!(
-                                "model file {} is not a file",
-                                crate::models::show(&full)
-                            ),
+                            format!("model file {} is not a file", crate::models::show(&full)),
                         ));
                     }
                     Some(full)
@@ -373,7 +370,11 @@ pub fn load_file(path: &Path, opts: &LoadOptions) -> Result<Technology> {
         check_spice_word(&l.section).map_err(|m| src.error(&format!("lib[{i}].section"), m))?;
         let (f, local) = resolve(&format!("lib[{i}].file"), &l.file)?;
         lib.push((f, l.section.clone()));
-        locals.push((format!("lib[{i}].file"), local, Some((i, l.section.clone()))));
+        locals.push((
+            format!("lib[{i}].file"),
+            local,
+            Some((i, l.section.clone())),
+        ));
     }
     let mut t = Technology {
         origin: format!(
@@ -408,8 +409,8 @@ pub fn load_file(path: &Path, opts: &LoadOptions) -> Result<Technology> {
     if locals.iter().all(|(_, l, _)| l.is_some()) {
         let mut defined = crate::models::Defined::default();
         for (key, local, _) in &locals {
-            let d = crate::models::scan(&[local.clone().unwrap()])
-                .map_err(|m| src.error(key, m))?;
+            let d =
+                crate::models::scan(&[local.clone().unwrap()]).map_err(|m| src.error(key, m))?;
             defined.sections.extend(d.sections);
             defined.devices.extend(d.devices);
             defined.files.extend(d.files);
