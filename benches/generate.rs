@@ -210,7 +210,8 @@ fn bench_generate() {
     let compile = measure(3, 30, || Evaluator::new(&design).unwrap());
     line("    Evaluator::new (flatten+compile)", &compile);
     let plan = vectors::plan(spec.width, spec.testbench.random, spec.testbench.seed);
-    let deck = spice::DeckPlan::new(&spec, &plan);
+    let deck = spice::DeckPlan::new(&spec, &plan).unwrap();
+    let netlist = spice::subcircuits(&spec, &design).unwrap();
     let views: [(&str, Stats); 5] = [
         (
             "    verilog::design",
@@ -226,7 +227,9 @@ fn bench_generate() {
         ),
         (
             "    spice::deck",
-            measure(3, 30, || spice::deck(&spec, &design, &deck).unwrap()),
+            measure(3, 30, || {
+                spice::deck(&spec, &design, &deck, &netlist).unwrap()
+            }),
         ),
         (
             "    summary::json",

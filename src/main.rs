@@ -290,7 +290,7 @@ fn generate(
         let mut total = 0;
         for (s, g, into) in &jobs {
             total += g.files.len();
-            for f in carrywright::stale_files(into, &g.files) {
+            for f in carrywright::stale_files(into, &g.files)? {
                 stale.push(if several {
                     format!("{}/{f}", s.name)
                 } else {

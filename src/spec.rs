@@ -149,6 +149,8 @@ pub struct Spec {
     pub technology: Technology,
     pub sizing: Sizing,
     pub testbench: Testbench,
+    /// The spec's label and text, to locate keys in errors found after validation.
+    pub source: Option<(String, String)>,
 }
 
 pub const MAX_WIDTH: usize = 128;
@@ -894,10 +896,15 @@ fn validate(raw: RawSpec, src: &Source, base: &Path, opts: &LoadOptions) -> Resu
         None => tech::builtin("generic", opts)?,
         Some(t) => {
             if tech::BUILTIN.contains(&t.as_str()) {
-                tech::builtin(t, opts).map_err(|e| match e {
+                let mut t = tech::builtin(t, opts).map_err(|e| match e {
                     Error::Input(m) => src.error("technology", m),
                     other => other,
-                })?
+                })?;
+                // Located here, reported by `generate` (describe and check need no models).
+                t.models_missing = t
+                    .models_missing
+                    .map(|m| src.error("technology", m).to_string());
+                t
             } else if t.ends_with(".yaml") || t.ends_with(".yml") {
                 if t.chars().any(|c| c.is_control()) {
                     return Err(src.error("technology", "the path contains a control character"));
@@ -1048,6 +1055,7 @@ fn validate(raw: RawSpec, src: &Source, base: &Path, opts: &LoadOptions) -> Resu
             period,
             step,
         },
+        source: Some((src.label.to_string(), src.text.to_string())),
     })
 }
 

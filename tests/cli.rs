@@ -1141,7 +1141,7 @@ fn newline_in_the_model_folder_stays_on_one_line() {
         run.describe()
     );
     assert_nothing_written(&sb, &run);
-    let env = sb.run_with(&["check", "spec.yaml"], |c| {
+    let env = sb.run_with(&["generate", "spec.yaml", "-o", "out"], |c| {
         c.env("CARRYWRIGHT_MODEL_DIR", "x\r\ny\u{1b}[31m");
     });
     let err = one_error_line(&env);

@@ -338,7 +338,13 @@ fn hostile_spec(rng: &mut Rng) -> String {
     text
 }
 
-const TECH_OK: &str = "name: wren_tech\nvdd: 3.3\nl_min: 0.35\nw_min: 0.5\nnmos: cw_nch\npmos: cw_pch\nunit_n: 1.0\npn_ratio: 2.5\nstep: 20p\ninclude: [models.lib]\n";
+/// A valid technology file whose models are in `dir`/models.lib (absolute, as the deck needs).
+fn tech_ok(dir: &Path) -> String {
+    format!(
+        "name: wren_tech\nvdd: 3.3\nl_min: 0.35\nw_min: 0.5\nnmos: cw_nch\npmos: cw_pch\nunit_n: 1.0\npn_ratio: 2.5\nstep: 20p\ninclude: [\"{}\"]\n",
+        dir.join("models.lib").display()
+    )
+}
 const TECH_KEYS: &[&str] = &[
     "name", "vdd", "l_min", "w_min", "nmos", "pmos", "unit_n", "pn_ratio", "step", "include", "lib",
 ];
@@ -350,15 +356,13 @@ fn tech_folder() -> tempfile::TempDir {
     let w = |name: &str, text: &str| {
         std::fs::write(p.join(name), text).unwrap_or_else(|e| panic!("write {name}: {e}"))
     };
-    w("models.lib", "* models\n");
-    w("tech_ok.yaml", TECH_OK);
-    w(
-        "tech_big.yaml",
-        &format!("{TECH_OK}# {}\n", "x".repeat(1 << 20)),
-    );
+    let ok = tech_ok(p);
+    w("models.lib", carrywright::tech::GENERIC_MODELS);
+    w("tech_ok.yaml", &ok);
+    w("tech_big.yaml", &format!("{ok}# {}\n", "x".repeat(1 << 20)));
     w(
         "tech_deep.yaml",
-        &format!("{TECH_OK}lib: {}\n", "[".repeat(50_000)),
+        &format!("{ok}lib: {}\n", "[".repeat(50_000)),
     );
     std::fs::create_dir(p.join("sub")).unwrap();
     let mut rng = Rng::new(0x7EC4);
@@ -376,9 +380,9 @@ fn tech_folder() -> tempfile::TempDir {
     for i in 0..HOSTILE_TECHS {
         let text = if i < extra.len() {
             let (k, _) = extra[i].split_once(':').unwrap();
-            set_key(TECH_OK, k, extra[i].split_once(": ").unwrap().1)
+            set_key(&ok, k, extra[i].split_once(": ").unwrap().1)
         } else {
-            let mut t = TECH_OK.to_string();
+            let mut t = ok.clone();
             for _ in 0..1 + below(&mut rng, 2) {
                 t = mutate(&mut rng, &t, TECH_KEYS);
             }

@@ -163,8 +163,9 @@ fn ngspice_generic_technology() {
     measured(&r, "power");
 }
 
-/// The deck's own level check can fail: break the sum cells' output inverters in NAME.sp
-/// (gate them from the wrong node) and the deck must exit non-zero naming the failure.
+/// The deck's own level check can fail: break the sum cells' output inverters in the
+/// netlist the deck carries (gate them from the wrong node) and the deck must exit non-zero
+/// naming the failure.
 #[test]
 fn deck_fails_on_a_wrong_level() {
     if !common::tools(&["ngspice"]) {
@@ -175,7 +176,7 @@ fn deck_fails_on_a_wrong_level() {
         None,
     );
     let out = dir.path().join("out");
-    let sp = out.join("bad4.sp");
+    let sp = out.join("bad4_tb.sp");
     let text = std::fs::read_to_string(&sp).unwrap();
     let broken = text
         .replace("mn_s s sn vss", "mn_s s x vss")

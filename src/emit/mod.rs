@@ -20,6 +20,7 @@ fn tera() -> &'static Tera {
     T.get_or_init(|| {
         let mut t = Tera::default();
         t.autoescape_on(vec![]);
+        t.register_filter("circuit_lines", circuit_lines);
         t.add_raw_templates(vec![
             (
                 "verilog/design.v",
@@ -60,6 +61,32 @@ pub(crate) fn render(template: &str, ctx: &impl serde::Serialize) -> Result<Stri
         }
         Error::Output(format!("rendering {template}: {msg}"))
     })
+}
+
+/// Tera filter: every non-blank line of a circuit as an ngspice `circbyline` command, so a
+/// deck's `.control` block can build the circuit after reading where the models are.
+fn circuit_lines(
+    value: &tera::Value,
+    _: &std::collections::HashMap<String, tera::Value>,
+) -> tera::Result<tera::Value> {
+    let text = tera::from_value::<String>(value.clone())?;
+    let mut out = String::with_capacity(text.len() + text.len() / 4);
+    for line in text.lines().filter(|l| !l.trim().is_empty()) {
+        // ngspice substitutes `...` (a shell command) and $variables in control lines: the
+        // only substitution a deck may hold is the model folder.
+        let rest = line.replace(&format!("${}/", crate::tech::DECK_MODEL_VAR), "");
+        if rest.contains(['`', '$']) {
+            return Err(tera::Error::msg(format!(
+                "a circuit line would be substituted by ngspice: {}",
+                line.escape_debug()
+            )));
+        }
+        out.push_str("circbyline ");
+        out.push_str(line);
+        out.push('\n');
+    }
+    out.pop();
+    Ok(tera::Value::String(out))
 }
 
 /// One line saying what the design is.
@@ -122,14 +149,19 @@ pub fn render_all(
     design: &Design,
     counts: &summary::Counts,
 ) -> Result<Vec<(String, String)>> {
-    let plan = vectors::plan(spec.width, spec.testbench.random, spec.testbench.seed);
-    let deck = spice::DeckPlan::new(spec, &plan);
+    // Only the vectors the deck uses are materialised; the Verilog testbench draws the other
+    // random ones itself from the same seed.
+    let listed = spec.testbench.random.min(spice::DECK_RANDOM);
+    let plan = vectors::plan(spec.width, listed, spec.testbench.seed);
+    let deck = spice::DeckPlan::new(spec, &plan)?;
     let n = &spec.name;
+    let netlist = spice::subcircuits(spec, design)?;
+    let bench = spice::deck(spec, design, &deck, &netlist)?;
     Ok(vec![
         (format!("{n}.v"), verilog::design(spec, design)?),
         (format!("{n}_tb.v"), verilog::testbench(spec, &plan)?),
-        (format!("{n}.sp"), spice::subcircuits(spec, design)?),
-        (format!("{n}_tb.sp"), spice::deck(spec, design, &deck)?),
+        (format!("{n}.sp"), netlist),
+        (format!("{n}_tb.sp"), bench),
         (
             format!("{n}.json"),
             summary::json(spec, design, counts, &plan, &deck)?,

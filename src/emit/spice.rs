@@ -6,7 +6,7 @@
 use super::vectors::{Labeled, WORST_CASE_FALL, WORST_CASE_RISE};
 use super::{render, title, wrap, VERSION};
 use crate::cells::Mos;
-use crate::error::Result;
+use crate::error::{Error, Result};
 use crate::netlist::{Design, Master};
 use crate::spec::{fmt_si, trim_num, Architecture, Spec, Style};
 use crate::tech::Models;
@@ -174,6 +174,8 @@ pub struct DeckPlan {
     pub period: f64,
     pub period_from_spec: bool,
     pub step: f64,
+    /// Largest internal time step ngspice may take, seconds (separate from the print step).
+    pub tmax: f64,
     pub slew: f64,
     pub tstop: f64,
     /// The vectors the deck applies: the directed ones and up to 8 of the random ones.
@@ -189,8 +191,17 @@ pub struct DeckPlan {
 /// Random vectors the transistor-level deck adds to the directed ones.
 pub const DECK_RANDOM: usize = 8;
 
+/// Most transient points a deck may ask for (`tstop / step`): ngspice allocates its output
+/// vectors from this, so a tiny step over a long run exhausts memory before it starts.
+pub const MAX_POINTS: f64 = 500_000.0;
+
+/// Cap on the internal time step: a 100 ps cap cut ngspice's CPU time 2.4-3.3x with delays
+/// moving under 1 % (measured here, shared/EDA-RECIPES.md); never above a twentieth of a
+/// period, never below the print step.
+pub const TMAX_CAP: f64 = 100e-12;
+
 impl DeckPlan {
-    pub fn new(spec: &Spec, plan: &[Labeled]) -> DeckPlan {
+    pub fn new(spec: &Spec, plan: &[Labeled]) -> Result<DeckPlan> {
         let n_directed = super::vectors::directed(spec.width).len();
         let take = n_directed + spec.testbench.random.min(DECK_RANDOM);
         let vectors: Vec<Labeled> = plan.iter().take(take).cloned().collect();
@@ -204,17 +215,29 @@ impl DeckPlan {
             .step
             .unwrap_or(spec.technology.step)
             .min(period / 20.0);
-        DeckPlan {
+        let tstop = period * vectors.len() as f64;
+        let points = tstop / step;
+        if points > MAX_POINTS {
+            return Err(Error::Input(format!(
+                "testbench.step: the deck would ask ngspice for {:.0} transient points ({} vectors of {} at a {} step); at most {MAX_POINTS:.0}: raise testbench.step or shorten testbench.period",
+                points,
+                vectors.len(),
+                fmt_si(period, 's'),
+                fmt_si(step, 's')
+            )));
+        }
+        Ok(DeckPlan {
             period,
             period_from_spec: spec.testbench.period.is_some(),
             step,
+            tmax: TMAX_CAP.min(period / 20.0).max(step),
             slew: spec.technology.slew,
-            tstop: period * vectors.len() as f64,
+            tstop,
             vectors,
             strobe: if dynamic { 0.95 } else { 0.9 },
             precharge_strobe: dynamic.then_some(0.45),
             delay_from: if dynamic { "clk" } else { "cin" },
-        }
+        })
     }
 }
 
@@ -294,6 +317,10 @@ struct DeckCtx {
     version: &'static str,
     name: String,
     origin: String,
+    corner: String,
+    temp: String,
+    need_model_dir: bool,
+    netlist: String,
     dynamic: bool,
     vdd: String,
     half_vdd: String,
@@ -305,6 +332,7 @@ struct DeckCtx {
     half: String,
     high: String,
     step: String,
+    tmax: String,
     tstop: String,
     vector_count: usize,
     strobe_note: String,
@@ -312,9 +340,13 @@ struct DeckCtx {
     sources: Vec<LinesCtx>,
     dut: LinesCtx,
     outputs: Vec<String>,
+    save: LinesCtx,
     trig: &'static str,
     rise_td: String,
     fall_td: String,
+    rise_vector: usize,
+    fall_vector: usize,
+    window: String,
     measure_fall: bool,
     delay_note: String,
     strobes: Vec<StrobeCtx>,
@@ -325,8 +357,8 @@ fn s(x: f64) -> String {
     fmt_si(x, 's')
 }
 
-/// `NAME_tb.sp`.
-pub fn deck(spec: &Spec, design: &Design, plan: &DeckPlan) -> Result<String> {
+/// `NAME_tb.sp`. `netlist` is the text of `NAME.sp`, which the deck carries inside it.
+pub fn deck(spec: &Spec, design: &Design, plan: &DeckPlan, netlist: &str) -> Result<String> {
     let tech = &spec.technology;
     let w = spec.width;
     let vdd = tech.vdd;
@@ -430,19 +462,33 @@ pub fn deck(spec: &Spec, design: &Design, plan: &DeckPlan) -> Result<String> {
         }
         Models::Files { include, lib } => include
             .iter()
-            .map(|p| format!(".include {p}"))
-            .chain(lib.iter().map(|(p, sec)| format!(".lib {p} {sec}")))
+            .map(|p| format!(".include {}", p.deck))
+            .chain(lib.iter().map(|(p, sec)| format!(".lib {} {sec}", p.deck)))
             .collect(),
     };
     // Start looking a little before the vector begins: a `td` exactly on the input's
     // breakpoint can make ngspice miss the crossing.
     let rise_td = (WORST_CASE_RISE as f64 - 0.05) * t;
     let fall_td = (WORST_CASE_FALL as f64 - 0.05) * t;
+    // A delay that ends past its vector's strobe belongs to no vector the deck checks: the
+    // window runs from the trigger (inputs change at the period's start, clk rises at its
+    // middle) to the strobe.
+    let trigger_at = if dynamic { t / 2.0 } else { change };
+    let window = plan.strobe * t - trigger_at;
+    // Only what the control block reads is kept: outputs, the measured input, the supply.
+    let mut save = vec![".save".to_string()];
+    save.extend(outputs.iter().map(|o| format!("v({o})")));
+    save.push(format!("v({})", plan.delay_from));
+    save.push("i(vvdd)".into());
     let ctx = DeckCtx {
         title: title(spec),
         version: VERSION,
         name: spec.name.clone(),
         origin: tech.origin.clone(),
+        corner: tech.corner.clone(),
+        temp: trim_num(tech.temp),
+        need_model_dir: tech.models.need_model_dir(),
+        netlist: netlist.trim_end().to_string(),
         dynamic,
         vdd: vdd_text.clone(),
         half_vdd: trim_num(vdd / 2.0),
@@ -454,6 +500,7 @@ pub fn deck(spec: &Spec, design: &Design, plan: &DeckPlan) -> Result<String> {
         half: s(t / 2.0),
         high: s(t / 2.0 - plan.slew),
         step: s(plan.step),
+        tmax: s(plan.tmax),
         tstop: s(plan.tstop),
         vector_count: plan.vectors.len(),
         strobe_note: match plan.precharge_strobe {
@@ -467,10 +514,14 @@ pub fn deck(spec: &Spec, design: &Design, plan: &DeckPlan) -> Result<String> {
         model_lines,
         sources,
         dut: LinesCtx::new(wrap(&dut, LINE)),
+        save: LinesCtx::new(wrap(&save, LINE)),
         outputs,
         trig: plan.delay_from,
         rise_td: s(rise_td),
         fall_td: s(fall_td),
+        rise_vector: WORST_CASE_RISE,
+        fall_vector: WORST_CASE_FALL,
+        window: s(window),
         measure_fall: !dynamic,
         delay_note: if dynamic {
             format!("clk rise to cout rise, all propagate with cin = 1 (vector {WORST_CASE_RISE})")

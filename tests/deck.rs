@@ -1,0 +1,515 @@
+//! The deck keeps its promises on any machine: it simulates the netlist it was generated
+//! with wherever ngspice is started, carries no path of the machine, loads only model files
+//! that were scanned, measures each delay inside its own vector, runs on one thread with a
+//! separate largest step, and says little unless asked. Technology files are checked against
+//! their model files when loaded. ngspice 39 behaviour relied on here was measured on this
+//! machine (shared/EDA-RECIPES.md): it resolves a relative `.include` in the working folder
+//! first, and `-D NAME` defines a control variable.
+
+mod common;
+
+use std::path::{Path, PathBuf};
+use std::process::Command;
+
+fn bin() -> Command {
+    Command::new(env!("CARGO_BIN_EXE_carrywright"))
+}
+
+/// (exit code, stdout, stderr)
+fn run(cmd: &mut Command) -> (i32, String, String) {
+    let o = cmd.output().expect("the binary runs");
+    (
+        o.status.code().unwrap_or(-1),
+        String::from_utf8_lossy(&o.stdout).into_owned(),
+        String::from_utf8_lossy(&o.stderr).into_owned(),
+    )
+}
+
+fn write(dir: &Path, name: &str, text: &str) -> PathBuf {
+    let p = dir.join(name);
+    std::fs::write(&p, text).unwrap();
+    p
+}
+
+const GEN4: &str =
+    "name: wr4\nwidth: 4\narchitecture: manchester\nblock: 4\ntestbench: {random: 0, step: 50p}\n";
+
+/// A hostile NAME.sp in ngspice's working folder is never read: the deck carries its own
+/// netlist. Before, `.include NAME.sp` found the working folder's copy first.
+#[test]
+fn deck_ignores_a_netlist_in_the_working_folder() {
+    if !common::tools(&["ngspice"]) {
+        return;
+    }
+    let (dir, _g, s) = common::generate(GEN4, None);
+    let out = dir.path().join("out");
+    let cwd = dir.path().join("elsewhere");
+    std::fs::create_dir(&cwd).unwrap();
+    let marker = cwd.join("PWNED");
+    write(
+        &cwd,
+        "wr4.sp",
+        &format!(".control\nshell touch {}\n.endc\n", marker.display()),
+    );
+    write(&cwd, "wr4_tb.sp", ".control\nshell touch PWNED\n.endc\n");
+    let (ok, log) = common::ngspice_in(&cwd, &out.join("wr4_tb.sp"), &[]);
+    assert!(ok && log.contains("PASS wr4"), "{log}");
+    assert!(
+        !marker.exists(),
+        "the deck ran a file from the working folder"
+    );
+    assert!(!cwd.join("PWNED").exists());
+    assert!(
+        !std::fs::read_to_string(out.join("wr4_tb.sp"))
+            .unwrap()
+            .contains(".include wr4.sp"),
+        "{}",
+        s.name
+    );
+}
+
+/// A correct NAME.sp next to a deck whose own netlist is broken must not make it pass.
+#[test]
+fn deck_simulates_its_own_netlist() {
+    if !common::tools(&["ngspice"]) {
+        return;
+    }
+    let (dir, _g, _s) = common::generate(GEN4, None);
+    let out = dir.path().join("out");
+    let deck = out.join("wr4_tb.sp");
+    let text = std::fs::read_to_string(&deck).unwrap();
+    // Swap the gate of the sum cells' output inverter to the wrong node.
+    let broken = text
+        .replace("mn_s s sn vss", "mn_s s x vss")
+        .replace("mp_s s sn vdd", "mp_s s x vdd");
+    assert_ne!(text, broken);
+    std::fs::write(&deck, broken).unwrap();
+    // A correct netlist sits in both the deck's folder and the working folder.
+    let (ok, log) = common::ngspice_in(&out, &deck, &[]);
+    assert!(!ok && log.contains("FAIL"), "a broken deck passed:\n{log}");
+}
+
+/// Two machines with the model folder in different places generate byte-identical files,
+/// and no generated file names either folder; `generate --check` agrees.
+#[test]
+fn no_machine_path_in_generated_files() {
+    let Some(models) = common::model_dir() else {
+        return;
+    };
+    let tmp = tempfile::tempdir().unwrap();
+    let other = tmp.path().join("elsewhere/models");
+    std::fs::create_dir_all(&other).unwrap();
+    for f in std::fs::read_dir(&models).unwrap() {
+        let f = f.unwrap().path();
+        std::fs::copy(&f, other.join(f.file_name().unwrap())).unwrap();
+    }
+    let spec = write(
+        tmp.path(),
+        "p8.yaml",
+        "name: p8\nwidth: 8\narchitecture: manchester\ntechnology: gf180mcu-3v3\n",
+    );
+    let tech = write(
+        tmp.path(),
+        "t.yaml",
+        "name: t_ss\nvdd: 3.3\nl_min: 0.28\nw_min: 0.22\nnmos: nmos_3p3\npmos: pmos_3p3\nunit_n: 1.0\npn_ratio: 2.0\ninclude: [\"${MODEL_DIR}/design.ngspice\"]\nlib:\n  - {file: \"${MODEL_DIR}/sm141064.ngspice\", section: ss}\n",
+    );
+    let spec2 = write(
+        tmp.path(),
+        "q8.yaml",
+        &format!(
+            "name: q8\nwidth: 8\narchitecture: manchester\ntechnology: {}\n",
+            tech.display()
+        ),
+    );
+    for spec in [&spec, &spec2] {
+        let a = tmp.path().join("a");
+        let b = tmp.path().join("b");
+        for (out, dir) in [(&a, &models), (&b, &other)] {
+            let (code, _, err) = run(bin()
+                .arg("generate")
+                .arg(spec)
+                .arg("-o")
+                .arg(out)
+                .env("CARRYWRIGHT_MODEL_DIR", dir));
+            assert_eq!(code, 0, "{err}");
+        }
+        for f in std::fs::read_dir(&a).unwrap() {
+            let name = f.unwrap().file_name();
+            let x = std::fs::read_to_string(a.join(&name)).unwrap();
+            let y = std::fs::read_to_string(b.join(&name)).unwrap();
+            assert_eq!(x, y, "{name:?} differs between the two machines");
+            for p in [&models, &other, &tmp.path().to_path_buf()] {
+                assert!(
+                    !x.contains(&*p.to_string_lossy()),
+                    "{name:?} names {}",
+                    p.display()
+                );
+            }
+        }
+        // The other machine finds the first one's files up to date.
+        let (code, outp, err) = run(bin()
+            .arg("generate")
+            .arg(spec)
+            .arg("-o")
+            .arg(&a)
+            .arg("--check")
+            .env("CARRYWRIGHT_MODEL_DIR", &other));
+        assert_eq!(code, 0, "{outp}{err}");
+        std::fs::remove_dir_all(&a).unwrap();
+        std::fs::remove_dir_all(&b).unwrap();
+    }
+}
+
+/// The deck reads the model folder when it runs: from CARRYWRIGHT_MODEL_DIR or `-D
+/// cw_models=DIR`, and exits 4 with a clear line when neither is given.
+#[test]
+fn deck_finds_the_models_when_it_runs() {
+    if !common::tools(&["ngspice"]) {
+        return;
+    }
+    let Some(models) = common::model_dir() else {
+        return;
+    };
+    let (dir, _g, _s) = common::generate(
+        "name: m4\nwidth: 4\narchitecture: manchester\ntechnology: gf180mcu-3v3\ntestbench: {random: 0, step: 50p}\n",
+        Some(models.clone()),
+    );
+    let deck = dir.path().join("out/m4_tb.sp");
+    let o = Command::new("ngspice")
+        .arg("-b")
+        .arg(&deck)
+        .env_remove("CARRYWRIGHT_MODEL_DIR")
+        .output()
+        .unwrap();
+    let log = String::from_utf8_lossy(&o.stdout);
+    assert_eq!(o.status.code(), Some(4), "{log}");
+    assert!(log.contains("FAIL models"), "{log}");
+    let define = format!("cw_models={}", models.display());
+    let o = Command::new("ngspice")
+        .args(["-D", &define, "-b"])
+        .arg(&deck)
+        .env_remove("CARRYWRIGHT_MODEL_DIR")
+        .output()
+        .unwrap();
+    let log = String::from_utf8_lossy(&o.stdout);
+    assert!(o.status.success() && log.contains("PASS m4"), "{log}");
+}
+
+/// Small model files of our own (level-1 cards) for the technology-file checks.
+fn tech_dir() -> tempfile::TempDir {
+    let t = tempfile::tempdir().unwrap();
+    write(
+        t.path(),
+        "cards.lib",
+        "* corners\n.lib tt\n.model cw_n nmos level=1 vto=0.6 kp=120u\n.model cw_p pmos level=1 vto=-0.7 kp=45u\n.endl tt\n",
+    );
+    t
+}
+
+fn tech_file(dir: &Path, extra: &str, section: &str) -> PathBuf {
+    write(
+        dir,
+        "tech.yaml",
+        &format!(
+            "name: cw_tech\nvdd: 3.3\nl_min: 0.35\nw_min: 0.5\nnmos: cw_n\npmos: cw_p\nunit_n: 1.0\npn_ratio: 2.5\n{extra}lib:\n  - {{file: \"{}\", section: {section}}}\n",
+            dir.join("cards.lib").display()
+        ),
+    )
+}
+
+fn generate_with_tech(dir: &Path, tech: &Path) -> (i32, String, String) {
+    let spec = write(
+        dir,
+        "s.yaml",
+        &format!(
+            "name: t4\nwidth: 4\narchitecture: manchester\ntechnology: {}\n",
+            tech.display()
+        ),
+    );
+    run(bin()
+        .arg("generate")
+        .arg(&spec)
+        .arg("-o")
+        .arg(dir.join("out")))
+}
+
+fn assert_refused(r: &(i32, String, String), dir: &Path, needles: &[&str]) {
+    let (code, _, err) = r;
+    assert_eq!(*code, 2, "{err}");
+    assert_eq!(err.trim_end().lines().count(), 1, "one line: {err}");
+    for n in needles {
+        assert!(err.contains(n), "`{n}` not in: {err}");
+    }
+    assert!(!dir.join("out").exists(), "something was written");
+}
+
+#[test]
+fn technology_file_with_our_own_cards_is_accepted() {
+    let t = tech_dir();
+    let tech = tech_file(t.path(), "", "tt");
+    let (code, _, err) = generate_with_tech(t.path(), &tech);
+    assert_eq!(code, 0, "{err}");
+    let deck = std::fs::read_to_string(t.path().join("out/t4_tb.sp")).unwrap();
+    assert!(deck.contains("corner tt"), "the header states the corner");
+}
+
+/// A corner section the library does not define is refused at load, with key and line.
+#[test]
+fn technology_corner_that_does_not_exist_is_refused() {
+    let t = tech_dir();
+    let tech = tech_file(t.path(), "", "sss");
+    let r = generate_with_tech(t.path(), &tech);
+    assert_refused(
+        &r,
+        t.path(),
+        &["tech.yaml:", "lib[0].section", "`sss`", "defines: tt"],
+    );
+}
+
+/// A device name no model file defines is refused at load, naming the key.
+#[test]
+fn technology_device_that_does_not_exist_is_refused() {
+    let t = tech_dir();
+    let tech = tech_file(t.path(), "", "tt");
+    let text = std::fs::read_to_string(&tech)
+        .unwrap()
+        .replace("nmos: cw_n", "nmos: cw_nx");
+    std::fs::write(&tech, text).unwrap();
+    let r = generate_with_tech(t.path(), &tech);
+    assert_refused(&r, t.path(), &["tech.yaml:5:", "nmos", "`cw_nx`"]);
+}
+
+/// Any readable file is not a model file: /etc/passwd is refused with its line.
+#[test]
+fn technology_including_a_system_file_is_refused() {
+    if !Path::new("/etc/passwd").is_file() {
+        eprintln!("SKIPPED: no /etc/passwd on this machine");
+        return;
+    }
+    let t = tech_dir();
+    let tech = tech_file(t.path(), "include: [/etc/passwd]\n", "tt");
+    let r = generate_with_tech(t.path(), &tech);
+    assert_refused(&r, t.path(), &["include[0]", "/etc/passwd:1:"]);
+}
+
+/// A control block in a model file, or in a file it includes, is refused naming the file
+/// and line; nothing runs.
+#[test]
+fn control_block_in_an_included_model_file_is_refused() {
+    let t = tech_dir();
+    let inner = write(
+        t.path(),
+        "inner.inc",
+        "* looks like models\n.param x=1\n.control\nshell touch PWNED\n.endc\n",
+    );
+    write(
+        t.path(),
+        "outer.inc",
+        &format!("* wrapper\n.include '{}'\n", inner.display()),
+    );
+    let tech = tech_file(
+        t.path(),
+        &format!("include: [{}]\n", t.path().join("outer.inc").display()),
+        "tt",
+    );
+    let r = generate_with_tech(t.path(), &tech);
+    assert_refused(&r, t.path(), &["inner.inc:3:", ".control"]);
+    // A relative path would tie the deck to this machine's folders.
+    let tech = tech_file(t.path(), "include: [outer.inc]\n", "tt");
+    let r = generate_with_tech(t.path(), &tech);
+    assert_refused(&r, t.path(), &["include[0]", "relative"]);
+}
+
+/// The built-in GF180MCU technology scans its folder too.
+#[test]
+fn control_block_in_the_gf180_folder_is_refused() {
+    let Some(models) = common::model_dir() else {
+        return;
+    };
+    let t = tempfile::tempdir().unwrap();
+    for f in std::fs::read_dir(&models).unwrap() {
+        let f = f.unwrap().path();
+        std::fs::copy(&f, t.path().join(f.file_name().unwrap())).unwrap();
+    }
+    let design = t.path().join("design.ngspice");
+    let mut text = std::fs::read_to_string(&design).unwrap();
+    let line = text.lines().count() + 1;
+    text.push_str(".control\nshell touch PWNED\n.endc\n");
+    std::fs::write(&design, text).unwrap();
+    let spec = write(
+        t.path(),
+        "s.yaml",
+        "name: g4\nwidth: 4\narchitecture: manchester\ntechnology: gf180mcu-3v3\n",
+    );
+    let r = run(bin()
+        .arg("generate")
+        .arg(&spec)
+        .arg("-o")
+        .arg(t.path().join("out"))
+        .arg("--model-dir")
+        .arg(t.path()));
+    assert_refused(
+        &r,
+        t.path(),
+        &[&format!("design.ngspice:{line}:"), "technology"],
+    );
+}
+
+/// describe and check simulate nothing, so they need no model folder; generate does.
+#[test]
+fn describe_and_check_need_no_models() {
+    let t = tempfile::tempdir().unwrap();
+    let spec = write(
+        t.path(),
+        "s.yaml",
+        "name: g8\nwidth: 8\narchitecture: manchester\ntechnology: gf180mcu-3v3\n",
+    );
+    for cmd in ["describe", "check"] {
+        let (code, out, err) = run(bin()
+            .arg(cmd)
+            .arg(&spec)
+            .env_remove("CARRYWRIGHT_MODEL_DIR"));
+        assert_eq!(code, 0, "{cmd}: {out}{err}");
+    }
+    let r = run(bin()
+        .arg("generate")
+        .arg(&spec)
+        .arg("-o")
+        .arg(t.path().join("out"))
+        .env_remove("CARRYWRIGHT_MODEL_DIR"));
+    assert_refused(
+        &r,
+        t.path(),
+        &["s.yaml:4:", "technology", "CARRYWRIGHT_MODEL_DIR"],
+    );
+}
+
+/// A legal period and step that would make ngspice allocate millions of points are refused
+/// naming the key to change.
+#[test]
+fn too_many_transient_points_are_refused() {
+    let t = tempfile::tempdir().unwrap();
+    let spec = write(
+        t.path(),
+        "s.yaml",
+        "name: tp\nwidth: 8\narchitecture: manchester\ntestbench: {period: 1u, step: 0.1p}\n",
+    );
+    let r = run(bin()
+        .arg("generate")
+        .arg(&spec)
+        .arg("-o")
+        .arg(t.path().join("out")));
+    assert_refused(&r, t.path(), &["testbench.step", "transient points"]);
+}
+
+/// The deck states its conditions, runs one thread, caps the internal step separately from
+/// the print step and saves only the vectors it reads.
+#[test]
+fn deck_header_and_simulator_settings() {
+    let (dir, _g, _s) = common::generate(GEN4, None);
+    let deck = std::fs::read_to_string(dir.path().join("out/wr4_tb.sp")).unwrap();
+    for needle in [
+        "corner ",
+        "27 degC",
+        "VDD 3.3 V",
+        "largest internal step 100ps",
+    ] {
+        assert!(deck.contains(needle), "header lacks {needle}");
+    }
+    let thread = deck.find("set num_threads=1").expect("one thread");
+    assert!(thread < deck.find("\nrun\n").unwrap());
+    assert!(deck.contains("circbyline .tran 50p 28n 0 100p"), "{deck}");
+    assert!(deck.contains("circbyline .save v(s0)"));
+}
+
+/// By default the deck prints its measurements, failures and one summary line; every
+/// sample only with `-D cw_samples`.
+#[test]
+fn deck_output_is_short_unless_asked() {
+    if !common::tools(&["ngspice"]) {
+        return;
+    }
+    let (dir, _g, _s) = common::generate(GEN4, None);
+    let out = dir.path().join("out");
+    let deck = out.join("wr4_tb.sp");
+    let (ok, quiet) = common::ngspice_in(&out, &deck, &[]);
+    assert!(ok, "{quiet}");
+    assert!(
+        !quiet.contains("sample ") && !quiet.contains("got ="),
+        "{quiet}"
+    );
+    let pass = quiet.lines().find(|l| l.starts_with("PASS wr4")).unwrap();
+    assert!(
+        pass.contains("tcarry_rise") && pass.contains("power"),
+        "{pass}"
+    );
+    assert!(quiet.lines().count() < 40, "{quiet}");
+    let (ok, loud) = common::ngspice_in(&out, &deck, &["-D", "cw_samples"]);
+    assert!(ok);
+    assert_eq!(common::samples(&loud).len(), 7 * 5, "{loud}");
+}
+
+/// A carry that arrives after its vector's strobe is a failed measurement, not a delay
+/// borrowed from a later vector: a 16-bit unbuffered chain given a period far shorter than
+/// its carry delay must exit 2 naming the measurement.
+#[test]
+fn late_carry_is_a_failed_measurement() {
+    if !common::tools(&["ngspice"]) {
+        return;
+    }
+    let (dir, _g, _s) = common::generate(
+        "name: late16\nwidth: 16\narchitecture: manchester\nblock: 16\ntestbench: {random: 0, period: 500p, step: 10p}\n",
+        None,
+    );
+    let out = dir.path().join("out");
+    let o = Command::new("ngspice")
+        .arg("-b")
+        .arg(out.join("late16_tb.sp"))
+        .output()
+        .unwrap();
+    let log = String::from_utf8_lossy(&o.stdout);
+    assert_eq!(o.status.code(), Some(2), "{log}");
+    assert!(log.contains("FAIL measurement tcarry"), "{log}");
+}
+
+/// The 100 ps cap on the internal step keeps the measured carry delay within 1 % of a run
+/// whose every step is at most 5 ps (the reference).
+#[test]
+fn step_cap_keeps_delays_within_one_percent() {
+    if !common::tools(&["ngspice"]) {
+        return;
+    }
+    let Some(models) = common::model_dir() else {
+        return;
+    };
+    let (dir, _g, _s) = common::generate(
+        "name: acc8\nwidth: 8\narchitecture: manchester\nblock: 4\nbuffers: {every: 4}\ntechnology: gf180mcu-3v3\ntestbench: {random: 0, load: 10f}\n",
+        Some(models),
+    );
+    let out = dir.path().join("out");
+    let deck = out.join("acc8_tb.sp");
+    let text = std::fs::read_to_string(&deck).unwrap();
+    let tran = text
+        .lines()
+        .find(|l| l.starts_with("circbyline .tran "))
+        .unwrap()
+        .to_string();
+    let w: Vec<&str> = tran.split_whitespace().collect();
+    let reference = format!("circbyline .tran 5ps {} 0 5ps", w[3]);
+    let ref_deck = out.join("acc8_ref_tb.sp");
+    std::fs::write(&ref_deck, text.replace(&tran, &reference)).unwrap();
+    let (ok, fast) = common::ngspice_in(&out, &deck, &[]);
+    assert!(ok, "{fast}");
+    let (ok, slow) = common::ngspice_in(&out, &ref_deck, &[]);
+    assert!(ok, "{slow}");
+    let (f, s) = (common::printed(&fast), common::printed(&slow));
+    for key in ["tcarry_rise", "tcarry_fall"] {
+        let (a, b) = (f[key], s[key]);
+        let err = (a - b).abs() / b;
+        eprintln!(
+            "{key}: capped {a:e} s, 5 ps reference {b:e} s, {:.3} %",
+            err * 100.0
+        );
+        assert!(err < 0.01, "{key}: {a} vs {b}");
+    }
+}
