@@ -545,9 +545,11 @@ impl Lock {
         if let Some(sig) = take_pending() {
             return Err(interrupted(sig, shown));
         }
-        eprintln!(
+        // Never panic on a closed or full stderr.
+        let _ = writeln!(
+            std::io::stderr(),
             "waiting for another carrywright writing {}",
-            fs_path(shown).display()
+            crate::spec::shown_path(&fs_path(shown))
         );
         loop {
             // SAFETY: as above; blocks until the other writer is done or a signal comes.
@@ -677,7 +679,7 @@ impl<'a> Steps<'a> {
         let k = self.count.get();
         self.count.set(k + 1);
         if self.stop_at == Some(k) {
-            eprintln!("carrywright: stopped before {step}");
+            let _ = writeln!(std::io::stderr(), "carrywright: stopped before {step}");
             // SAFETY: stops this process until a SIGCONT.
             unsafe {
                 libc::raise(libc::SIGSTOP);
