@@ -104,6 +104,11 @@ fn scan_file(path: &Path) -> Result<Arc<FileScan>, String> {
     Ok(scan)
 }
 
+/// The start of a refused line for a message: at most 24 characters, escaped.
+fn excerpt(s: &str) -> String {
+    s.chars().take(24).flat_map(|c| c.escape_debug()).collect()
+}
+
 fn unquote(w: &str) -> &str {
     w.trim_matches(|c| c == '\'' || c == '"')
 }
@@ -125,15 +130,11 @@ fn scan_text(text: &str) -> Result<FileScan, (usize, String)> {
         let head = words[0].to_ascii_lowercase();
         if first == '.' {
             if !ALLOWED_CARDS.contains(&head.as_str()) {
-                let shown: String = words[0]
-                    .chars()
-                    .take(24)
-                    .flat_map(|c| c.escape_debug())
-                    .collect();
                 return Err((
                     n,
                     format!(
-                        "`{shown}` is not allowed in a model file (only .model, .subckt/.ends, .param, .func, .lib/.endl, .include, .option and .if cards, comments and subcircuit bodies)"
+                        "`{}` is not allowed in a model file (only .model, .subckt/.ends, .param, .func, .lib/.endl, .include, .option and .if cards, comments and subcircuit bodies)",
+                        excerpt(words[0])
                     ),
                 ));
             }
@@ -180,15 +181,11 @@ fn scan_text(text: &str) -> Result<FileScan, (usize, String)> {
         if first.is_ascii_alphabetic() && depth > 0 {
             continue; // an element line inside a subcircuit
         }
-        let shown: String = line
-            .chars()
-            .take(24)
-            .flat_map(|c| c.escape_debug())
-            .collect();
         return Err((
             n,
             format!(
-                "`{shown}` is not something a model file holds (element and command lines belong inside .subckt)"
+                "`{}` is not something a model file holds (element and command lines belong inside .subckt)",
+                excerpt(line)
             ),
         ));
     }
