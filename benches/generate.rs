@@ -227,7 +227,9 @@ fn bench_generate() {
         ),
         (
             "    spice::deck",
-            measure(3, 30, || spice::deck(&spec, &design, &deck, &netlist).unwrap()),
+            measure(3, 30, || {
+                spice::deck(&spec, &design, &deck, &netlist).unwrap()
+            }),
         ),
         (
             "    summary::json",

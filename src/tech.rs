@@ -224,7 +224,7 @@ fn model_dir(opts: &LoadOptions, tech: &str, env: &str, what: &str) -> Result<Pa
     let abs = dir.canonicalize().map_err(|e| {
         Error::Input(format!(
             "model folder {}: {e} (give it with --model-dir DIR or {env}=DIR)",
-            dir.display()
+            crate::spec::shown_path(&dir)
         ))
     })?;
     let text = abs.to_string_lossy().to_string();
@@ -646,9 +646,8 @@ struct RawLib {
 /// Load a technology YAML file. Paths may start with `${MODEL_DIR}/` (the model folder) or
 /// be relative to the technology file.
 pub fn load_file(path: &Path, opts: &LoadOptions) -> Result<Technology> {
-    let label = path.display().to_string();
-    let text = std::fs::read_to_string(path)
-        .map_err(|e| Error::Input(format!("{label}: cannot read the technology file: {e}")))?;
+    let label = crate::spec::shown_path(path);
+    let text = crate::spec::read_source(path, "technology file")?;
     let src = Source {
         label: &label,
         text: &text,
@@ -678,7 +677,13 @@ pub fn load_file(path: &Path, opts: &LoadOptions) -> Result<Technology> {
         Some(v) => {
             let s = crate::spec::parse_quantity(v, 's').map_err(|m| src.error("step", m))?;
             if !(0.1e-12..=1e-9).contains(&s) {
-                return Err(src.error("step", "must be between 0.1p and 1n"));
+                return Err(src.error(
+                    "step",
+                    format!(
+                        "must be between 0.1p and 1n, got {}",
+                        crate::spec::fmt_si(s, 's')
+                    ),
+                ));
             }
             s
         }

@@ -445,8 +445,11 @@ pub fn deck(spec: &Spec, design: &Design, plan: &DeckPlan, netlist: &str) -> Res
     // breakpoint can make ngspice miss the crossing.
     let rise_td = (WORST_CASE_RISE as f64 - 0.05) * t;
     let fall_td = (WORST_CASE_FALL as f64 - 0.05) * t;
-    // A delay that ends past its vector's strobe belongs to no vector the deck checks.
-    let window = (plan.strobe + 0.05) * t;
+    // A delay that ends past its vector's strobe belongs to no vector the deck checks: the
+    // window runs from the trigger (inputs change at the period's start, clk rises at its
+    // middle) to the strobe.
+    let trigger_at = if dynamic { t / 2.0 } else { change };
+    let window = plan.strobe * t - trigger_at;
     // Only what the control block reads is kept: outputs, the measured input, the supply.
     let mut save = vec![".save".to_string()];
     save.extend(outputs.iter().map(|o| format!("v({o})")));

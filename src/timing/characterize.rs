@@ -335,19 +335,27 @@ pub fn characterize(t: &Technology) -> Result<Characterized> {
     let models = local_model_lines(t)?;
     let b = bench(t, &models);
     let deck = deck_text(t, &b);
-    let dir = tempfile::tempdir()
-        .map_err(|e| Error::Output(format!("characterize: temporary folder: {e}")))?;
-    let path = dir.path().join("characterize.sp");
-    std::fs::write(&path, &deck)
-        .map_err(|e| Error::Output(format!("characterize: {}: {e}", path.display())))?;
+    // The netlist goes to ngspice on its standard input: no file is written, and ngspice
+    // runs in the system's temporary folder so it reads nothing from the user's.
     let cpu_before = children_cpu();
-    let out = std::process::Command::new("ngspice")
+    let mut child = std::process::Command::new("ngspice")
         .arg("-b")
-        .arg(&path)
-        .current_dir(dir.path())
+        .current_dir(std::env::temp_dir())
         .env("OMP_NUM_THREADS", "1")
-        .output()
+        .stdin(std::process::Stdio::piped())
+        .stdout(std::process::Stdio::piped())
+        .stderr(std::process::Stdio::piped())
+        .spawn()
         .map_err(|e| Error::Check(format!("characterize: cannot run ngspice: {e}")))?;
+    let mut stdin = child.stdin.take().expect("piped stdin");
+    let feeder = std::thread::spawn(move || {
+        use std::io::Write;
+        let _ = stdin.write_all(deck.as_bytes());
+    });
+    let out = child
+        .wait_with_output()
+        .map_err(|e| Error::Check(format!("characterize: ngspice: {e}")))?;
+    let _ = feeder.join();
     let stdout = String::from_utf8_lossy(&out.stdout);
     let mut got: BTreeMap<String, f64> = BTreeMap::new();
     let cpu = match (cpu_before, children_cpu()) {
