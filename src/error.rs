@@ -1,4 +1,5 @@
-//! Errors and their exit codes: 2 for bad input or usage, 1 for a failed check.
+//! Errors and their exit codes: 2 for bad input or usage, 1 for a failed check, 128 + signal
+//! for a write stopped by a signal.
 
 use std::fmt;
 
@@ -11,6 +12,8 @@ pub enum Error {
     Check(String),
     /// Writing the outputs failed (exit code 2: the destination is unusable).
     Output(String),
+    /// A write stopped by this signal number, nothing changed (exit code 128 + signal).
+    Interrupted(i32, String),
 }
 
 impl Error {
@@ -18,11 +21,12 @@ impl Error {
         match self {
             Error::Check(_) => 1,
             Error::Input(_) | Error::Output(_) => 2,
+            Error::Interrupted(sig, _) => 128 + sig,
         }
     }
     pub fn message(&self) -> &str {
         match self {
-            Error::Input(m) | Error::Check(m) | Error::Output(m) => m,
+            Error::Input(m) | Error::Check(m) | Error::Output(m) | Error::Interrupted(_, m) => m,
         }
     }
 }

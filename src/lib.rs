@@ -13,6 +13,7 @@ pub mod emit;
 pub mod error;
 pub mod models;
 pub mod netlist;
+pub mod output;
 pub mod ratio;
 pub mod sim;
 pub mod spec;
@@ -21,8 +22,8 @@ pub mod timing;
 
 use error::{Error, Result};
 use netlist::Design;
+pub use output::{stale_files, write_file, write_outputs};
 use spec::Spec;
-use std::path::Path;
 
 /// Random vectors the logic check runs inside `generate` (the `check` command runs more).
 pub const GENERATE_RANDOM: usize = 16_384;
@@ -34,7 +35,15 @@ pub fn build(spec: &Spec) -> Result<Design> {
     let design = arch::build(spec);
     check_sizes(spec, &design)?;
     check_name_is_free(spec, &design)?;
-    design.check()?;
+    if let Err(e) = design.check() {
+        // A dynamic chain too long for its keeper is a spec problem (exit 2), not a fault.
+        if matches!(&e, Error::Check(m) if m.starts_with(ratio::RULE_FAILS)) {
+            if let Some(input) = ratio::length_error(spec, &design) {
+                return Err(input);
+            }
+        }
+        return Err(e);
+    }
     Ok(design)
 }
 
@@ -125,69 +134,4 @@ pub fn generate(spec: &Spec) -> Result<Generated> {
         counts,
         files,
     })
-}
-
-/// Write files into `dir` as a whole: everything goes to a temporary folder beside it first,
-/// then is renamed into place, so a failure never leaves half the files written.
-pub fn write_outputs(dir: &Path, files: &[(String, String)]) -> Result<()> {
-    let out_err = |what: &str, p: &Path, e: std::io::Error| {
-        Error::Output(format!("{what} {}: {e}", p.display()))
-    };
-    if dir.exists() && !dir.is_dir() {
-        return Err(Error::Output(format!(
-            "{} exists and is not a folder",
-            dir.display()
-        )));
-    }
-    let parent = match dir.parent() {
-        Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
-        _ => Path::new(".").to_path_buf(),
-    };
-    std::fs::create_dir_all(&parent).map_err(|e| out_err("cannot create", &parent, e))?;
-    let tmp = tempfile::Builder::new()
-        .prefix(".carrywright-")
-        .tempdir_in(&parent)
-        .map_err(|e| out_err("cannot create a temporary folder in", &parent, e))?;
-    for (name, text) in files {
-        let p = tmp.path().join(name);
-        std::fs::write(&p, text).map_err(|e| out_err("cannot write", &p, e))?;
-    }
-    if !dir.exists() {
-        let t = tmp.keep();
-        std::fs::rename(&t, dir).map_err(|e| out_err("cannot move the outputs to", dir, e))?;
-    } else {
-        for (name, _) in files {
-            let (from, to) = (tmp.path().join(name), dir.join(name));
-            std::fs::rename(&from, &to).map_err(|e| out_err("cannot replace", &to, e))?;
-        }
-    }
-    Ok(())
-}
-
-/// Write one file whole: to a temporary file beside it, then renamed into place.
-pub fn write_file(path: &Path, text: &str) -> Result<()> {
-    let parent = match path.parent() {
-        Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
-        _ => Path::new(".").to_path_buf(),
-    };
-    std::fs::create_dir_all(&parent)
-        .map_err(|e| Error::Output(format!("cannot create {}: {e}", parent.display())))?;
-    let mut tmp = tempfile::NamedTempFile::new_in(&parent)
-        .map_err(|e| Error::Output(format!("cannot write in {}: {e}", parent.display())))?;
-    std::io::Write::write_all(&mut tmp, text.as_bytes())
-        .map_err(|e| Error::Output(format!("cannot write {}: {e}", path.display())))?;
-    tmp.persist(path)
-        .map_err(|e| Error::Output(format!("cannot write {}: {e}", path.display())))?;
-    Ok(())
-}
-
-/// Files in `dir` that differ from (or are missing against) what would be generated.
-pub fn stale_files(dir: &Path, files: &[(String, String)]) -> Vec<String> {
-    files
-        .iter()
-        .filter(|(name, text)| {
-            std::fs::read_to_string(dir.join(name)).ok().as_deref() != Some(text)
-        })
-        .map(|(name, _)| name.clone())
-        .collect()
 }

@@ -1,27 +1,40 @@
 //! The `carrywright` command line: a thin layer over the library.
+//!
+//! Every failure is one `error: ` line on stderr (control characters escaped) and exit code 2
+//! (bad input or usage) or 1 (a failed check); a closed or full stdout or stderr never panics.
 
 use carrywright::error::{Error, Result};
-use carrywright::spec::{self, LoadOptions};
+use carrywright::spec::{self, escape_controls, shown_path, LoadOptions, Spec};
 use carrywright::{emit, sim};
 use clap::{Parser, Subcommand};
-use std::path::PathBuf;
+use std::io::Write;
+use std::path::{Path, PathBuf};
 use std::process::ExitCode;
+
+/// Most random vectors `check --random` accepts (about a minute of checking on a 128-bit
+/// design in a release build).
+const RANDOM_MAX: u64 = 100_000_000;
 
 /// Generate verified adder netlists (structural Verilog and transistor-level SPICE, each
 /// with a testbench) from a short YAML spec.
 #[derive(Parser)]
 #[command(name = "carrywright", version, about, long_about = None)]
 struct Cli {
+    /// Print nothing but errors.
+    #[arg(short, long, global = true)]
+    quiet: bool,
     #[command(subcommand)]
     command: Command,
 }
 
 #[derive(Subcommand)]
 enum Command {
-    /// Build, check and write NAME.v, NAME_tb.v, NAME.sp, NAME_tb.sp and NAME.json into DIR.
+    /// Build, check and write NAME.v, NAME_tb.v, NAME.sp, NAME_tb.sp and NAME.json into DIR
+    /// (with several specs: into DIR/NAME/ for each).
     Generate {
-        /// The adder spec (YAML).
-        spec: PathBuf,
+        /// The adder specs (YAML; `-` reads one from standard input).
+        #[arg(required = true, value_name = "SPEC")]
+        specs: Vec<PathBuf>,
         /// Output folder (created if missing; files are replaced as a whole).
         #[arg(short, long, value_name = "DIR")]
         out: PathBuf,
@@ -35,11 +48,14 @@ enum Command {
     /// Print what a spec builds (counts by cell kind, logic depth, prefix-graph figures) and
     /// optionally draw its carry structure as SVG.
     Describe {
-        /// The adder spec (YAML).
+        /// The adder spec (YAML; `-` reads it from standard input).
         spec: PathBuf,
         /// Write an SVG drawing of the carry structure here.
         #[arg(long, value_name = "FILE")]
         svg: Option<PathBuf>,
+        /// Print one JSON object instead of the table.
+        #[arg(long)]
+        json: bool,
         /// Folder holding the GF180MCU ngspice models (else $CARRYWRIGHT_MODEL_DIR).
         #[arg(long, value_name = "DIR")]
         model_dir: Option<PathBuf>,
@@ -60,11 +76,14 @@ enum Command {
     /// Build the netlist, run its structural checks and a bit-parallel logic check against
     /// native integer addition (exhaustive up to 12 bits, else directed plus random vectors).
     Check {
-        /// The adder spec (YAML).
+        /// The adder spec (YAML; `-` reads it from standard input).
         spec: PathBuf,
-        /// Random vectors above 12 bits (at least 100000).
-        #[arg(long, default_value_t = sim::RANDOM_MIN, value_name = "N")]
-        random: usize,
+        /// Random vectors above 12 bits (100000 to 100000000).
+        #[arg(long, default_value_t = sim::RANDOM_MIN as u64, value_name = "N", value_parser = parse_random)]
+        random: u64,
+        /// Print one JSON object instead of the table.
+        #[arg(long)]
+        json: bool,
         /// Folder holding the GF180MCU ngspice models (else $CARRYWRIGHT_MODEL_DIR).
         #[arg(long, value_name = "DIR")]
         model_dir: Option<PathBuf>,
@@ -93,66 +112,76 @@ enum Command {
     },
 }
 
-/// Print to stdout, ignoring a closed pipe (`carrywright check x | head`).
-macro_rules! say {
-    ($($t:tt)*) => {{
-        use std::io::Write;
-        let _ = writeln!(std::io::stdout(), $($t)*);
-    }};
+/// `--random N`: a whole number between the check's minimum and [`RANDOM_MAX`].
+fn parse_random(text: &str) -> std::result::Result<u64, String> {
+    let lo = sim::RANDOM_MIN as u64;
+    let range = format!("expected a whole number of vectors from {lo} to {RANDOM_MAX}");
+    match text.trim().parse::<u64>() {
+        Ok(n) if (lo..=RANDOM_MAX).contains(&n) => Ok(n),
+        Ok(n) => Err(format!("{range}, got {n}")),
+        Err(_) => Err(range),
+    }
+}
+
+/// Where normal output goes: stdout, or nowhere with `--quiet`. Write errors (a closed pipe,
+/// a full disk) are ignored: the exit code reports the work, not the terminal.
+struct Out {
+    quiet: bool,
+}
+
+impl Out {
+    fn line(&self, text: impl std::fmt::Display) {
+        if !self.quiet {
+            let _ = writeln!(std::io::stdout(), "{text}");
+        }
+    }
+}
+
+/// One `error: ` line on stderr; a closed or full stderr is ignored.
+fn say_error(msg: &str) {
+    let _ = writeln!(std::io::stderr(), "error: {}", escape_controls(msg));
+}
+
+/// Load a spec from a file, or from standard input for `-` (a relative technology path then
+/// resolves from the current folder).
+fn load_spec(path: &Path, opts: &LoadOptions) -> Result<Spec> {
+    if path.as_os_str() == "-" {
+        let text = spec::read_stdin("spec")?;
+        spec::parse(&text, spec::STDIN_LABEL, Path::new("."), opts)
+    } else {
+        spec::load(path, opts)
+    }
 }
 
 fn run(cli: Cli) -> Result<ExitCode> {
+    let out = Out { quiet: cli.quiet };
     match cli.command {
         Command::Generate {
-            spec,
-            out,
+            specs,
+            out: dir,
             check,
             model_dir,
-        } => {
-            let s = spec::load(&spec, &LoadOptions { model_dir })?;
-            let g = carrywright::generate(&s)?;
-            if check {
-                let stale = carrywright::stale_files(&out, &g.files);
-                if stale.is_empty() {
-                    say!("{}: up to date ({} files)", out.display(), g.files.len());
-                    return Ok(ExitCode::SUCCESS);
-                }
-                say!("{}: stale: {}", out.display(), stale.join(" "));
-                return Ok(ExitCode::from(1));
-            }
-            carrywright::write_outputs(&out, &g.files)?;
-            let c = &g.counts;
-            say!("{}: {}", s.name, emit::title(&s));
-            say!(
-                "  {} transistors, {} cells; logic check passed on {} vectors{}",
-                c.transistors,
-                c.cells,
-                g.check.vectors,
-                if g.check.exhaustive {
-                    " (exhaustive)"
-                } else {
-                    ""
-                }
-            );
-            for (name, _) in &g.files {
-                say!("  wrote {}", out.join(name).display());
-            }
-            Ok(ExitCode::SUCCESS)
-        }
+        } => generate(&out, &specs, &dir, check, LoadOptions { model_dir }),
         Command::Describe {
             spec,
             svg,
+            json,
             model_dir,
         } => {
-            let s = spec::load(&spec, &LoadOptions { model_dir })?;
+            let s = load_spec(&spec, &LoadOptions { model_dir })?;
             let design = carrywright::build(&s)?;
-            if let Some(path) = svg {
+            // The drawing is written first, so a failure prints nothing on stdout.
+            if let Some(path) = &svg {
                 let text = emit::report::svg(&s, &design)?;
-                carrywright::write_file(&path, &text)?;
-                say!("{}", emit::report::table(&s, &design).trim_end());
-                say!("  wrote {}", path.display());
+                carrywright::write_file(path, &text)?;
+            }
+            if json {
+                out.line(describe_json(&s, &design));
             } else {
-                say!("{}", emit::report::table(&s, &design).trim_end());
+                out.line(emit::report::table(&s, &design).trim_end());
+                if let Some(path) = &svg {
+                    out.line(format!("  wrote {}", shown_path(path)));
+                }
             }
             Ok(ExitCode::SUCCESS)
         }
@@ -173,28 +202,14 @@ fn run(cli: Cli) -> Result<ExitCode> {
         Command::Check {
             spec,
             random,
+            json,
             model_dir,
         } => {
-            if random < sim::RANDOM_MIN {
-                return Err(Error::Input(format!(
-                    "--random: at least {} vectors, got {random}",
-                    sim::RANDOM_MIN
-                )));
-            }
-            let s = spec::load(&spec, &LoadOptions { model_dir })?;
+            let s = load_spec(&spec, &LoadOptions { model_dir })?;
             let design = carrywright::build(&s)?;
             let c = emit::summary::counts(&design);
-            say!("{}: {}", s.name, emit::title(&s));
-            say!("  {:<12} {:>12}", "transistors", c.transistors);
-            say!("  {:<12} {:>12}", "cells", c.cells);
-            for (k, n) in &c.cells_by_kind {
-                say!("    {:<10} {:>12}", k, n);
-            }
-            say!(
-                "  {:<12} {:>12}   one driver per net, no floating input, ratio rule",
-                "structure",
-                "ok"
-            );
+            let random = usize::try_from(random)
+                .map_err(|_| Error::Input(format!("--random: {random} is too many here")))?;
             let r = sim::check(&design, s.testbench.seed, random, sim::EXHAUSTIVE_MAX)?;
             let how = if r.exhaustive {
                 "exhaustive".to_string()
@@ -206,25 +221,58 @@ fn run(cli: Cli) -> Result<ExitCode> {
             } else {
                 ""
             };
-            if r.mismatches == 0 {
-                say!(
-                    "  {:<12} {:>12}   {} vectors ({how}{phases}) against a + b + cin",
-                    "logic",
-                    "ok",
-                    r.vectors
-                );
-                Ok(ExitCode::SUCCESS)
+            if json {
+                out.line(serde_json::json!({
+                    "name": s.name,
+                    "title": emit::title(&s),
+                    "transistors": c.transistors,
+                    "cells": c.cells,
+                    "cells_by_kind": c.cells_by_kind,
+                    "structure": "ok",
+                    "logic": {
+                        "ok": r.mismatches == 0,
+                        "vectors": r.vectors,
+                        "exhaustive": r.exhaustive,
+                        "seed": s.testbench.seed,
+                        "precharge_checked": r.precharge_checked,
+                        "mismatches": r.mismatches,
+                        "first_mismatch": r.first_mismatch,
+                    },
+                }));
             } else {
-                say!(
-                    "  {:<12} {:>12}   {} wrong output bits over {} vectors; first: {}",
-                    "logic",
-                    "FAILED",
-                    r.mismatches,
-                    r.vectors,
-                    r.first_mismatch.unwrap_or_default()
-                );
-                Ok(ExitCode::from(1))
+                out.line(format!("{}: {}", s.name, emit::title(&s)));
+                out.line(format!("  {:<12} {:>12}", "transistors", c.transistors));
+                out.line(format!("  {:<12} {:>12}", "cells", c.cells));
+                for (k, n) in &c.cells_by_kind {
+                    out.line(format!("    {:<10} {:>12}", k, n));
+                }
+                out.line(format!(
+                    "  {:<12} {:>12}   one driver per net, no floating input, ratio rule",
+                    "structure", "ok"
+                ));
             }
+            if r.mismatches == 0 {
+                if !json {
+                    out.line(format!(
+                        "  {:<12} {:>12}   {} vectors ({how}{phases}) against a + b + cin",
+                        "logic", "ok", r.vectors
+                    ));
+                }
+                return Ok(ExitCode::SUCCESS);
+            }
+            let failed = format!(
+                "{} wrong output bits over {} vectors; first: {}",
+                r.mismatches,
+                r.vectors,
+                r.first_mismatch.unwrap_or_default()
+            );
+            if !json {
+                out.line(format!("  {:<12} {:>12}   {failed}", "logic", "FAILED"));
+            }
+            if cli.quiet {
+                say_error(&format!("{}: logic check failed: {failed}", s.name));
+            }
+            Ok(ExitCode::from(1))
         }
         Command::Characterize {
             technology,
@@ -232,7 +280,7 @@ fn run(cli: Cli) -> Result<ExitCode> {
             temp,
             vdd,
             model_dir,
-            out,
+            out: file,
         } => {
             let r = carrywright::timing::characterize::run(
                 &carrywright::timing::characterize::Options {
@@ -241,25 +289,168 @@ fn run(cli: Cli) -> Result<ExitCode> {
                     temp,
                     vdd,
                     model_dir,
-                    out: out.clone(),
+                    out: file.clone(),
                 },
             )?;
             let cpu = r
                 .ngspice_cpu_s
                 .map(|c| format!("{c:.1} s"))
                 .unwrap_or_else(|| "not reported".into());
-            say!("wrote {} (ngspice CPU {cpu})", out.display());
+            out.line(format!("wrote {} (ngspice CPU {cpu})", file.display()));
             Ok(ExitCode::SUCCESS)
         }
     }
 }
 
+/// `describe --json`: the facts of the table as one object.
+fn describe_json(s: &Spec, design: &carrywright::netlist::Design) -> String {
+    let c = emit::summary::counts(design);
+    serde_json::json!({
+        "name": s.name,
+        "title": emit::title(s),
+        "width": s.width,
+        "architecture": s.architecture,
+        "style": s.style,
+        "counts": c,
+        "block_rule": s.block_rule,
+        "block": s.block,
+        "block_sizes": s.block_sizes,
+        "buffers": s.buffers.positions,
+        "prefix": design.prefix,
+    })
+    .to_string()
+}
+
+/// `generate`: every spec is loaded, validated, built and checked in memory before anything
+/// is written, so one bad spec leaves every output folder untouched.
+fn generate(
+    out: &Out,
+    specs: &[PathBuf],
+    dir: &Path,
+    check: bool,
+    opts: LoadOptions,
+) -> Result<ExitCode> {
+    if specs.iter().filter(|p| p.as_os_str() == "-").count() > 1 {
+        return Err(Error::Input(
+            "standard input (`-`) can be given only once".into(),
+        ));
+    }
+    let mut loaded: Vec<(Spec, &PathBuf)> = Vec::new();
+    for p in specs {
+        let s = load_spec(p, &opts)?;
+        if let Some((_, first)) = loaded.iter().find(|(o, _)| o.name == s.name) {
+            return Err(Error::Input(format!(
+                "{} and {} are both named `{}`; each spec written in one run needs its own name",
+                shown_path(first),
+                shown_path(p),
+                s.name
+            )));
+        }
+        loaded.push((s, p));
+    }
+    let several = loaded.len() > 1;
+    let mut jobs = Vec::new();
+    for (s, _) in loaded {
+        let g = carrywright::generate(&s)?;
+        let into = if several {
+            dir.join(&s.name)
+        } else {
+            dir.to_path_buf()
+        };
+        jobs.push((s, g, into));
+    }
+    if check {
+        let mut stale = Vec::new();
+        let mut total = 0;
+        for (s, g, into) in &jobs {
+            total += g.files.len();
+            for f in carrywright::stale_files(into, &g.files)? {
+                stale.push(if several {
+                    format!("{}/{f}", s.name)
+                } else {
+                    f
+                });
+            }
+        }
+        if stale.is_empty() {
+            out.line(format!("{}: up to date ({total} files)", shown_path(dir)));
+            return Ok(ExitCode::SUCCESS);
+        }
+        let line = format!("{}: stale: {}", shown_path(dir), stale.join(" "));
+        if out.quiet {
+            say_error(&line);
+        }
+        out.line(line);
+        return Ok(ExitCode::from(1));
+    }
+    for (_, g, into) in &jobs {
+        carrywright::write_outputs(into, &g.files)?;
+    }
+    for (s, g, into) in &jobs {
+        let c = &g.counts;
+        out.line(format!("{}: {}", s.name, emit::title(s)));
+        out.line(format!(
+            "  {} transistors, {} cells; logic check passed on {} vectors{}",
+            c.transistors,
+            c.cells,
+            g.check.vectors,
+            if g.check.exhaustive {
+                " (exhaustive)"
+            } else {
+                ""
+            }
+        ));
+        for (name, _) in &g.files {
+            out.line(format!("  wrote {}", shown_path(&into.join(name))));
+        }
+    }
+    Ok(ExitCode::SUCCESS)
+}
+
+/// A command-line error as one line: the first paragraph of clap's message with its lines
+/// joined. Values echoed by clap are shown with control characters escaped (the arguments
+/// are parsed again with them escaped, to get the same message about printable text).
+fn usage_error(e: &clap::Error, args: &[std::ffi::OsString]) -> String {
+    let escaped: Vec<String> = args
+        .iter()
+        .map(|a| escape_controls(&a.to_string_lossy()))
+        .collect();
+    let text = match Cli::try_parse_from(&escaped) {
+        Err(again) if again.kind() == e.kind() => again.render().to_string(),
+        _ => e.render().to_string(),
+    };
+    let text = text.trim_start_matches("error: ");
+    let first = text.split("\n\n").next().unwrap_or(text);
+    let joined: Vec<&str> = first
+        .lines()
+        .map(str::trim)
+        .filter(|l| !l.is_empty())
+        .collect();
+    joined.join(" ")
+}
+
 fn main() -> ExitCode {
-    let cli = Cli::parse();
+    let args: Vec<std::ffi::OsString> = std::env::args_os().collect();
+    let cli = match Cli::try_parse_from(&args) {
+        Ok(cli) => cli,
+        Err(e) => {
+            use clap::error::ErrorKind;
+            if matches!(e.kind(), ErrorKind::DisplayHelp | ErrorKind::DisplayVersion) {
+                let _ = e.print();
+                return ExitCode::SUCCESS;
+            }
+            if e.kind() == ErrorKind::DisplayHelpOnMissingArgumentOrSubcommand {
+                say_error("no command given: use generate, describe or check (see --help)");
+            } else {
+                say_error(&usage_error(&e, &args));
+            }
+            return ExitCode::from(2);
+        }
+    };
     match run(cli) {
         Ok(code) => code,
         Err(e) => {
-            eprintln!("error: {e}");
+            say_error(e.message());
             ExitCode::from(e.exit_code() as u8)
         }
     }

@@ -94,13 +94,19 @@ fn scan_file(path: &Path) -> Result<Arc<FileScan>, String> {
     }
     let bytes = std::fs::read(path).map_err(|e| format!("{}: {e}", show(path)))?;
     let text = String::from_utf8_lossy(&bytes);
-    let scan = Arc::new(scan_text(&text).map_err(|(line, why)| {
-        format!("model file {}:{line}: {why}", show(path))
-    })?);
+    let scan = Arc::new(
+        scan_text(&text)
+            .map_err(|(line, why)| format!("model file {}:{line}: {why}", show(path)))?,
+    );
     if let Ok(mut c) = cache().lock() {
         c.insert(key, scan.clone());
     }
     Ok(scan)
+}
+
+/// The start of a refused line for a message: at most 24 characters, escaped.
+fn excerpt(s: &str) -> String {
+    s.chars().take(24).flat_map(|c| c.escape_debug()).collect()
 }
 
 fn unquote(w: &str) -> &str {
@@ -124,11 +130,11 @@ fn scan_text(text: &str) -> Result<FileScan, (usize, String)> {
         let head = words[0].to_ascii_lowercase();
         if first == '.' {
             if !ALLOWED_CARDS.contains(&head.as_str()) {
-                let shown: String = words[0].chars().take(24).flat_map(|c| c.escape_debug()).collect();
                 return Err((
                     n,
                     format!(
-                        "`{shown}` is not allowed in a model file (only .model, .subckt/.ends, .param, .func, .lib/.endl, .include, .option and .if cards, comments and subcircuit bodies)"
+                        "`{}` is not allowed in a model file (only .model, .subckt/.ends, .param, .func, .lib/.endl, .include, .option and .if cards, comments and subcircuit bodies)",
+                        excerpt(words[0])
                     ),
                 ));
             }
@@ -145,7 +151,9 @@ fn scan_text(text: &str) -> Result<FileScan, (usize, String)> {
                         let name = name.to_ascii_lowercase();
                         // Binned models: NAME.0, NAME.1, ... are all NAME to the netlist.
                         let base = match name.rsplit_once('.') {
-                            Some((b, bin)) if !bin.is_empty() && bin.bytes().all(|c| c.is_ascii_digit()) => {
+                            Some((b, bin))
+                                if !bin.is_empty() && bin.bytes().all(|c| c.is_ascii_digit()) =>
+                            {
                                 b.to_string()
                             }
                             _ => name.clone(),
@@ -173,11 +181,11 @@ fn scan_text(text: &str) -> Result<FileScan, (usize, String)> {
         if first.is_ascii_alphabetic() && depth > 0 {
             continue; // an element line inside a subcircuit
         }
-        let shown: String = line.chars().take(24).flat_map(|c| c.escape_debug()).collect();
         return Err((
             n,
             format!(
-                "`{shown}` is not something a model file holds (element and command lines belong inside .subckt)"
+                "`{}` is not something a model file holds (element and command lines belong inside .subckt)",
+                excerpt(line)
             ),
         ));
     }

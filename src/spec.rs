@@ -149,6 +149,8 @@ pub struct Spec {
     pub technology: Technology,
     pub sizing: Sizing,
     pub testbench: Testbench,
+    /// The spec's label and text, to locate keys in errors found after validation.
+    pub source: Option<(String, String)>,
 }
 
 pub const MAX_WIDTH: usize = 128;
@@ -179,10 +181,65 @@ struct RawSpec {
 #[derive(Deserialize, Default)]
 #[serde(deny_unknown_fields)]
 struct RawSizing {
-    unit_n: Option<f64>,
-    pn_ratio: Option<f64>,
-    keeper: Option<f64>,
-    buffer: Option<f64>,
+    unit_n: Option<Written>,
+    pn_ratio: Option<Written>,
+    keeper: Option<Written>,
+    buffer: Option<Written>,
+}
+
+/// A number or quantity as written in the spec. Kept as text so that a value the machine
+/// cannot hold (`1e-400` would become 0, `1e400` infinity) is refused, not silently changed.
+#[derive(Debug, Clone)]
+struct Written(String);
+
+impl<'de> Deserialize<'de> for Written {
+    fn deserialize<D: serde::Deserializer<'de>>(d: D) -> std::result::Result<Self, D::Error> {
+        struct V;
+        impl serde::de::Visitor<'_> for V {
+            type Value = Written;
+            fn expecting(&self, f: &mut std::fmt::Formatter) -> std::fmt::Result {
+                f.write_str("a number")
+            }
+            fn visit_str<E: serde::de::Error>(self, v: &str) -> std::result::Result<Written, E> {
+                Ok(Written(v.to_string()))
+            }
+            fn visit_f64<E: serde::de::Error>(self, v: f64) -> std::result::Result<Written, E> {
+                Ok(Written(format!("{v:e}")))
+            }
+            fn visit_i64<E: serde::de::Error>(self, v: i64) -> std::result::Result<Written, E> {
+                Ok(Written(v.to_string()))
+            }
+            fn visit_u64<E: serde::de::Error>(self, v: u64) -> std::result::Result<Written, E> {
+                Ok(Written(v.to_string()))
+            }
+        }
+        d.deserialize_str(V)
+    }
+}
+
+/// Read a plain number as written, refusing one that does not survive as an `f64`.
+fn read_number(text: &str) -> std::result::Result<f64, String> {
+    let t = text.trim();
+    match t.parse::<f64>() {
+        Ok(x) if !x.is_finite() => Err(format!("`{}` is not a finite number", printable(t))),
+        Ok(x) => {
+            check_no_underflow(t, x)?;
+            Ok(x)
+        }
+        Err(_) => Err(format!("`{}` is not a number", printable(t))),
+    }
+}
+
+/// A written number with a non-zero digit must not have become 0.
+fn check_no_underflow(text: &str, x: f64) -> std::result::Result<(), String> {
+    let mantissa = text.split(['e', 'E']).next().unwrap_or(text);
+    if x == 0.0 && mantissa.chars().any(|c| ('1'..='9').contains(&c)) {
+        return Err(format!(
+            "`{}` is too small to represent (it would become 0); write 0 if you mean 0",
+            printable(text)
+        ));
+    }
+    Ok(())
 }
 
 #[derive(Deserialize, Default)]
@@ -190,9 +247,9 @@ struct RawSizing {
 struct RawTestbench {
     random: Option<i64>,
     seed: Option<u64>,
-    load: Option<serde_yaml::Value>,
-    period: Option<serde_yaml::Value>,
-    step: Option<serde_yaml::Value>,
+    load: Option<Written>,
+    period: Option<Written>,
+    step: Option<Written>,
 }
 
 #[derive(Deserialize)]
@@ -244,9 +301,26 @@ impl Source<'_> {
     }
 
     /// Deserialize with serde, turning its error into one line with key path and position.
+    /// The text is first checked for nesting depth and aliases (refused before the YAML
+    /// parser sees them); when serde fails, the text is parsed once more without types to
+    /// tell a syntax error from a type error.
     pub fn parse<T: serde::de::DeserializeOwned>(&self) -> Result<T> {
         if self.text.trim().is_empty() {
             return Err(Error::Input(format!("{}: the file is empty", self.label)));
+        }
+        let scan = scan_nesting(self.text);
+        if let Some((l, c)) = scan.too_deep {
+            return Err(Error::Input(format!(
+                "{}:{l}:{c}: mappings and sequences are nested deeper than {MAX_DEPTH} levels here",
+                self.label
+            )));
+        }
+        if let Some((l, c)) = scan.alias {
+            // Aliases can expand exponentially (a few lines become gigabytes); no spec needs one.
+            return Err(Error::Input(format!(
+                "{}:{l}:{c}: aliases (`*name`) are not accepted; write the value out",
+                self.label
+            )));
         }
         let de = serde_yaml::Deserializer::from_str(self.text);
         serde_path_to_error::deserialize(de).map_err(|e| {
@@ -257,9 +331,19 @@ impl Source<'_> {
                 .flat_map(|c| c.escape_debug())
                 .collect();
             let inner = e.into_inner();
-            let msg = clean_serde_message(&inner.to_string(), &path);
-            let shown = if path == "." || path.is_empty() {
-                "spec".to_string()
+            let raw = inner.to_string();
+            let parent = if path == "." { "" } else { path.as_str() };
+            if let Some(key) = duplicate_key_name(&raw) {
+                return self.duplicate_error(parent, &key);
+            }
+            // A syntax error is reported as one, not under the key serde was reading.
+            let plain = serde_yaml::Deserializer::from_str(self.text);
+            if let Err(syntax) = serde::de::IgnoredAny::deserialize(plain) {
+                return self.syntax_error(&syntax, &scan);
+            }
+            let msg = clean_serde_message(&raw, &path);
+            let shown = if parent.is_empty() {
+                "top level".to_string()
             } else {
                 path
             };
@@ -275,6 +359,271 @@ impl Source<'_> {
                 None => Error::Input(format!("{}: {}: {}", self.label, shown, msg)),
             }
         })
+    }
+
+    /// A YAML syntax error: where it is, the key written on that line if any, and for a
+    /// bracket left open, where it was opened.
+    fn syntax_error(&self, e: &serde_yaml::Error, scan: &Nesting) -> Error {
+        let key_at = |line: usize| {
+            self.text
+                .lines()
+                .nth(line.saturating_sub(1))
+                .and_then(key_on_line)
+                .map(|k| format!("{k}: "))
+                .unwrap_or_default()
+        };
+        let raw = e.to_string();
+        let mut msg = clean_serde_message(&raw, "");
+        if let (Some((l, c, ch)), true) = (scan.unclosed, msg.contains("did not find expected")) {
+            return Error::Input(format!(
+                "{}:{l}:{c}: {}syntax error: this `{ch}` is never closed",
+                self.label,
+                key_at(l)
+            ));
+        }
+        // Errors of the YAML reader (control characters, bad encoding) give a byte offset.
+        let mut at = e.location().map(|loc| (loc.line(), loc.column()));
+        if let Some((head, tail)) = msg.split_once(" at position ") {
+            if let Ok(offset) = tail.trim().parse::<usize>() {
+                at = Some(line_col(self.text, offset));
+                msg = head.to_string();
+            }
+        }
+        match at {
+            Some((l, c)) => Error::Input(format!(
+                "{}:{l}:{c}: {}syntax error: {msg}",
+                self.label,
+                key_at(l)
+            )),
+            None => Error::Input(format!("{}: syntax error: {msg}", self.label)),
+        }
+    }
+
+    /// A key given twice: reported where it is given the second time.
+    fn duplicate_error(&self, parent: &str, key: &str) -> Error {
+        let hits = key_occurrences(self.text, parent, key);
+        let path = if parent.is_empty() {
+            key.to_string()
+        } else {
+            format!("{parent}.{key}")
+        };
+        match (hits.first(), hits.get(1)) {
+            (Some(first), Some((l, c))) => Error::Input(format!(
+                "{}:{l}:{c}: {path}: given twice (first on line {})",
+                self.label, first.0
+            )),
+            _ => self.error(&path, "given twice"),
+        }
+    }
+}
+
+/// Line and column (from 1) of a byte offset in `text`.
+fn line_col(text: &str, offset: usize) -> (usize, usize) {
+    let mut end = offset.min(text.len());
+    while !text.is_char_boundary(end) {
+        end -= 1;
+    }
+    let before = &text[..end];
+    let line = before.matches('\n').count() + 1;
+    let col = before.chars().rev().take_while(|&c| c != '\n').count() + 1;
+    (line, col)
+}
+
+/// The key named by serde's duplicate-key message, if that is what it is.
+fn duplicate_key_name(msg: &str) -> Option<String> {
+    if let Some((_, rest)) = msg.split_once("duplicate field `") {
+        return rest.split('`').next().map(printable);
+    }
+    if let Some((_, rest)) = msg.split_once("duplicate entry with key ") {
+        let key = rest.split(" at line ").next().unwrap_or(rest);
+        return Some(printable(key.trim_matches('"')));
+    }
+    None
+}
+
+/// The plain key a line starts with (`  - width: 8` gives `width`), if any.
+fn key_on_line(line: &str) -> Option<String> {
+    let t = line.trim_start_matches([' ', '\t', '-']);
+    let (k, _) = t.split_once(':')?;
+    let k = k.trim_end();
+    (!k.is_empty() && k.chars().all(|c| c.is_ascii_alphanumeric() || c == '_'))
+        .then(|| k.to_string())
+}
+
+/// Where `key:` is written inside the mapping at dotted `parent` ("" for the top level):
+/// block style on its own line, or flow style after `{` or `,`.
+fn key_occurrences(text: &str, parent: &str, key: &str) -> Vec<(usize, usize)> {
+    let lines: Vec<&str> = text.lines().collect();
+    let indent_of = |l: &str| l.len() - l.trim_start().len();
+    let (start, parent_indent) = if parent.is_empty() {
+        (0, None)
+    } else {
+        match locate(text, parent) {
+            Some((l, _)) => (l - 1, Some(indent_of(lines[l - 1]))),
+            None => return vec![],
+        }
+    };
+    let pat = format!("{key}:");
+    let mut hits = vec![];
+    for (i, line) in lines.iter().enumerate().skip(start) {
+        let t = line.trim_start();
+        if t.is_empty() || t.starts_with('#') {
+            continue;
+        }
+        let indent = indent_of(line);
+        match parent_indent {
+            Some(pi) if i > start && indent <= pi => break,
+            None if indent != 0 => continue,
+            _ => {}
+        }
+        let own_line = i > start || parent_indent.is_none();
+        if own_line && (t.starts_with(&pat) || t.starts_with(&format!("{key} :"))) {
+            hits.push((i + 1, indent + 1));
+        }
+        // Flow style: `{a: 1, a: 2}`.
+        let mut from = 0;
+        while let Some(j) = line[from..].find(&pat) {
+            let at = from + j;
+            let before = line[..at].trim_end().chars().last();
+            if matches!(before, Some('{' | ',')) {
+                hits.push((i + 1, at + 1));
+            }
+            from = at + pat.len();
+        }
+    }
+    hits
+}
+
+/// Largest spec or technology file read: 1 MiB (a real one is well under 4 KiB).
+pub const MAX_SOURCE_BYTES: u64 = 1 << 20;
+
+/// Deepest nesting of mappings and sequences accepted (a spec needs 3). The YAML parser
+/// takes time growing with the square of the depth, so deeper text is refused before it runs.
+pub const MAX_DEPTH: usize = 32;
+
+/// What a quick scan of YAML text found about its nesting.
+struct Nesting {
+    /// Where the nesting first went deeper than [`MAX_DEPTH`].
+    too_deep: Option<(usize, usize)>,
+    /// The innermost `[` or `{` still open at the end of the text.
+    unclosed: Option<(usize, usize, char)>,
+    /// The first alias (`*name`).
+    alias: Option<(usize, usize)>,
+}
+
+/// Scan YAML text for nesting depth: flow brackets (outside quoted scalars and comments)
+/// plus block levels (indentation steps and `- ` / `? ` indicators). Errs on the deep side:
+/// a quote the parser would read as plain text only makes the count larger.
+fn scan_nesting(text: &str) -> Nesting {
+    let mut flow: Vec<(usize, usize, char)> = Vec::new();
+    let mut indents: Vec<usize> = Vec::new();
+    let mut block = 0usize;
+    let mut quote: Option<char> = None;
+    let mut comment = false;
+    let mut alias = None;
+    let mut prev = '\n';
+    let (mut line, mut col) = (1usize, 0usize);
+    let mut at_line_start = true;
+    let bytes: Vec<char> = text.chars().collect();
+    let mut i = 0;
+    while i < bytes.len() {
+        let c = bytes[i];
+        col += 1;
+        if at_line_start && quote.is_none() && flow.is_empty() {
+            // Indentation, then any `- ` or `? ` indicators, each one level deeper.
+            let mut j = i;
+            while j < bytes.len() && bytes[j] == ' ' {
+                j += 1;
+            }
+            let indent = j - i;
+            let mut marks = 0;
+            while j + 1 < bytes.len() && matches!(bytes[j], '-' | '?') && bytes[j + 1] == ' ' {
+                marks += 1;
+                j += 2;
+                while j < bytes.len() && bytes[j] == ' ' {
+                    j += 1;
+                }
+            }
+            let blank = marks == 0 && (j >= bytes.len() || matches!(bytes[j], '\n' | '\r' | '#'));
+            if !blank {
+                while indents.last().is_some_and(|&t| t >= indent) {
+                    indents.pop();
+                }
+                indents.push(indent);
+                block = indents.len() + marks;
+                if block > MAX_DEPTH {
+                    return Nesting {
+                        too_deep: Some((line, indent + 1)),
+                        unclosed: None,
+                        alias: None,
+                    };
+                }
+            }
+        }
+        at_line_start = false;
+        if c == '\n' {
+            line += 1;
+            col = 0;
+            comment = false;
+            at_line_start = true;
+            prev = '\n';
+            i += 1;
+            continue;
+        }
+        if comment {
+            i += 1;
+            continue;
+        }
+        match quote {
+            Some('"') => {
+                if c == '\\' {
+                    i += 1;
+                    col += 1;
+                } else if c == '"' {
+                    quote = None;
+                }
+            }
+            Some(_) => {
+                if c == '\'' {
+                    if bytes.get(i + 1) == Some(&'\'') {
+                        i += 1;
+                        col += 1;
+                    } else {
+                        quote = None;
+                    }
+                }
+            }
+            None => {
+                let token_start = prev.is_whitespace() || "[{,:?-".contains(prev);
+                match c {
+                    '#' if prev.is_whitespace() => comment = true,
+                    '"' | '\'' if token_start => quote = Some(c),
+                    '*' if token_start && alias.is_none() => alias = Some((line, col)),
+                    // Outside flow, a bracket opens one only where a value starts.
+                    '[' | '{' if token_start || !flow.is_empty() => {
+                        flow.push((line, col, c));
+                        if block + flow.len() > MAX_DEPTH {
+                            return Nesting {
+                                too_deep: Some((line, col)),
+                                unclosed: None,
+                                alias: None,
+                            };
+                        }
+                    }
+                    ']' | '}' => {
+                        flow.pop();
+                    }
+                    _ => {}
+                }
+            }
+        }
+        prev = c;
+        i += 1;
+    }
+    Nesting {
+        too_deep: None,
+        unclosed: flow.last().copied(),
+        alias,
     }
 }
 
@@ -367,11 +716,80 @@ fn find_key(line: &str, key: &str, inside_flow: bool) -> Option<usize> {
 
 /// Parse a spec file from disk.
 pub fn load(path: &Path, opts: &LoadOptions) -> Result<Spec> {
-    let label = path.display().to_string();
-    let text = std::fs::read_to_string(path)
-        .map_err(|e| Error::Input(format!("{label}: cannot read the spec: {e}")))?;
+    let label = shown_path(path);
+    let text = read_source(path, "spec")?;
     let base = path.parent().unwrap_or(Path::new("."));
     parse(&text, &label, base, opts)
+}
+
+/// Read a spec or technology file (`what` names it in messages): only a regular file, at
+/// most [`MAX_SOURCE_BYTES`], UTF-8 text. A FIFO, a device or a folder is refused without
+/// being read.
+pub fn read_source(path: &Path, what: &str) -> Result<String> {
+    let label = shown_path(path);
+    let cannot = |e: std::io::Error| Error::Input(format!("{label}: cannot read the {what}: {e}"));
+    let meta = std::fs::metadata(path).map_err(cannot)?;
+    if !meta.is_file() {
+        return Err(Error::Input(format!(
+            "{label}: the {what} is not a regular file"
+        )));
+    }
+    if meta.len() > MAX_SOURCE_BYTES {
+        return Err(too_large(&label, what));
+    }
+    let file = std::fs::File::open(path).map_err(cannot)?;
+    read_capped(file, &label, what)
+}
+
+/// Read a spec from standard input, with the same size cap (label `<stdin>`).
+pub fn read_stdin(what: &str) -> Result<String> {
+    read_capped(std::io::stdin().lock(), STDIN_LABEL, what)
+}
+
+/// How standard input is named in messages.
+pub const STDIN_LABEL: &str = "<stdin>";
+
+fn too_large(label: &str, what: &str) -> Error {
+    Error::Input(format!(
+        "{label}: the {what} is larger than {} KiB",
+        MAX_SOURCE_BYTES / 1024
+    ))
+}
+
+fn read_capped(reader: impl std::io::Read, label: &str, what: &str) -> Result<String> {
+    use std::io::Read;
+    let mut bytes = Vec::new();
+    reader
+        .take(MAX_SOURCE_BYTES + 1)
+        .read_to_end(&mut bytes)
+        .map_err(|e| Error::Input(format!("{label}: cannot read the {what}: {e}")))?;
+    if bytes.len() as u64 > MAX_SOURCE_BYTES {
+        return Err(too_large(label, what));
+    }
+    String::from_utf8(bytes).map_err(|e| {
+        Error::Input(format!(
+            "{label}: the {what} is not UTF-8 text (bad byte at offset {})",
+            e.utf8_error().valid_up_to()
+        ))
+    })
+}
+
+/// A path for a message: control characters escaped, so it stays on one line.
+pub fn shown_path(p: &Path) -> String {
+    escape_controls(&p.to_string_lossy())
+}
+
+/// Text with its control characters escaped (`\n`, `\u{1b}`), everything else as is.
+pub fn escape_controls(s: &str) -> String {
+    let mut out = String::with_capacity(s.len());
+    for c in s.chars() {
+        if c.is_control() {
+            out.extend(c.escape_default());
+        } else {
+            out.push(c);
+        }
+    }
+    out
 }
 
 /// Parse and validate spec text. `base` resolves a relative technology file path.
@@ -498,7 +916,7 @@ fn validate(raw: RawSpec, src: &Source, base: &Path, opts: &LoadOptions) -> Resu
                 if !path.is_file() {
                     return Err(src.error(
                         "technology",
-                        format!("technology file {} not found", path.display()),
+                        format!("technology file {} not found", shown_path(&path)),
                     ));
                 }
                 tech::load_file(&path, opts)?
@@ -523,11 +941,17 @@ fn validate(raw: RawSpec, src: &Source, base: &Path, opts: &LoadOptions) -> Resu
     }
 
     let rs = raw.sizing.unwrap_or_default();
+    let number = |key: &str, v: &Option<Written>, default: f64| -> Result<f64> {
+        match v {
+            None => Ok(default),
+            Some(w) => read_number(&w.0).map_err(|m| src.error(&format!("sizing.{key}"), m)),
+        }
+    };
     let sizing = Sizing {
-        unit_n: rs.unit_n.unwrap_or(technology.unit_n),
-        pn_ratio: rs.pn_ratio.unwrap_or(technology.pn_ratio),
-        keeper: rs.keeper.unwrap_or(0.1),
-        buffer: rs.buffer.unwrap_or(2.0),
+        unit_n: number("unit_n", &rs.unit_n, technology.unit_n)?,
+        pn_ratio: number("pn_ratio", &rs.pn_ratio, technology.pn_ratio)?,
+        keeper: number("keeper", &rs.keeper, 0.1)?,
+        buffer: number("buffer", &rs.buffer, 2.0)?,
     };
     let in_range = |key: &str, v: f64, lo: f64, hi: f64| -> Result<()> {
         if !v.is_finite() || v < lo || v > hi {
@@ -561,19 +985,31 @@ fn validate(raw: RawSpec, src: &Source, base: &Path, opts: &LoadOptions) -> Resu
             format!("must be between 0 and 1000000, got {random}"),
         ));
     }
-    let quantity = |key: &str, v: &Option<serde_yaml::Value>, unit: char, lo: f64, hi: f64| match v
-    {
+    let quantity = |key: &str, v: &Option<Written>, unit: char, lo: f64, hi: f64| match v {
         None => Ok(None),
-        Some(v) => {
+        Some(w) => {
             let path = format!("testbench.{key}");
-            let x = parse_quantity(v, unit).map_err(|m| src.error(&path, m))?;
+            let x = parse_quantity_text(&w.0, unit).map_err(|m| src.error(&path, m))?;
+            let got = printable(w.0.trim());
             if !(lo..=hi).contains(&x) {
                 return Err(src.error(
                     &path,
                     format!(
-                        "must be between {} and {}",
+                        "must be between {} and {}, got {got}",
                         fmt_si(lo, unit),
                         fmt_si(hi, unit)
+                    ),
+                ));
+            }
+            // The deck prints the value with an SI suffix and six decimals: refuse a value
+            // that would print as something else.
+            let shown = fmt_si(x, unit);
+            let back = parse_quantity_text(&shown, unit).unwrap_or(f64::NAN);
+            if (back - x).abs() > 1e-6 * x.abs() {
+                return Err(src.error(
+                    &path,
+                    format!(
+                        "{got} would be printed as {shown} in the deck; give 0 or a value with at most six decimals in its SI unit"
                     ),
                 ));
             }
@@ -590,16 +1026,24 @@ fn validate(raw: RawSpec, src: &Source, base: &Path, opts: &LoadOptions) -> Resu
             return Err(src.error(
                 "testbench.period",
                 format!(
-                    "must be at least {} for {} style with this technology's input slew",
+                    "must be at least {} for {} style with this technology's input slew, got {}",
                     fmt_si(min, 's'),
-                    style.as_str()
+                    style.as_str(),
+                    fmt_si(p, 's')
                 ),
             ));
         }
     }
     if let (Some(p), Some(s)) = (period, step) {
         if s * 20.0 > p {
-            return Err(src.error("testbench.step", "must be at most 1/20 of testbench.period"));
+            return Err(src.error(
+                "testbench.step",
+                format!(
+                    "must be at most 1/20 of testbench.period ({}), got {}",
+                    fmt_si(p / 20.0, 's'),
+                    fmt_si(s, 's')
+                ),
+            ));
         }
     }
 
@@ -621,6 +1065,7 @@ fn validate(raw: RawSpec, src: &Source, base: &Path, opts: &LoadOptions) -> Resu
             period,
             step,
         },
+        source: Some((src.label.to_string(), src.text.to_string())),
     })
 }
 
@@ -781,7 +1226,7 @@ fn parse_buffers(
 
 /// Words a generated name must not be: Verilog-2005 and SystemVerilog keywords, and words
 /// that SPICE decks treat specially (ngspice manual; common practice).
-const RESERVED: &[&str] = &[
+const VERILOG_KEYWORDS: &[&str] = &[
     // IEEE 1364-2005 keywords
     "always",
     "and",
@@ -1031,39 +1476,16 @@ const RESERVED: &[&str] = &[
     "weak",
     "wildcard",
     "within",
-    // The top module's own port names (a module may not share a name with its port)
-    "a",
-    "b",
-    "cin",
-    "s",
-    "cout",
-    "clk",
-    // SPICE / ngspice words (ngspice manual)
-    "subckt",
-    "ends",
-    "model",
-    "control",
-    "endc",
-    "param",
-    "lib",
-    "endl",
-    "tran",
-    "op",
-    "dc",
-    "ac",
-    "meas",
-    "measure",
-    "print",
-    "plot",
-    "run",
-    "quit",
-    "options",
-    "option",
-    "global",
-    "temp",
-    "gnd",
-    "vdd",
-    "vss",
+];
+
+/// The top module's own port names (a module may not share a name with its port).
+const PORT_NAMES: &[&str] = &["a", "b", "cin", "s", "cout", "clk"];
+
+/// Words that SPICE decks treat specially (ngspice manual).
+const SPICE_WORDS: &[&str] = &[
+    "subckt", "ends", "model", "control", "endc", "param", "lib", "endl", "tran", "op", "dc", "ac",
+    "meas", "measure", "print", "plot", "run", "quit", "options", "option", "global", "temp",
+    "gnd", "vdd", "vss",
 ];
 
 /// A name is a plain identifier, not a keyword of either view, short enough for tools.
@@ -1079,10 +1501,18 @@ pub fn check_identifier(name: &str) -> std::result::Result<(), String> {
     if name.len() > 48 {
         return Err(format!("`{name}` is longer than 48 characters"));
     }
-    if RESERVED.contains(&name.to_ascii_lowercase().as_str()) {
-        return Err(format!(
-            "`{name}` is a Verilog or SPICE keyword or one of the top module's ports; choose another name"
-        ));
+    let lower = name.to_ascii_lowercase();
+    for (list, what) in [
+        (
+            PORT_NAMES,
+            "one of the top module's ports (a, b, cin, s, cout, clk)",
+        ),
+        (VERILOG_KEYWORDS, "a Verilog or SystemVerilog keyword"),
+        (SPICE_WORDS, "a word SPICE decks treat specially"),
+    ] {
+        if list.contains(&lower.as_str()) {
+            return Err(format!("`{name}` is {what}; choose another name"));
+        }
     }
     Ok(())
 }
@@ -1152,16 +1582,20 @@ pub fn printable(s: &str) -> String {
 
 /// Parse `10f`, `5n`, `2.5ns`, `1e-14` or a bare number into a value in SI base units.
 pub fn parse_quantity(v: &serde_yaml::Value, unit: char) -> std::result::Result<f64, String> {
-    let text = match v {
-        serde_yaml::Value::Number(n) => {
-            return n
-                .as_f64()
-                .filter(|x| x.is_finite())
-                .ok_or_else(|| "not a finite number".to_string())
-        }
-        serde_yaml::Value::String(s) => s.trim().to_string(),
-        _ => return Err("expected a number with an optional suffix such as 10f or 5n".to_string()),
-    };
+    match v {
+        serde_yaml::Value::Number(n) => n
+            .as_f64()
+            .filter(|x| x.is_finite())
+            .ok_or_else(|| "not a finite number".to_string()),
+        serde_yaml::Value::String(s) => parse_quantity_text(s, unit),
+        _ => Err("expected a number with an optional suffix such as 10f or 5n".to_string()),
+    }
+}
+
+/// [`parse_quantity`] on the text as written; a value that cannot be held (it would become
+/// 0 or infinity) is refused.
+pub fn parse_quantity_text(text: &str, unit: char) -> std::result::Result<f64, String> {
+    let text = text.trim().to_string();
     let lower = text.to_ascii_lowercase();
     let unit_l = unit.to_ascii_lowercase();
     // Drop a trailing unit letter (`5ns`, `10fF`), but read a lone `f` as femto, as SPICE does.
@@ -1179,7 +1613,10 @@ pub fn parse_quantity(v: &serde_yaml::Value, unit: char) -> std::result::Result<
         _ => (body, 1.0),
     };
     match num.parse::<f64>() {
-        Ok(x) if x.is_finite() => Ok(x * scale),
+        Ok(x) if x.is_finite() && (x * scale).is_finite() => {
+            check_no_underflow(&text, x * scale)?;
+            Ok(x * scale)
+        }
         _ => Err(format!(
             "`{}` is not a quantity such as 10f or 5n",
             printable(&text)

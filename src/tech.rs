@@ -70,8 +70,7 @@ impl Models {
     pub fn deck_lines(&self) -> Vec<String> {
         match self {
             Models::Inline(text) => {
-                let mut l =
-                    vec!["* Illustrative level-1 models (not a real process):".to_string()];
+                let mut l = vec!["* Illustrative level-1 models (not a real process):".to_string()];
                 l.extend(text.lines().map(str::to_string));
                 l
             }
@@ -98,6 +97,11 @@ pub struct DeviceSyntax {
     /// Written after W and L, which the tool holds in µm: `"u"` (`w=1u`) for devices that
     /// take metres, `""` (`w=1`) for devices that take µm (SKY130's subcircuits).
     pub size_suffix: String,
+    /// Source/drain diffusion length (µm) past the gate: when set, every device line carries
+    /// its diffusion areas and perimeters (`ad as pd ps`) for a device of its own (no shared
+    /// diffusion). None: the line gives none and the models decide (GF180MCU's BSIM4 cards
+    /// compute them from the width; SKY130's subcircuits would take zero).
+    pub diffusion_um: Option<f64>,
 }
 
 impl DeviceSyntax {
@@ -105,12 +109,14 @@ impl DeviceSyntax {
         DeviceSyntax {
             prefix: String::new(),
             size_suffix: "u".into(),
+            diffusion_um: None,
         }
     }
     pub fn subcircuit_um() -> DeviceSyntax {
         DeviceSyntax {
             prefix: "x".into(),
             size_suffix: String::new(),
+            diffusion_um: None,
         }
     }
 }
@@ -218,7 +224,7 @@ fn model_dir(opts: &LoadOptions, tech: &str, env: &str, what: &str) -> Result<Pa
     let abs = dir.canonicalize().map_err(|e| {
         Error::Input(format!(
             "model folder {}: {e} (give it with --model-dir DIR or {env}=DIR)",
-            dir.display()
+            crate::spec::shown_path(&dir)
         ))
     })?;
     let text = abs.to_string_lossy().to_string();
@@ -329,7 +335,13 @@ pub fn builtin(name: &str, opts: &LoadOptions) -> Result<Technology> {
                 w_min: 0.42,
                 nmos: "sky130_fd_pr__nfet_01v8".into(),
                 pmos: "sky130_fd_pr__pfet_01v8".into(),
-                device: DeviceSyntax::subcircuit_um(),
+                // A contacted diffusion 0.29 um long on each side (SKY130's usual netlist
+                // convention, common practice): without it the subcircuits take ad = pd = 0
+                // and the drains carry no junction capacitance.
+                device: DeviceSyntax {
+                    diffusion_um: Some(0.29),
+                    ..DeviceSyntax::subcircuit_um()
+                },
                 unit_n: 1.0,
                 pn_ratio: 2.0,
                 step: 10e-12,
@@ -422,12 +434,22 @@ impl Technology {
     ) -> String {
         let model = if pmos { &self.pmos } else { &self.nmos };
         let u = &self.device.size_suffix;
-        format!(
+        let n = |x: f64| crate::spec::trim_num((x * 1e4).round() / 1e4);
+        let mut line = format!(
             "{}{name} {d} {g} {s} {b} {model} w={}{u} l={}{u}",
             self.device.prefix,
-            crate::spec::trim_num(w),
-            crate::spec::trim_num(l)
-        )
+            n(w),
+            n(l)
+        );
+        if let Some(e) = self.device.diffusion_um {
+            // Areas in µm² (p with metre units), perimeters in µm.
+            let area_u = if u.is_empty() { "" } else { "p" };
+            let (a, p) = (n(w * e), n(2.0 * (w + e)));
+            line.push_str(&format!(
+                " ad={a}{area_u} as={a}{area_u} pd={p}{u} ps={p}{u}"
+            ));
+        }
+        line
     }
 
     /// Apply a corner, temperature and supply. `Err((key, message))` names the key
@@ -436,7 +458,7 @@ impl Technology {
         &mut self,
         c: &Conditions,
     ) -> std::result::Result<(), (&'static str, String)> {
-        if let Some(corner) = &c.corner {
+        if let Some(corner) = c.corner.as_ref().filter(|c| **c != self.corner) {
             if !self.corners.iter().any(|k| k == corner) {
                 let have = if self.corners.is_empty() {
                     format!("`{}` has a fixed corner ({})", self.name, self.corner)
@@ -526,6 +548,9 @@ struct RawTech {
     /// `u` (default: W and L in metres with a micro suffix) or `none` (the devices take µm).
     #[serde(default)]
     size_suffix: Option<String>,
+    /// Diffusion length past the gate, µm (device lines then carry ad, as, pd, ps).
+    #[serde(default)]
+    diffusion_um: Option<f64>,
     #[serde(default)]
     conditions: Option<RawConditions>,
     #[serde(default)]
@@ -621,9 +646,8 @@ struct RawLib {
 /// Load a technology YAML file. Paths may start with `${MODEL_DIR}/` (the model folder) or
 /// be relative to the technology file.
 pub fn load_file(path: &Path, opts: &LoadOptions) -> Result<Technology> {
-    let label = path.display().to_string();
-    let text = std::fs::read_to_string(path)
-        .map_err(|e| Error::Input(format!("{label}: cannot read the technology file: {e}")))?;
+    let label = crate::spec::shown_path(path);
+    let text = crate::spec::read_source(path, "technology file")?;
     let src = Source {
         label: &label,
         text: &text,
@@ -653,7 +677,13 @@ pub fn load_file(path: &Path, opts: &LoadOptions) -> Result<Technology> {
         Some(v) => {
             let s = crate::spec::parse_quantity(v, 's').map_err(|m| src.error("step", m))?;
             if !(0.1e-12..=1e-9).contains(&s) {
-                return Err(src.error("step", "must be between 0.1p and 1n"));
+                return Err(src.error(
+                    "step",
+                    format!(
+                        "must be between 0.1p and 1n, got {}",
+                        crate::spec::fmt_si(s, 's')
+                    ),
+                ));
             }
             s
         }
@@ -692,6 +722,13 @@ pub fn load_file(path: &Path, opts: &LoadOptions) -> Result<Technology> {
                         crate::spec::printable(other)
                     ),
                 ))
+            }
+        },
+        diffusion_um: match raw.diffusion_um {
+            None => None,
+            Some(e) => {
+                range("diffusion_um", e, 0.01, 10.0)?;
+                Some(e)
             }
         },
     };
@@ -733,10 +770,7 @@ pub fn load_file(path: &Path, opts: &LoadOptions) -> Result<Technology> {
                     if !full.is_file() {
                         return Err(src.error(
                             key,
-                            format!(
-                                "model file {} is not a file",
-                                crate::models::show(&full)
-                            ),
+                            format!("model file {} is not a file", crate::models::show(&full)),
                         ));
                     }
                     Some(full)
@@ -782,7 +816,11 @@ pub fn load_file(path: &Path, opts: &LoadOptions) -> Result<Technology> {
         check_spice_word(&l.section).map_err(|m| src.error(&format!("lib[{i}].section"), m))?;
         let (f, local) = resolve(&format!("lib[{i}].file"), &l.file)?;
         lib.push((f, l.section.clone()));
-        locals.push((format!("lib[{i}].file"), local, Some((i, l.section.clone()))));
+        locals.push((
+            format!("lib[{i}].file"),
+            local,
+            Some((i, l.section.clone())),
+        ));
     }
     let mut t = Technology {
         origin: format!(
@@ -850,8 +888,8 @@ pub fn load_file(path: &Path, opts: &LoadOptions) -> Result<Technology> {
     if locals.iter().all(|(_, l, _)| l.is_some()) {
         let mut defined = crate::models::Defined::default();
         for (key, local, _) in &locals {
-            let d = crate::models::scan(&[local.clone().unwrap()])
-                .map_err(|m| src.error(key, m))?;
+            let d =
+                crate::models::scan(&[local.clone().unwrap()]).map_err(|m| src.error(key, m))?;
             defined.sections.extend(d.sections);
             defined.devices.extend(d.devices);
             defined.files.extend(d.files);

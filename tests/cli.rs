@@ -550,10 +550,18 @@ fn name_with_a_single_quote() {
 
 #[test]
 fn names_that_are_keywords() {
-    for kw in ["module", "wire", "subckt", "end"] {
+    // Each refusal says which list the name is on.
+    for (kw, list) in [
+        ("module", "Verilog or SystemVerilog keyword"),
+        ("wire", "Verilog or SystemVerilog keyword"),
+        ("end", "Verilog or SystemVerilog keyword"),
+        ("subckt", "SPICE"),
+        ("a", "top module's ports"),
+        ("COUT", "top module's ports"),
+    ] {
         // The name goes on line 2 here, to check the line is found, not assumed.
         let spec = format!("width: 8\nname: {kw}\narchitecture: manchester\nblock: 4\n");
-        refuse(&spec, "name", 2, &[kw, "keyword"]);
+        refuse(&spec, "name", 2, &[kw, list]);
     }
 }
 
@@ -763,7 +771,7 @@ fn spec_file_that_does_not_exist() {
 
 #[test]
 fn spec_that_is_not_a_mapping() {
-    refuse("- 1\n", "spec", 1, &["sequence"]);
+    refuse("- 1\n", "top level", 1, &["sequence"]);
 }
 
 // ---------------------------------------------------------------------------------------
@@ -774,8 +782,8 @@ fn spec_that_is_not_a_mapping() {
 fn no_subcommand_is_a_usage_error() {
     let sb = Sandbox::with_spec(BASE);
     let run = sb.run(&[]);
-    assert_eq!(run.code, Some(2), "{}", run.describe());
-    assert!(run.stderr.contains("Usage"), "{}", run.describe());
+    let err = one_error_line(&run);
+    assert!(err.contains("no command"), "{}", run.describe());
     assert_nothing_written(&sb, &run);
 }
 
@@ -783,8 +791,8 @@ fn no_subcommand_is_a_usage_error() {
 fn unknown_flag_is_a_usage_error() {
     let sb = Sandbox::with_spec(BASE);
     let run = sb.run(&["generate", "spec.yaml", "-o", "out", "--bogus"]);
-    assert_eq!(run.code, Some(2), "{}", run.describe());
-    assert!(run.stderr.contains("--bogus"), "{}", run.describe());
+    let err = one_error_line(&run);
+    assert!(err.contains("--bogus"), "{}", run.describe());
     assert_nothing_written(&sb, &run);
 }
 
@@ -964,4 +972,523 @@ fn help_names_the_subcommands() {
         }
     }
     assert!(sb.entries().is_empty(), "{:?}", sb.entries());
+}
+
+// ---------------------------------------------------------------------------------------
+// Hostile input, faults and interface habits (issue 6)
+// ---------------------------------------------------------------------------------------
+
+#[test]
+fn check_random_beyond_the_bound_is_refused() {
+    // 2^64 - 7 used to wrap around to a handful of vectors and pass.
+    for n in [
+        "18446744073709551609",
+        "100000001",
+        "-5",
+        "lots",
+        "99999999999999999999999",
+    ] {
+        let sb = Sandbox::with_spec(BASE);
+        let arg = format!("--random={n}");
+        let run = sb.run(&["check", "spec.yaml", &arg]);
+        let err = one_error_line(&run);
+        assert!(err.contains("--random"), "{}", run.describe());
+        assert!(
+            err.contains("100000000"),
+            "names the bound\n{}",
+            run.describe()
+        );
+        assert!(run.stdout.is_empty(), "{}", run.describe());
+    }
+}
+
+#[test]
+fn missing_argument_and_bad_flag_are_one_line() {
+    let sb = Sandbox::with_spec(BASE);
+    for args in [
+        &["check"][..],
+        &["generate", "spec.yaml"][..],
+        &["frobnicate"][..],
+        &["check", "spec.yaml", "--bo\ngus"][..],
+    ] {
+        let run = sb.run(args);
+        let err = one_error_line(&run);
+        assert!(!err.contains("Usage"), "{}", run.describe());
+    }
+    let run = sb.run(&["check", "spec.yaml", "--bo\ngus"]);
+    assert!(
+        one_error_line(&run).contains("--bo\\ngus"),
+        "the echoed flag is escaped\n{}",
+        run.describe()
+    );
+    assert_nothing_written(&sb, &run);
+}
+
+#[test]
+fn help_and_version_still_print_and_exit_zero() {
+    let sb = Sandbox::new();
+    let v = sb.run(&["--version"]);
+    assert_ok(&v);
+    assert!(v.stdout.starts_with("carrywright "), "{}", v.describe());
+    let h = sb.run(&["check", "--help"]);
+    assert_ok(&h);
+    assert!(h.stdout.contains("--random"), "{}", h.describe());
+}
+
+/// Generate from a spec nested too deep: refused with one line at `line`, before the YAML
+/// parser runs (it used to take a minute on such a file; no time is asserted here), and
+/// nothing written.
+fn refuse_too_deep(spec: &str, line: usize) {
+    let sb = Sandbox::with_spec(spec);
+    let run = sb.run(&["generate", "spec.yaml", "-o", "out"]);
+    let err = one_error_line(&run);
+    assert!(
+        err.starts_with(&format!("error: spec.yaml:{line}:")),
+        "{}",
+        run.describe()
+    );
+    assert!(err.contains("nested deeper than 32"), "{}", run.describe());
+    assert_nothing_written(&sb, &run);
+}
+
+#[test]
+fn deeply_nested_flow_spec_is_refused() {
+    refuse_too_deep(&format!("{BASE}buffers: {}\n", "[".repeat(200_000)), 5);
+}
+
+#[test]
+fn deeply_nested_block_mapping_is_refused() {
+    let mut spec = String::from(BASE);
+    spec.push_str("testbench:\n");
+    for i in 1..1000 {
+        spec.push_str(&format!("{}k{i}:\n", " ".repeat(i)));
+    }
+    // testbench is level 1 on line 5; k32 on line 37 is level 33.
+    refuse_too_deep(&spec, 37);
+}
+
+#[test]
+fn deeply_nested_block_sequence_on_one_line_is_refused() {
+    refuse_too_deep(&"- ".repeat(100_000), 1);
+}
+
+#[test]
+fn quotes_do_not_hide_nesting() {
+    // A `]` inside a quoted scalar closes nothing.
+    refuse_too_deep(&format!("{BASE}buffers: {}\n", "[\"]\", ".repeat(5_000)), 5);
+}
+
+#[test]
+fn spec_larger_than_one_mib_is_refused() {
+    let spec = format!("{BASE}# {}\n", "x".repeat(1 << 20));
+    let sb = Sandbox::with_spec(&spec);
+    let run = sb.run(&["generate", "spec.yaml", "-o", "out"]);
+    let err = one_error_line(&run);
+    assert!(err.contains("larger than 1024 KiB"), "{}", run.describe());
+    assert_nothing_written(&sb, &run);
+}
+
+#[test]
+fn spec_that_is_not_utf8_is_refused() {
+    let sb = Sandbox::new();
+    std::fs::write(sb.path().join("spec.yaml"), b"name: t\xff8\nwidth: 8\n").unwrap();
+    let run = sb.run(&["generate", "spec.yaml", "-o", "out"]);
+    assert!(one_error_line(&run).contains("UTF-8"), "{}", run.describe());
+    assert_nothing_written(&sb, &run);
+}
+
+#[test]
+fn device_files_and_folders_are_refused_without_reading() {
+    // /dev/zero used to be read until memory ran out.
+    let sb = Sandbox::with_spec(BASE);
+    for path in ["/dev/zero", "/dev/null", "."] {
+        if !Path::new(path).exists() {
+            println!("SKIPPED: {path} does not exist on this machine");
+            continue;
+        }
+        let run = sb.run(&["generate", path, "-o", "out"]);
+        let err = one_error_line(&run);
+        assert!(err.contains("not a regular file"), "{}", run.describe());
+        assert_nothing_written(&sb, &run);
+    }
+}
+
+#[test]
+fn fifo_spec_is_refused_without_waiting() {
+    // A FIFO used to block forever.
+    let sb = Sandbox::with_spec(BASE);
+    let made = Command::new("mkfifo")
+        .arg(sb.path().join("pipe.yaml"))
+        .status();
+    if !matches!(made, Ok(s) if s.success()) {
+        println!("SKIPPED: mkfifo is not available here");
+        return;
+    }
+    let run = sb.run(&["check", "pipe.yaml"]);
+    let err = one_error_line(&run);
+    assert!(err.starts_with("error: pipe.yaml: "), "{}", run.describe());
+    assert!(err.contains("not a regular file"), "{}", run.describe());
+}
+
+#[test]
+fn newline_in_the_model_folder_stays_on_one_line() {
+    let sb = Sandbox::with_spec(&base_plus("technology: gf180mcu-3v3\n"));
+    let run = sb.run(&["generate", "spec.yaml", "-o", "out", "--model-dir", "a\nb"]);
+    let err = one_error_line(&run);
+    assert!(
+        err.contains("a\\nb"),
+        "the path is escaped\n{}",
+        run.describe()
+    );
+    assert_nothing_written(&sb, &run);
+    let env = sb.run_with(&["generate", "spec.yaml", "-o", "out"], |c| {
+        c.env("CARRYWRIGHT_MODEL_DIR", "x\r\ny\u{1b}[31m");
+    });
+    let err = one_error_line(&env);
+    assert!(!err.contains('\u{1b}'), "{}", env.describe());
+}
+
+#[test]
+fn newline_in_the_spec_path_stays_on_one_line() {
+    let sb = Sandbox::new();
+    let run = sb.run(&["generate", "no\nsuch.yaml", "-o", "out"]);
+    let err = one_error_line(&run);
+    assert!(
+        err.starts_with("error: no\\nsuch.yaml: "),
+        "{}",
+        run.describe()
+    );
+}
+
+/// Open `/dev/full` for writing, or say why the test is skipped.
+fn dev_full() -> Option<std::fs::File> {
+    match std::fs::OpenOptions::new().write(true).open("/dev/full") {
+        Ok(f) => Some(f),
+        Err(e) => {
+            println!("SKIPPED: /dev/full cannot be opened here: {e}");
+            None
+        }
+    }
+}
+
+#[test]
+fn full_stderr_does_not_panic_or_change_the_exit_code() {
+    let Some(full) = dev_full() else { return };
+    // A failure: still exit 2, nothing written, no panic (101).
+    let sb = Sandbox::with_spec("name: t8\nwidth: 0\narchitecture: manchester\n");
+    let err2 = full.try_clone().unwrap();
+    let run = sb.run_with(&["generate", "spec.yaml", "-o", "y"], |c| {
+        c.stderr(err2);
+    });
+    assert_eq!(run.code, Some(2), "{}", run.describe());
+    assert_nothing_written(&sb, &run);
+    // A success with a full stderr and a full stdout.
+    let ok = Sandbox::with_spec(BASE);
+    let run = ok.run_with(&["generate", "spec.yaml", "-o", "y"], |c| {
+        c.stderr(full.try_clone().unwrap());
+        c.stdout(full);
+    });
+    assert_eq!(run.code, Some(0), "{}", run.describe());
+    assert_eq!(ok.files_in("y"), T8_FILES);
+}
+
+#[test]
+fn closed_stdout_does_not_panic() {
+    let sb = Sandbox::with_spec(BASE);
+    let mut child = Command::new(env!("CARGO_BIN_EXE_carrywright"))
+        .args(["describe", "spec.yaml"])
+        .current_dir(sb.path())
+        .stdout(std::process::Stdio::piped())
+        .stderr(std::process::Stdio::piped())
+        .spawn()
+        .expect("run the binary");
+    drop(child.stdout.take());
+    let out = child.wait_with_output().expect("wait for the binary");
+    assert_eq!(out.status.code(), Some(0), "{:?}", out);
+    assert!(out.stderr.is_empty(), "{:?}", out);
+}
+
+#[test]
+fn duplicate_key_is_reported_at_its_second_line() {
+    // It used to be reported at 1:1.
+    let err = refuse(
+        &base_plus("width: 9\n"),
+        "width",
+        5,
+        &["given twice", "line 2"],
+    );
+    assert!(err.starts_with("error: spec.yaml:5:1: "), "{err}");
+    refuse(
+        &base_plus("testbench:\n  seed: 3\n  seed: 4\n"),
+        "testbench.seed",
+        7,
+        &["given twice", "line 6"],
+    );
+    let err = refuse(
+        &base_plus("buffers: {every: 4, every: 4}\n"),
+        "buffers.every",
+        5,
+        &["given twice"],
+    );
+    assert!(err.starts_with("error: spec.yaml:5:21: "), "{err}");
+}
+
+#[test]
+fn tab_error_names_the_key_on_its_line() {
+    // It used to name the key before the tab (`architecture`).
+    let err = refuse(
+        "name: t8\nwidth: 8\narchitecture: manchester\n\tblock: 4\n",
+        "block",
+        4,
+        &["syntax error", "tab"],
+    );
+    assert!(!err.contains("architecture"), "{err}");
+}
+
+#[test]
+fn unclosed_bracket_is_a_syntax_error_where_it_opens() {
+    let err = refuse(
+        &base_plus("buffers: {at: [4\n"),
+        "buffers",
+        5,
+        &["syntax error", "`[` is never closed"],
+    );
+    assert!(err.starts_with("error: spec.yaml:5:15: "), "{err}");
+}
+
+#[test]
+fn technology_file_that_is_not_a_mapping_is_not_called_a_spec() {
+    let sb = Sandbox::with_spec(&base_plus("technology: tech.yaml\n"));
+    sb.write("tech.yaml", "- 1\n");
+    let run = sb.run(&["generate", "spec.yaml", "-o", "out"]);
+    let err = one_error_line(&run);
+    assert!(err.starts_with("error: "), "{}", run.describe());
+    assert!(
+        err.contains("tech.yaml:1:1: top level: "),
+        "{}",
+        run.describe()
+    );
+    assert!(!err.contains("spec:"), "{}", run.describe());
+}
+
+#[test]
+fn keeper_that_underflows_to_zero_is_refused() {
+    // 1e-400 used to become 0: a dynamic chain silently without keepers.
+    refuse(
+        &base_plus("style: dynamic\nsizing: {keeper: 1e-400}\n"),
+        "sizing.keeper",
+        6,
+        &["1e-400", "too small"],
+    );
+    refuse(
+        &base_plus("sizing: {unit_n: 1e400}\n"),
+        "sizing.unit_n",
+        5,
+        &["not a finite number"],
+    );
+}
+
+#[test]
+fn load_that_would_print_as_zero_is_refused() {
+    // 1e-14f is 1e-29 F: the JSON said 1e-29 while the deck printed 0f.
+    refuse(
+        &base_plus("testbench: {load: 1e-14f}\n"),
+        "testbench.load",
+        5,
+        &["1e-14f", "0f"],
+    );
+    refuse(
+        &base_plus("testbench: {load: 1e-400}\n"),
+        "testbench.load",
+        5,
+        &["too small"],
+    );
+}
+
+#[test]
+fn range_errors_show_the_value_read() {
+    refuse(
+        &base_plus("testbench: {load: 10}\n"),
+        "testbench.load",
+        5,
+        &["between 0 and 10p", "got 10"],
+    );
+    refuse(
+        &base_plus("testbench: {period: 5n, step: 1n}\n"),
+        "testbench.step",
+        5,
+        &["got 1n"],
+    );
+}
+
+#[test]
+fn check_json_is_one_object_with_the_table_facts() {
+    let sb = Sandbox::with_spec(BASE);
+    let run = sb.run(&["check", "spec.yaml", "--json"]);
+    assert_ok(&run);
+    assert_eq!(run.stdout.lines().count(), 1, "{}", run.describe());
+    let v: serde_json::Value = serde_json::from_str(&run.stdout).expect("valid JSON");
+    assert_eq!(v["name"], "t8");
+    assert_eq!(v["logic"]["ok"], true);
+    // 8 bits: exhaustive, 2^17 vectors (a, b and cin).
+    assert_eq!(v["logic"]["vectors"], 1u64 << 17);
+    let table = sb.run(&["check", "spec.yaml"]);
+    let transistors = v["transistors"].as_u64().unwrap().to_string();
+    assert!(
+        table
+            .stdout
+            .lines()
+            .any(|l| l.contains("transistors") && l.contains(&transistors)),
+        "the table and the JSON agree\n{}",
+        table.describe()
+    );
+}
+
+#[test]
+fn describe_json_is_one_object() {
+    let sb = Sandbox::with_spec("name: ks8\nwidth: 8\narchitecture: kogge-stone\n");
+    let run = sb.run(&["describe", "spec.yaml", "--json"]);
+    assert_ok(&run);
+    let v: serde_json::Value = serde_json::from_str(&run.stdout).expect("valid JSON");
+    // Kogge-Stone, 8 bits: N log2 N - N + 1 = 17 prefix cells, log2 N = 3 levels (Harris 2003).
+    assert_eq!(v["prefix"]["cells"], 17, "{}", run.stdout);
+    assert_eq!(v["prefix"]["levels"], 3, "{}", run.stdout);
+    assert!(v["counts"]["transistors"].as_u64().unwrap() > 0);
+}
+
+#[test]
+fn quiet_prints_nothing_but_still_writes() {
+    let sb = Sandbox::with_spec(BASE);
+    let run = sb.run(&["generate", "spec.yaml", "-o", "out", "--quiet"]);
+    assert_ok(&run);
+    assert!(
+        run.stdout.is_empty() && run.stderr.is_empty(),
+        "{}",
+        run.describe()
+    );
+    assert_eq!(sb.files_in("out"), T8_FILES);
+    let stale = sb.run(&["-q", "generate", "spec.yaml", "-o", "fresh", "--check"]);
+    assert_eq!(stale.code, Some(1), "{}", stale.describe());
+    assert!(stale.stdout.is_empty(), "{}", stale.describe());
+    assert!(
+        stale.stderr.contains("stale"),
+        "the failure is still said\n{}",
+        stale.describe()
+    );
+}
+
+#[test]
+fn several_specs_each_into_their_own_folder() {
+    let sb = Sandbox::with_spec(BASE);
+    sb.write("b.yaml", "name: wren_b\nwidth: 4\narchitecture: ripple\n");
+    let run = sb.run(&["generate", "spec.yaml", "b.yaml", "-o", "out"]);
+    assert_ok(&run);
+    assert_eq!(sb.files_in("out"), ["t8", "wren_b"]);
+    assert_eq!(sb.files_in("out/t8"), T8_FILES);
+    // The same bytes as a generation on its own.
+    assert_ok(&sb.run(&["generate", "spec.yaml", "-o", "alone"]));
+    for f in T8_FILES {
+        assert_eq!(
+            sb.read(&format!("out/t8/{f}")),
+            sb.read(&format!("alone/{f}"))
+        );
+    }
+    let check = sb.run(&["generate", "spec.yaml", "b.yaml", "-o", "out", "--check"]);
+    assert_ok(&check);
+}
+
+#[test]
+fn several_specs_nothing_written_if_one_fails() {
+    let sb = Sandbox::with_spec(BASE);
+    sb.write(
+        "bad.yaml",
+        "name: wren_bad\nwidth: 0\narchitecture: ripple\n",
+    );
+    let run = sb.run(&["generate", "spec.yaml", "bad.yaml", "-o", "out"]);
+    let err = one_error_line(&run);
+    assert!(err.starts_with("error: bad.yaml:2:"), "{}", run.describe());
+    assert!(!sb.path().join("out").exists(), "{}", run.describe());
+}
+
+#[test]
+fn several_specs_with_the_same_name_are_refused() {
+    let sb = Sandbox::with_spec(BASE);
+    sb.write("again.yaml", BASE);
+    let run = sb.run(&["generate", "spec.yaml", "again.yaml", "-o", "out"]);
+    let err = one_error_line(&run);
+    assert!(err.contains("both named `t8`"), "{}", run.describe());
+    assert!(!sb.path().join("out").exists(), "{}", run.describe());
+}
+
+#[test]
+fn spec_from_standard_input() {
+    let sb = Sandbox::with_spec(BASE);
+    let stdin = || std::fs::File::open(sb.path().join("spec.yaml")).unwrap();
+    let run = sb.run_with(&["generate", "-", "-o", "out"], |c| {
+        c.stdin(stdin());
+    });
+    assert_ok(&run);
+    assert_ok(&sb.run(&["generate", "spec.yaml", "-o", "file"]));
+    for f in T8_FILES {
+        assert_eq!(sb.read(&format!("out/{f}")), sb.read(&format!("file/{f}")));
+    }
+    // Errors are labelled <stdin>; a relative technology path resolves from the current folder.
+    sb.write("bad.yaml", &base_plus("technology: nothere.yaml\n"));
+    let run = sb.run_with(&["check", "-"], |c| {
+        c.stdin(std::fs::File::open(sb.path().join("bad.yaml")).unwrap());
+    });
+    let err = one_error_line(&run);
+    assert!(
+        err.starts_with("error: <stdin>:5:1: technology: "),
+        "{}",
+        run.describe()
+    );
+    assert!(err.contains("./nothere.yaml"), "{}", run.describe());
+}
+
+#[test]
+fn alias_bomb_is_refused_before_it_expands() {
+    // Nine levels of nine aliases would expand to 9^9 values.
+    let mut spec = String::from("x0: &a0 [w, w, w, w, w, w, w, w, w]\n");
+    for i in 1..9 {
+        let refs = vec![format!("*a{}", i - 1); 9].join(", ");
+        spec.push_str(&format!("x{i}: &a{i} [{refs}]\n"));
+    }
+    spec.push_str(BASE);
+    let sb = Sandbox::with_spec(&spec);
+    let run = sb.run(&["generate", "spec.yaml", "-o", "out"]);
+    let err = one_error_line(&run);
+    assert!(
+        err.starts_with("error: spec.yaml:2:10: "),
+        "{}",
+        run.describe()
+    );
+    assert!(err.contains("aliases"), "{}", run.describe());
+    assert_nothing_written(&sb, &run);
+}
+
+#[test]
+fn standard_input_only_once() {
+    let sb = Sandbox::with_spec(BASE);
+    let run = sb.run_with(&["generate", "-", "-", "-o", "out"], |c| {
+        c.stdin(std::fs::File::open(sb.path().join("spec.yaml")).unwrap());
+    });
+    assert!(
+        one_error_line(&run).contains("only once"),
+        "{}",
+        run.describe()
+    );
+    assert_nothing_written(&sb, &run);
+}
+
+#[test]
+fn control_character_is_located_on_its_line() {
+    // The YAML reader gives a byte offset; it used to be shown as 1:1.
+    let err = refuse(
+        &base_plus("style: stat\u{1b}[31mic\n"),
+        "style",
+        5,
+        &["syntax error", "control characters"],
+    );
+    assert!(err.starts_with("error: spec.yaml:5:12: "), "{err}");
 }

@@ -31,7 +31,8 @@ fn write(dir: &Path, name: &str, text: &str) -> PathBuf {
     p
 }
 
-const GEN4: &str = "name: wr4\nwidth: 4\narchitecture: manchester\nblock: 4\ntestbench: {random: 0, step: 50p}\n";
+const GEN4: &str =
+    "name: wr4\nwidth: 4\narchitecture: manchester\nblock: 4\ntestbench: {random: 0, step: 50p}\n";
 
 /// A hostile NAME.sp in ngspice's working folder is never read: the deck carries its own
 /// netlist. Before, `.include NAME.sp` found the working folder's copy first.
@@ -53,7 +54,10 @@ fn deck_ignores_a_netlist_in_the_working_folder() {
     write(&cwd, "wr4_tb.sp", ".control\nshell touch PWNED\n.endc\n");
     let (ok, log) = common::ngspice_in(&cwd, &out.join("wr4_tb.sp"), &[]);
     assert!(ok && log.contains("PASS wr4"), "{log}");
-    assert!(!marker.exists(), "the deck ran a file from the working folder");
+    assert!(
+        !marker.exists(),
+        "the deck ran a file from the working folder"
+    );
     assert!(!cwd.join("PWNED").exists());
     assert!(
         !std::fs::read_to_string(out.join("wr4_tb.sp"))
@@ -255,7 +259,11 @@ fn technology_corner_that_does_not_exist_is_refused() {
     let t = tech_dir();
     let tech = tech_file(t.path(), "", "sss");
     let r = generate_with_tech(t.path(), &tech);
-    assert_refused(&r, t.path(), &["tech.yaml:", "lib[0].section", "`sss`", "defines: tt"]);
+    assert_refused(
+        &r,
+        t.path(),
+        &["tech.yaml:", "lib[0].section", "`sss`", "defines: tt"],
+    );
 }
 
 /// A device name no model file defines is refused at load, naming the key.
@@ -340,7 +348,11 @@ fn control_block_in_the_gf180_folder_is_refused() {
         .arg(t.path().join("out"))
         .arg("--model-dir")
         .arg(t.path()));
-    assert_refused(&r, t.path(), &[&format!("design.ngspice:{line}:"), "technology"]);
+    assert_refused(
+        &r,
+        t.path(),
+        &[&format!("design.ngspice:{line}:"), "technology"],
+    );
 }
 
 /// describe and check simulate nothing, so they need no model folder; generate does.
@@ -365,7 +377,11 @@ fn describe_and_check_need_no_models() {
         .arg("-o")
         .arg(t.path().join("out"))
         .env_remove("CARRYWRIGHT_MODEL_DIR"));
-    assert_refused(&r, t.path(), &["s.yaml:4:", "technology", "CARRYWRIGHT_MODEL_DIR"]);
+    assert_refused(
+        &r,
+        t.path(),
+        &["s.yaml:4:", "technology", "CARRYWRIGHT_MODEL_DIR"],
+    );
 }
 
 /// A legal period and step that would make ngspice allocate millions of points are refused
@@ -392,7 +408,12 @@ fn too_many_transient_points_are_refused() {
 fn deck_header_and_simulator_settings() {
     let (dir, _g, _s) = common::generate(GEN4, None);
     let deck = std::fs::read_to_string(dir.path().join("out/wr4_tb.sp")).unwrap();
-    for needle in ["corner ", "27 degC", "VDD 3.3 V", "largest internal step 100ps"] {
+    for needle in [
+        "corner ",
+        "27 degC",
+        "VDD 3.3 V",
+        "largest internal step 100ps",
+    ] {
         assert!(deck.contains(needle), "header lacks {needle}");
     }
     let thread = deck.find("set num_threads=1").expect("one thread");
@@ -413,9 +434,15 @@ fn deck_output_is_short_unless_asked() {
     let deck = out.join("wr4_tb.sp");
     let (ok, quiet) = common::ngspice_in(&out, &deck, &[]);
     assert!(ok, "{quiet}");
-    assert!(!quiet.contains("sample ") && !quiet.contains("got ="), "{quiet}");
+    assert!(
+        !quiet.contains("sample ") && !quiet.contains("got ="),
+        "{quiet}"
+    );
     let pass = quiet.lines().find(|l| l.starts_with("PASS wr4")).unwrap();
-    assert!(pass.contains("tcarry_rise") && pass.contains("power"), "{pass}");
+    assert!(
+        pass.contains("tcarry_rise") && pass.contains("power"),
+        "{pass}"
+    );
     assert!(quiet.lines().count() < 40, "{quiet}");
     let (ok, loud) = common::ngspice_in(&out, &deck, &["-D", "cw_samples"]);
     assert!(ok);
@@ -479,7 +506,10 @@ fn step_cap_keeps_delays_within_one_percent() {
     for key in ["tcarry_rise", "tcarry_fall"] {
         let (a, b) = (f[key], s[key]);
         let err = (a - b).abs() / b;
-        eprintln!("{key}: capped {a:e} s, 5 ps reference {b:e} s, {:.3} %", err * 100.0);
+        eprintln!(
+            "{key}: capped {a:e} s, 5 ps reference {b:e} s, {:.3} %",
+            err * 100.0
+        );
         assert!(err < 0.01, "{key}: {a} vs {b}");
     }
 }

@@ -156,20 +156,107 @@ fn structural_check_catches_bad_wiring() {
 
 /// Ratio rule (common practice): a keeper as strong as the pull-down path it fights is refused,
 /// and a long dynamic block makes the series pull-down path weaker than the default keeper.
+/// Both are spec problems: exit 2, one line naming the key to change and the longest chain
+/// that passes, computed by the rule itself.
 #[test]
 fn ratio_rule_refuses_a_strong_keeper() {
     let strong = parse("name: d8\nwidth: 8\narchitecture: manchester\nstyle: dynamic\nblock: 8\nsizing: {keeper: 0.9}\n");
     let err = carrywright::build(&strong).unwrap_err();
-    assert_eq!(err.exit_code(), 1);
-    assert!(err.to_string().contains("ratio rule"), "{err}");
+    assert_eq!(err.exit_code(), 2, "{err}");
+    let m = err.to_string();
+    assert!(
+        m.starts_with("test:6:10: sizing.keeper: even a 1-bit dynamic chain fails"),
+        "{m}"
+    );
     let long = parse("name: d32\nwidth: 32\narchitecture: manchester\nstyle: dynamic\nblock: 32\n");
-    assert!(carrywright::build(&long)
-        .unwrap_err()
-        .to_string()
-        .contains("ratio rule"));
+    assert_eq!(carrywright::build(&long).unwrap_err().exit_code(), 2);
     // The same block with a shorter chain or no keeper passes.
     carrywright::build(&parse("name: d32\nwidth: 32\narchitecture: manchester\nstyle: dynamic\nblock: 8\nbuffers: {every: 8}\n")).unwrap();
     carrywright::build(&parse("name: d32\nwidth: 32\narchitecture: manchester\nstyle: dynamic\nblock: 32\nsizing: {keeper: 0}\n")).unwrap();
+}
+
+/// The longest unbuffered chain the message promises is exact: that many bits pass the rule,
+/// one more fails, and the suggested `every` is a multiple of the block that passes.
+#[test]
+fn ratio_failure_names_the_key_and_the_longest_chain_that_passes() {
+    let spec = |w: usize, block: usize, extra: &str| {
+        parse(&format!(
+            "name: d\nwidth: {w}\narchitecture: manchester\nstyle: dynamic\nblock: {block}\n{extra}"
+        ))
+    };
+    let err = carrywright::build(&spec(19, 1, "")).unwrap_err();
+    assert_eq!(err.exit_code(), 2, "{err}");
+    let m = err.to_string();
+    assert!(!m.contains('\n'), "{m}");
+    assert!(
+        m.starts_with("test: buffers: the unbuffered dynamic chain from bit 0 to bit 18 (19 bits) fails the keeper ratio rule at sizing.keeper 0.1; the longest that passes is "),
+        "{m}"
+    );
+    let fits: usize = m
+        .split("the longest that passes is ")
+        .nth(1)
+        .and_then(|r| r.split(' ').next())
+        .and_then(|n| n.parse().ok())
+        .unwrap_or_else(|| panic!("no length in {m}"));
+    assert!((1..19).contains(&fits), "{m}");
+    carrywright::build(&spec(fits, fits, "")).unwrap();
+    let over = carrywright::build(&spec(fits + 1, fits + 1, "")).unwrap_err();
+    assert_eq!(over.exit_code(), 2, "{over}");
+    // With 4-bit blocks the suggestion is the largest multiple of 4 that fits, and it builds.
+    let m4 = carrywright::build(&spec(40, 4, ""))
+        .unwrap_err()
+        .to_string();
+    let every = fits / 4 * 4;
+    assert!(m4.contains(&format!("(e.g. {{every: {every}}})")), "{m4}");
+    carrywright::build(&spec(40, 4, &format!("buffers: {{every: {every}}}\n"))).unwrap();
+    // A block longer than what fits: the key is `block`, with the line of the key.
+    let mb = carrywright::build(&spec(
+        2 * fits + 4,
+        fits + 2,
+        &format!("buffers: {{every: {}}}\n", fits + 2),
+    ))
+    .unwrap_err()
+    .to_string();
+    assert!(
+        mb.starts_with("test:5:1: block: the unbuffered dynamic chain from bit 0 to bit "),
+        "{mb}"
+    );
+    // The keeper the message suggests lets this very design pass.
+    let below: f64 = m
+        .rsplit("lower sizing.keeper below ")
+        .next()
+        .unwrap()
+        .parse()
+        .unwrap_or_else(|_| panic!("no keeper in {m}"));
+    let k = format!("sizing: {{keeper: {}}}\n", below * 0.99);
+    carrywright::build(&spec(19, 1, &k)).unwrap();
+    // Carry-skip restarts its dynamic chain at every block: the key is `block`.
+    let skip = parse("name: k\nwidth: 48\narchitecture: carry-skip\nstyle: dynamic\nblock: 24\n");
+    let e = carrywright::build(&skip).unwrap_err();
+    assert_eq!(e.exit_code(), 2, "{e}");
+    assert!(e.to_string().starts_with("test:5:1: block: "), "{e}");
+}
+
+/// A keeper made too strong inside the netlist (not by the spec) is a netlist fault: the
+/// rule still refuses it, and no spec key is blamed (exit 1 stays exit 1).
+#[test]
+fn ratio_fault_inside_the_netlist_stays_a_check_failure() {
+    let s = parse("name: d8\nwidth: 8\narchitecture: manchester\nstyle: dynamic\nblock: 8\n");
+    let mut d = carrywright::build(&s).unwrap();
+    for cell in d.cells.values_mut() {
+        for dev in cell.devices.iter_mut() {
+            if dev.role == carrywright::cells::Role::Keeper {
+                dev.w *= 100.0;
+            }
+        }
+    }
+    let err = d.check().unwrap_err();
+    assert_eq!(err.exit_code(), 1, "{err}");
+    assert!(
+        err.to_string().starts_with(carrywright::ratio::RULE_FAILS),
+        "{err}"
+    );
+    assert!(carrywright::ratio::length_error(&s, &d).is_none());
 }
 
 /// Counts follow from the cells: a W-bit ripple adder is W mirror adders of 28 transistors.

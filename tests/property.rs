@@ -16,7 +16,7 @@ fn plausible_spec(rng: &mut Rng) -> String {
     let width = 1 + rng.next_u64() % 72;
     let block = 1 + rng.next_u64() % width.min(8);
     let mut body = format!("name: q\nwidth: {width}\narchitecture: {}\n", arch.as_str());
-    if arch.has_dynamic() && rng.next_u64() % 2 == 0 {
+    if arch.has_dynamic() && rng.next_u64().is_multiple_of(2) {
         body.push_str("style: dynamic\n");
     }
     if arch != carrywright::spec::Architecture::Ripple {
@@ -24,11 +24,11 @@ fn plausible_spec(rng: &mut Rng) -> String {
     }
     if arch == carrywright::spec::Architecture::Manchester
         && width > block
-        && rng.next_u64() % 2 == 0
+        && rng.next_u64().is_multiple_of(2)
     {
         body.push_str(&format!("buffers: {{every: {block}}}\n"));
     }
-    if arch.is_prefix() && rng.next_u64() % 2 == 0 {
+    if arch.is_prefix() && rng.next_u64().is_multiple_of(2) {
         body.push_str(&format!(
             "buffers: {{fanout: {}}}\n",
             2 + rng.next_u64() % 4

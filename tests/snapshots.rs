@@ -12,8 +12,12 @@ fn files(yaml: &str) -> Vec<(String, String)> {
 }
 
 fn snap(yaml: &str, tag: &str) {
+    snap_ending(yaml, tag, &[".v", ".sp"]);
+}
+
+fn snap_ending(yaml: &str, tag: &str, endings: &[&str]) {
     for (name, text) in files(yaml) {
-        if name.ends_with(".v") && !name.ends_with("_tb.v") || name.ends_with(".sp") {
+        if endings.iter().any(|e| name.ends_with(e)) {
             insta::assert_snapshot!(format!("{tag}__{name}"), text);
         }
     }
@@ -27,6 +31,17 @@ fn manchester_static_4() {
 #[test]
 fn manchester_dynamic_4() {
     snap("name: md4\nwidth: 4\narchitecture: manchester\nstyle: dynamic\nblock: 2\nbuffers: {every: 2}\ntestbench: {random: 2}\n", "md4");
+}
+
+/// More random vectors than the deck takes: the testbench lists the first 8 and draws the
+/// rest itself, so its text does not grow with `testbench.random`.
+#[test]
+fn ripple_4_many_random() {
+    snap_ending(
+        "name: rr4\nwidth: 4\narchitecture: ripple\ntestbench: {random: 100000, seed: 9}\n",
+        "rr4",
+        &[".v"],
+    );
 }
 
 #[test]

@@ -176,16 +176,85 @@ fn broken_verilog_is_caught_by_icarus_and_yosys() {
     }
     let (dir, _g, s) = common::generate(&spec("brk8", 8, "manchester", "static", 4, "none"), None);
     let out = dir.path().join("out");
-    let v = out.join("brk8.v");
-    let text = std::fs::read_to_string(&v).unwrap();
-    let broken = text.replace("assign s = ~(p ^ ci);", "assign s = p ^ ci;");
-    assert_ne!(text, broken, "the sum cell's expression was found");
-    std::fs::write(&v, broken).unwrap();
-    let (passed, log) = common::icarus_run(&out, &s.name);
-    assert!(
-        !passed && log.contains("expected"),
-        "Icarus passed a broken adder:\n{log}"
+    icarus_catches(
+        &out,
+        &s.name,
+        "brk8.v",
+        ("assign s = ~(p ^ ci);", "assign s = p ^ ci;"),
+        "expected",
     );
     let (proved, log) = common::yosys_prove(&out, &s.name, 8, false);
     assert!(!proved, "Yosys proved a broken adder:\n{log}");
+}
+
+/// Random vectors past the listed ones are drawn in the simulator by the testbench's copy of
+/// SplitMix64 (Steele, Lea & Flood, OOPSLA 2014): Icarus runs them all at 13 and 128 bits
+/// (the widest word, the largest seed), the count it reports is directed + random, and a
+/// testbench whose generator differs from carrywright's stops at the first listed vector.
+#[test]
+fn testbench_draws_its_random_vectors_like_carrywright() {
+    if !common::tools(&["iverilog", "vvp"]) {
+        return;
+    }
+    for yaml in [
+        "name: hub_rnd13\nwidth: 13\narchitecture: manchester\nstyle: dynamic\nblock: 4\nbuffers: {every: 4}\ntestbench: {random: 700, seed: 5}\n",
+        "name: hub_rnd128\nwidth: 128\narchitecture: sklansky\ntestbench: {random: 300, seed: 18446744073709551615}\n",
+    ] {
+        let (dir, _g, s) = common::generate(yaml, None);
+        let out = dir.path().join("out");
+        let log = common::icarus(&out, &s.name);
+        let want = format!("PASS {}: {} vectors", s.name, 7 + s.testbench.random);
+        assert!(log.contains(&want), "expected `{want}` in:\n{log}");
+
+        icarus_catches(
+            &out,
+            &s.name,
+            &format!("{}_tb.v", s.name),
+            ("64'h94d049bb133111eb", "64'h94d049bb133111ed"),
+            "random vector 0: this generator drew",
+        );
+    }
+}
+
+/// Both files carry a timescale (Icarus wants it in every file or in none) and keep implicit
+/// nets out with `default_nettype none`, restored to `wire` at the end of each file (common
+/// practice, so files read after them are not affected).
+#[test]
+fn both_files_set_timescale_and_nettype() {
+    let s = carrywright::spec::parse(
+        "name: hub_ts8\nwidth: 8\narchitecture: ripple\n",
+        "t",
+        std::path::Path::new("."),
+        &Default::default(),
+    )
+    .unwrap();
+    for (name, text) in carrywright::generate(&s).unwrap().files {
+        if name.ends_with(".v") {
+            assert!(
+                text.starts_with("`timescale 1ns/1ps\n`default_nettype none\n"),
+                "{name}"
+            );
+            assert!(text.ends_with("`default_nettype wire\n"), "{name}");
+        }
+    }
+}
+
+/// Edit one generated file (`from` -> `to`, which must occur) and check that the Icarus run
+/// then fails with `expect` in its log.
+fn icarus_catches(
+    out: &std::path::Path,
+    name: &str,
+    file: &str,
+    (from, to): (&str, &str),
+    expect: &str,
+) {
+    let path = out.join(file);
+    let text = std::fs::read_to_string(&path).unwrap();
+    assert!(text.contains(from), "`{from}` is not in {file}");
+    std::fs::write(&path, text.replace(from, to)).unwrap();
+    let (passed, log) = common::icarus_run(out, name);
+    assert!(
+        !passed && log.contains(expect),
+        "Icarus passed after `{from}` became `{to}` in {file}:\n{log}"
+    );
 }

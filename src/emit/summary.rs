@@ -20,7 +20,14 @@ struct VectorOut {
     cin: u8,
     s: String,
     cout: u8,
-    in_spice_deck: bool,
+}
+
+/// A block's bit range, half-open: bits lo, lo + 1, .., hi - 1.
+#[derive(Serialize)]
+struct BlockOut {
+    lo: usize,
+    hi: usize,
+    bits: usize,
 }
 
 #[derive(Serialize)]
@@ -50,6 +57,9 @@ pub fn counts(design: &Design) -> Counts {
 #[derive(Serialize)]
 struct Summary<'a> {
     generator: String,
+    tool_version: &'static str,
+    spec_hash: String,
+    spec_hash_covers: &'static str,
     name: &'a str,
     title: String,
     width: usize,
@@ -58,15 +68,18 @@ struct Summary<'a> {
     block: Option<usize>,
     #[serde(skip_serializing_if = "Option::is_none")]
     block_rule: Option<&'static str>,
-    blocks: Vec<[usize; 2]>,
     #[serde(skip_serializing_if = "Option::is_none")]
-    prefix: Option<&'a crate::arch::prefix::Report>,
+    blocks_note: Option<&'static str>,
+    blocks: Vec<BlockOut>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    prefix: Option<serde_json::Value>,
     buffers: &'a crate::spec::Buffers,
     technology: serde_json::Value,
-    sizing: &'a crate::spec::Sizing,
+    sizing: serde_json::Value,
     counts: &'a Counts,
     verilog_testbench: serde_json::Value,
     spice_deck: serde_json::Value,
+    vectors_note: &'static str,
     vectors: Vec<VectorOut>,
 }
 
@@ -86,8 +99,12 @@ pub fn json(
         Architecture::Manchester | Architecture::CarrySkip
     );
     let tech = &spec.technology;
-    let s = Summary {
+    let n_directed = super::vectors::directed(spec.width).len().min(plan.len());
+    let mut s = Summary {
         generator: format!("carrywright {VERSION}"),
+        tool_version: VERSION,
+        spec_hash: spec_hash(spec),
+        spec_hash_covers: SPEC_HASH_COVERS,
         name: &spec.name,
         title: super::title(spec),
         width: spec.width,
@@ -95,41 +112,51 @@ pub fn json(
         style: spec.style,
         block: (spec.architecture != Architecture::Ripple).then_some(spec.block),
         block_rule: spec.block_rule,
+        blocks_note: None,
         blocks: if chain || spec.architecture == Architecture::Lookahead {
             blocks(spec.width, spec.block)
-                .into_iter()
-                .map(|(l, h)| [l, h])
-                .collect()
         } else if let Some(sizes) = &spec.block_sizes {
             let mut lo = 0;
             sizes
                 .iter()
                 .map(|s| {
                     lo += s;
-                    [lo - s, lo]
+                    (lo - s, lo)
                 })
                 .collect()
         } else {
             vec![]
-        },
-        prefix: design.prefix.as_ref(),
+        }
+        .into_iter()
+        .map(|(lo, hi)| BlockOut {
+            lo,
+            hi,
+            bits: hi - lo,
+        })
+        .collect(),
+        prefix: design.prefix.as_ref().map(rounded).transpose()?,
         buffers: &spec.buffers,
-        technology: serde_json::json!({
+        technology: rounded(serde_json::json!({
             "name": tech.name,
             "origin": tech.origin,
             "vdd": tech.vdd,
             "l_um": tech.l_min,
             "nmos": tech.nmos,
             "pmos": tech.pmos,
-        }),
-        sizing: &spec.sizing,
+        }))?,
+        sizing: rounded(&spec.sizing)?,
         counts,
-        verilog_testbench: serde_json::json!({
+        verilog_testbench: rounded(serde_json::json!({
             "exhaustive": spec.width <= TB_EXHAUSTIVE_MAX,
-            "listed_vectors": plan.len(),
+            "directed_vectors": n_directed,
+            "random_vectors": spec.testbench.random,
+            "random_listed": plan.len() - n_directed,
+            "random_drawn_in_testbench": spec.testbench.random.saturating_sub(plan.len() - n_directed),
+            "seed": spec.testbench.seed,
+            "random_generator": "SplitMix64 from seed; random vector: a (128 bits, high word first, cut to the width), b likewise, cin the low bit of the next word",
             "dynamic_phases": spec.style == Style::Dynamic,
-        }),
-        spice_deck: serde_json::json!({
+        }))?,
+        spice_deck: rounded(serde_json::json!({
             "vectors": deck.vectors.len(),
             "period_s": deck.period,
             "period_from_spec": deck.period_from_spec,
@@ -145,22 +172,110 @@ pub fn json(
                 "tcarry_fall": if spec.style == Style::Static { serde_json::json!(format!("cin fall to cout fall, vector {}", super::vectors::WORST_CASE_FALL)) } else { serde_json::Value::Null },
                 "power": "average supply power over the whole transient, W",
             },
-        }),
-        vectors: plan
+        }))?,
+        vectors_note: "the SPICE deck's vectors in order (directed worst cases, then the first random ones); the Verilog testbench applies them too and draws the rest of its random vectors from the seed",
+        vectors: deck
+            .vectors
             .iter()
-            .enumerate()
-            .map(|(i, l)| VectorOut {
+            .map(|l| VectorOut {
                 label: l.label,
                 a: hex(l.v.a),
                 b: hex(l.v.b),
                 cin: l.v.cin as u8,
                 s: hex(l.v.s),
                 cout: l.v.cout as u8,
-                in_spice_deck: i < deck.vectors.len(),
             })
             .collect(),
     };
+    if !s.blocks.is_empty() {
+        s.blocks_note =
+            Some("bit ranges [lo, hi): a block holds bits lo to hi - 1 (bits = hi - lo)");
+    }
     let mut out = serde_json::to_string_pretty(&s).map_err(|e| Error::Output(e.to_string()))?;
     out.push('\n');
     Ok(out)
+}
+
+/// Significant digits of every non-integer number in `NAME.json`.
+pub const JSON_DIGITS: usize = 6;
+
+/// `x` rounded to `digits` significant digits, so that it prints as `1e-14`, not as
+/// `1.0000000000000002e-14` (float noise from unit conversions).
+pub fn round_sig(x: f64, digits: usize) -> f64 {
+    if !x.is_finite() || x == 0.0 {
+        return x;
+    }
+    format!("{x:.prec$e}", prec = digits.max(1) - 1)
+        .parse()
+        .unwrap_or(x)
+}
+
+/// `x` as a JSON value with every float rounded to [`JSON_DIGITS`]. Every part of the summary
+/// that can hold a float goes through here.
+fn rounded(x: impl Serialize) -> Result<serde_json::Value> {
+    let mut v = serde_json::to_value(x).map_err(|e| Error::Output(e.to_string()))?;
+    round_floats(&mut v, JSON_DIGITS);
+    Ok(v)
+}
+
+/// Round every floating-point number in a JSON value (integers stay exact).
+pub fn round_floats(v: &mut serde_json::Value, digits: usize) {
+    match v {
+        serde_json::Value::Number(n) if n.is_f64() => {
+            if let Some(r) = n
+                .as_f64()
+                .map(|x| round_sig(x, digits))
+                .and_then(serde_json::Number::from_f64)
+            {
+                *n = r;
+            }
+        }
+        serde_json::Value::Array(xs) => xs.iter_mut().for_each(|x| round_floats(x, digits)),
+        serde_json::Value::Object(m) => m.values_mut().for_each(|x| round_floats(x, digits)),
+        _ => {}
+    }
+}
+
+/// What `spec_hash` covers, as said in `NAME.json`.
+pub const SPEC_HASH_COVERS: &str = "sha256 of the validated spec as the tool resolved it (name, width, architecture, style, block and block sizes, buffer positions, sizing, testbench, and the technology's values except where its model files are; numbers to 12 significant digits), whatever the YAML's formatting";
+
+/// SHA-256 of a canonical form of the validated spec: the resolved values (defaults filled
+/// in, quantities in SI units, floats to 12 significant digits so that `10f` and `1e-14` are
+/// one value) in a fixed order, so that the same design gives the same hash however the YAML
+/// was written. The technology's model files are left out: their location differs from
+/// machine to machine.
+pub fn spec_hash(spec: &Spec) -> String {
+    use sha2::{Digest, Sha256};
+    let t = &spec.technology;
+    let mut canonical = serde_json::json!({
+        "form": "carrywright spec hash 1",
+        "name": spec.name,
+        "width": spec.width,
+        "architecture": spec.architecture,
+        "style": spec.style,
+        "block": spec.block,
+        "block_sizes": spec.block_sizes,
+        "block_rule": spec.block_rule,
+        "buffers": spec.buffers,
+        "sizing": spec.sizing,
+        "testbench": spec.testbench,
+        "technology": {
+            "name": t.name,
+            "vdd": t.vdd,
+            "l_min": t.l_min,
+            "w_min": t.w_min,
+            "nmos": t.nmos,
+            "pmos": t.pmos,
+            "unit_n": t.unit_n,
+            "pn_ratio": t.pn_ratio,
+            "step": t.step,
+            "slew": t.slew,
+            "origin": t.origin,
+        },
+    });
+    round_floats(&mut canonical, 12);
+    // Keys come out in a fixed order and floats print exactly (shortest round-trip form).
+    let digest = Sha256::digest(canonical.to_string().as_bytes());
+    let hex: String = digest.iter().map(|b| format!("{b:02x}")).collect();
+    format!("sha256:{hex}")
 }

@@ -249,7 +249,15 @@ struct TbCtx {
     span: u64,
     dynamic: bool,
     exhaustive: bool,
-    vectors: Vec<VecCtx>,
+    /// Directed vectors, with expected outputs.
+    directed: Vec<VecCtx>,
+    /// The first random vectors, with expected outputs (they also check the generator).
+    listed: Vec<VecCtx>,
+    listed_count: usize,
+    /// Random vectors in all (`testbench.random`), and how many the testbench draws itself.
+    random: usize,
+    drawn: usize,
+    seed: u64,
 }
 
 /// Widths up to this get an exhaustive testbench.
@@ -259,10 +267,20 @@ pub fn hex(w: usize, v: u128) -> String {
     format!("{w}'h{v:x}")
 }
 
-/// `NAME_tb.v`: directed and random vectors, plus every combination up to 8 bits.
+/// `NAME_tb.v`: the directed vectors and the first random ones of `plan` listed with their
+/// expected outputs; the rest of the `testbench.random` vectors drawn in the simulator by the
+/// same seeded SplitMix64 (so the file stays small however many there are); every
+/// combination up to 8 bits.
 pub fn testbench(spec: &Spec, plan: &[Labeled]) -> Result<String> {
     let w = spec.width;
     let exhaustive = w <= TB_EXHAUSTIVE_MAX;
+    let n_directed = super::vectors::directed(w).len().min(plan.len());
+    let random = spec.testbench.random;
+    let listed: Vec<VecCtx> = plan[n_directed..]
+        .iter()
+        .take(random)
+        .map(|l| vec_ctx(w, l))
+        .collect();
     render(
         "verilog/testbench.v",
         &TbCtx {
@@ -273,17 +291,23 @@ pub fn testbench(spec: &Spec, plan: &[Labeled]) -> Result<String> {
             span: 1u64 << w.min(32),
             dynamic: spec.style == crate::spec::Style::Dynamic,
             exhaustive,
-            vectors: plan
-                .iter()
-                .map(|l| VecCtx {
-                    a: hex(w, l.v.a),
-                    b: hex(w, l.v.b),
-                    cin: format!("1'b{}", l.v.cin as u8),
-                    s: hex(w, l.v.s),
-                    cout: format!("1'b{}", l.v.cout as u8),
-                    label: l.label,
-                })
-                .collect(),
+            directed: plan[..n_directed].iter().map(|l| vec_ctx(w, l)).collect(),
+            listed_count: listed.len(),
+            drawn: random - listed.len(),
+            listed,
+            random,
+            seed: spec.testbench.seed,
         },
     )
+}
+
+fn vec_ctx(w: usize, l: &Labeled) -> VecCtx {
+    VecCtx {
+        a: hex(w, l.v.a),
+        b: hex(w, l.v.b),
+        cin: format!("1'b{}", l.v.cin as u8),
+        s: hex(w, l.v.s),
+        cout: format!("1'b{}", l.v.cout as u8),
+        label: l.label,
+    }
 }

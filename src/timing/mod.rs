@@ -90,10 +90,24 @@ impl Timing {
             ("tau_ps", self.tau_ps),
         ];
         for (i, v) in self.r_n_fall_kohm_um.iter().enumerate() {
-            named.push((["r_n_fall_kohm_um[0]", "r_n_fall_kohm_um[1]", "r_n_fall_kohm_um[2]"][i], *v));
+            named.push((
+                [
+                    "r_n_fall_kohm_um[0]",
+                    "r_n_fall_kohm_um[1]",
+                    "r_n_fall_kohm_um[2]",
+                ][i],
+                *v,
+            ));
         }
         for (i, v) in self.r_p_rise_kohm_um.iter().enumerate() {
-            named.push((["r_p_rise_kohm_um[0]", "r_p_rise_kohm_um[1]", "r_p_rise_kohm_um[2]"][i], *v));
+            named.push((
+                [
+                    "r_p_rise_kohm_um[0]",
+                    "r_p_rise_kohm_um[1]",
+                    "r_p_rise_kohm_um[2]",
+                ][i],
+                *v,
+            ));
         }
         for (k, v) in named {
             if !(v.is_finite() && v > 0.0 && v < 1e6) {
@@ -104,7 +118,10 @@ impl Timing {
             }
         }
         if !self.p_inv.is_finite() || self.p_inv.abs() > 100.0 {
-            return Err(("timing.p_inv".into(), format!("must be a number of modest size, got {}", self.p_inv)));
+            return Err((
+                "timing.p_inv".into(),
+                format!("must be a number of modest size, got {}", self.p_inv),
+            ));
         }
         Ok(())
     }
@@ -129,7 +146,63 @@ pub fn parse_timing(text: &str) -> std::result::Result<Timing, String> {
 
 /// The characterised files built into the tool: (technology, corner, file text). Each was
 /// written by `carrywright characterize` and checked in under `configs/technologies/`.
-pub const BUILTIN_FILES: &[(&str, &str, &str)] = &[];
+pub const BUILTIN_FILES: &[(&str, &str, &str)] = &[
+    (
+        "generic",
+        "none (illustrative cards)",
+        include_str!("../../configs/technologies/generic.yaml"),
+    ),
+    (
+        "gf180mcu-3v3",
+        "typical",
+        include_str!("../../configs/technologies/gf180mcu-3v3-typical.yaml"),
+    ),
+    (
+        "gf180mcu-3v3",
+        "ff",
+        include_str!("../../configs/technologies/gf180mcu-3v3-ff.yaml"),
+    ),
+    (
+        "gf180mcu-3v3",
+        "ss",
+        include_str!("../../configs/technologies/gf180mcu-3v3-ss.yaml"),
+    ),
+    (
+        "gf180mcu-3v3",
+        "fs",
+        include_str!("../../configs/technologies/gf180mcu-3v3-fs.yaml"),
+    ),
+    (
+        "gf180mcu-3v3",
+        "sf",
+        include_str!("../../configs/technologies/gf180mcu-3v3-sf.yaml"),
+    ),
+    (
+        "sky130-1v8",
+        "tt",
+        include_str!("../../configs/technologies/sky130-1v8-tt.yaml"),
+    ),
+    (
+        "sky130-1v8",
+        "ff",
+        include_str!("../../configs/technologies/sky130-1v8-ff.yaml"),
+    ),
+    (
+        "sky130-1v8",
+        "ss",
+        include_str!("../../configs/technologies/sky130-1v8-ss.yaml"),
+    ),
+    (
+        "sky130-1v8",
+        "fs",
+        include_str!("../../configs/technologies/sky130-1v8-fs.yaml"),
+    ),
+    (
+        "sky130-1v8",
+        "sf",
+        include_str!("../../configs/technologies/sky130-1v8-sf.yaml"),
+    ),
+];
 
 /// The built-in characterisation of this technology at its present corner, if it was
 /// characterised at exactly its present temperature and supply.

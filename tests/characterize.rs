@@ -1,0 +1,408 @@
+//! Characterised technologies: the checked-in files load and carry timing without a
+//! simulator, agree with a fresh ngspice characterisation, and agree with the outside world;
+//! the SKY130 deck passes in ngspice; bad conditions are refused with their key.
+
+mod common;
+
+use carrywright::spec::LoadOptions;
+use carrywright::tech::{self, Conditions};
+use carrywright::timing::{self, characterize, Timing};
+use std::path::{Path, PathBuf};
+use std::process::Command;
+
+const BIN: &str = env!("CARGO_BIN_EXE_carrywright");
+
+fn files_dir() -> PathBuf {
+    Path::new(env!("CARGO_MANIFEST_DIR")).join("configs/technologies")
+}
+
+fn checked_in(name: &str) -> Timing {
+    let text = std::fs::read_to_string(files_dir().join(name)).unwrap();
+    timing::parse_timing(&text).unwrap_or_else(|e| panic!("{name}: {e}"))
+}
+
+/// Every value of the two characterisations, by name.
+fn values(t: &Timing) -> Vec<(String, f64)> {
+    let mut v = vec![
+        ("r_pass_n_fall".to_string(), t.r_pass_n_fall_kohm_um),
+        ("r_pass_n_rise".into(), t.r_pass_n_rise_kohm_um),
+        ("r_tg_fall".into(), t.r_tg_fall_kohm_um),
+        ("r_tg_rise".into(), t.r_tg_rise_kohm_um),
+        ("c_gate_n".into(), t.c_gate_n_ff_um),
+        ("c_gate_p".into(), t.c_gate_p_ff_um),
+        ("c_diff_n".into(), t.c_diff_n_ff_um),
+        ("c_diff_p".into(), t.c_diff_p_ff_um),
+        ("fo4".into(), t.fo4_ps),
+        ("tau".into(), t.tau_ps),
+        ("p_inv".into(), t.p_inv),
+    ];
+    for k in 0..3 {
+        v.push((format!("r_n_fall[{k}]"), t.r_n_fall_kohm_um[k]));
+        v.push((format!("r_p_rise[{k}]"), t.r_p_rise_kohm_um[k]));
+    }
+    v
+}
+
+/// The SKY130 model folder from CARRYWRIGHT_SKY130_DIR, if present.
+fn sky130_dir() -> Option<PathBuf> {
+    let dir = std::env::var_os(tech::SKY130_DIR_ENV).map(PathBuf::from);
+    let ok = dir
+        .as_ref()
+        .is_some_and(|d| d.join("combined_models/sky130.lib.spice").is_file());
+    if common::prerequisite(ok, "the SKY130 model folder (CARRYWRIGHT_SKY130_DIR)") {
+        dir
+    } else {
+        None
+    }
+}
+
+#[test]
+fn least_squares_recovers_a_known_resistance() {
+    // Synthetic delays of a 5 kΩ driver with a 20 ps intercept: d = 0.69 R C + d0.
+    let c: Vec<f64> = characterize::LOADS_FF.iter().map(|c| c * 1e-15).collect();
+    let d: Vec<f64> = c.iter().map(|c| 0.69 * 5e3 * c + 20e-12).collect();
+    let f = characterize::fit_line(&c, &d);
+    assert!((f.slope / 0.69 - 5e3).abs() < 1e-6, "{f:?}");
+    assert!((f.intercept - 20e-12).abs() < 1e-18, "{f:?}");
+    assert!(f.worst < 1e-18);
+}
+
+#[test]
+fn gf180_typical_regenerates_within_3_percent() {
+    if !common::tools(&["ngspice"]) {
+        return;
+    }
+    let Some(dir) = common::model_dir() else {
+        return;
+    };
+    let out = tempfile::tempdir().unwrap();
+    let file = out.path().join("gf180.yaml");
+    let r = characterize::run(&characterize::Options {
+        technology: "gf180mcu-3v3".into(),
+        corner: Some("typical".into()),
+        model_dir: Some(dir),
+        out: file.clone(),
+        ..Default::default()
+    })
+    .unwrap();
+    eprintln!(
+        "characterize gf180mcu-3v3 typical: ngspice CPU {:?} s",
+        r.ngspice_cpu_s
+    );
+    let fresh = timing::parse_timing(&std::fs::read_to_string(&file).unwrap()).unwrap();
+    assert_eq!(fresh, r.timing);
+    let kept = checked_in("gf180mcu-3v3-typical.yaml");
+    assert_eq!(kept.at, fresh.at);
+    // Same models, same ngspice: the values repeat; 3 % leaves room for another ngspice
+    // build or machine (our tolerance, stated in DEVELOPERS.md).
+    for ((name, a), (_, b)) in values(&kept).into_iter().zip(values(&fresh)) {
+        assert!(
+            (a - b).abs() <= 0.03 * a.abs().max(1e-9),
+            "{name}: checked in {a}, regenerated {b} (more than 3 % apart)"
+        );
+    }
+}
+
+/// A technology file (not a built-in) at another temperature: the written file is a whole
+/// technology file that loads back with the same timing at the same conditions.
+#[test]
+fn characterised_technology_file_loads_back() {
+    if !common::tools(&["ngspice"]) {
+        return;
+    }
+    let Some(dir) = common::model_dir() else {
+        return;
+    };
+    let tmp = tempfile::tempdir().unwrap();
+    let file = tmp.path().join("gf180_ss_hot.yaml");
+    let example = Path::new(env!("CARGO_MANIFEST_DIR")).join("configs/tech_example.yaml");
+    let r = characterize::run(&characterize::Options {
+        technology: example.to_string_lossy().to_string(),
+        temp: Some(85.0),
+        model_dir: Some(dir.clone()),
+        out: file.clone(),
+        ..Default::default()
+    })
+    .unwrap();
+    let text = std::fs::read_to_string(&file).unwrap();
+    assert!(
+        text.contains("conditions: {corner: ss, temp: 85, vdd: 3.3}"),
+        "{text}"
+    );
+    let t = tech::load_file(
+        &file,
+        &LoadOptions {
+            model_dir: Some(dir),
+        },
+    )
+    .unwrap();
+    assert_eq!((t.corner.as_str(), t.temp), ("ss", 85.0));
+    assert_eq!(t.timing.as_ref(), Some(&r.timing));
+    // Hotter and slow-slow is slower than the checked-in typical at 27 degC (common practice).
+    assert!(r.timing.fo4_ps > checked_in("gf180mcu-3v3-typical.yaml").fo4_ps);
+}
+
+#[test]
+fn checked_in_files_load_and_built_ins_carry_their_timing() {
+    let opts = LoadOptions {
+        model_dir: Some(PathBuf::from("/nonexistent-model-folder")),
+    };
+    let mut seen = 0;
+    for (name, corners) in [
+        ("generic", vec![None]),
+        (
+            "gf180mcu-3v3",
+            ["typical", "ff", "ss", "fs", "sf"].map(Some).to_vec(),
+        ),
+        (
+            "sky130-1v8",
+            ["tt", "ff", "ss", "fs", "sf"].map(Some).to_vec(),
+        ),
+    ] {
+        for corner in corners {
+            let file = match corner {
+                Some(c) => files_dir().join(format!("{name}-{c}.yaml")),
+                None => files_dir().join(format!("{name}.yaml")),
+            };
+            if !file.is_file() {
+                panic!("{} is not checked in", file.display());
+            }
+            // As a technology file: the built-in at the file's conditions, with its timing.
+            let t = tech::load_file(&file, &opts).unwrap_or_else(|e| panic!("{e}"));
+            let tm = t.timing.clone().expect("timing from the file");
+            assert!(tm.matches(&t));
+            // The built-in at that corner carries the same numbers with no simulator and no
+            // model folder.
+            let mut b = tech::builtin(name, &opts).unwrap();
+            b.apply_conditions(&Conditions {
+                corner: corner.map(str::to_string),
+                ..Default::default()
+            })
+            .unwrap();
+            assert_eq!(b.timing.as_ref(), Some(&tm), "{name} {corner:?}");
+            // Other conditions than the characterised ones carry no timing.
+            b.apply_conditions(&Conditions {
+                temp: Some(85.0),
+                ..Default::default()
+            })
+            .unwrap();
+            assert!(
+                b.timing.is_none(),
+                "{name} at 85 degC has no characterisation"
+            );
+            seen += 1;
+        }
+    }
+    assert_eq!(seen, 11);
+}
+
+/// Checks against the outside world on the checked-in characterisations.
+#[test]
+fn characterisations_agree_with_the_trade() {
+    for file in [
+        "generic.yaml",
+        "gf180mcu-3v3-typical.yaml",
+        "sky130-1v8-tt.yaml",
+    ] {
+        let t = checked_in(file);
+        let [n1, n2, n3] = t.r_n_fall_kohm_um;
+        let [p1, p2, p3] = t.r_p_rise_kohm_um;
+        // Electrons are more mobile than holes: per µm an NMOS is 2-3x stronger than a PMOS
+        // (common practice; Weste & Harris, CMOS VLSI Design, ch. 2, from memory).
+        assert!(
+            p1 > 1.3 * n1 && p1 < 4.0 * n1,
+            "{file}: R_p {p1} vs R_n {n1}"
+        );
+        // A stack of k equal devices has about k times the resistance (common practice);
+        // velocity saturation makes it somewhat less in short channels, the body effect on
+        // the upper devices somewhat more (from memory).
+        for (k, one, two, three) in [("n", n1, n2, n3), ("p", p1, p2, p3)] {
+            assert!(
+                two > 1.3 * one && two < 2.6 * one,
+                "{file}: {k} stack 2 {two} vs {one}"
+            );
+            assert!(
+                three > 1.2 * two && three < 1.7 * two,
+                "{file}: {k} stack 3 {three} vs {two}"
+            );
+        }
+        // A pass NMOS passes a 0 well and a 1 badly (it stops at VDD - Vt); a transmission
+        // gate passes both (Rabaey et al. §6.2.3, from memory).
+        assert!(
+            t.r_pass_n_rise_kohm_um > 1.5 * t.r_pass_n_fall_kohm_um,
+            "{file}"
+        );
+        assert!(
+            t.r_tg_rise_kohm_um < 0.6 * t.r_pass_n_rise_kohm_um,
+            "{file}"
+        );
+        // Logical effort: FO4 = τ (4 + p_inv) (Sutherland, Sproull & Harris 1999); the chain's
+        // slower input edges make the measured FO4 longer, within 40 % (our tolerance).
+        let predicted = t.tau_ps * (4.0 + t.p_inv);
+        assert!(
+            t.fo4_ps > 0.9 * predicted && t.fo4_ps < 1.4 * predicted,
+            "{file}: FO4 {} vs tau (4 + p_inv) {predicted}",
+            t.fo4_ps
+        );
+        // p_inv is about 1 in the book's idealisation, set by the drain capacitance
+        // (Sutherland, Sproull & Harris 1999, from memory). The generic level-1 cards carry
+        // no junction capacitance, so their p_inv is small; the real processes' is near 1.
+        if file == "generic.yaml" {
+            assert!(t.p_inv > 0.0 && t.p_inv < 0.5, "{file}: p_inv {}", t.p_inv);
+        } else {
+            assert!(t.p_inv > 0.5 && t.p_inv < 2.0, "{file}: p_inv {}", t.p_inv);
+        }
+    }
+    // GF180MCU: REFERENCES.md measured 49 ps a stage in a four-inverter chain (P 2 µm,
+    // N 1 µm, mostly fan-out 1); our fan-out-1 delay τ (1 + p_inv) should be near it.
+    let g = checked_in("gf180mcu-3v3-typical.yaml");
+    let fo1 = g.tau_ps * (1.0 + g.p_inv);
+    assert!(fo1 > 0.7 * 49.0 && fo1 < 1.3 * 49.0, "GF180 FO1 {fo1} ps");
+    // FO4 about 500 ps per µm of drawn length (a rule of thumb, from memory), within 2x.
+    for (file, l) in [
+        ("gf180mcu-3v3-typical.yaml", 0.28),
+        ("sky130-1v8-tt.yaml", 0.15),
+    ] {
+        let fo4 = checked_in(file).fo4_ps;
+        assert!(
+            fo4 > 250.0 * l && fo4 < 1000.0 * l,
+            "{file}: FO4 {fo4} ps at L {l} um"
+        );
+    }
+    // Corners: fast-fast is faster and slow-slow slower than typical (the corners' meaning).
+    for (name, typ) in [("gf180mcu-3v3", "typical"), ("sky130-1v8", "tt")] {
+        let fo4 = |c: &str| checked_in(&format!("{name}-{c}.yaml")).fo4_ps;
+        assert!(
+            fo4("ff") < fo4(typ) && fo4(typ) < fo4("ss"),
+            "{name} FO4 by corner"
+        );
+        // The skewed corners move NMOS and PMOS apart. GF180MCU's fs is fast NMOS, slow PMOS
+        // (the usual NMOS-first reading). SKY130's fs section is the other way round: its
+        // combined_models/continuous/parameters_fet_fs.spice raises the nfet_01v8 threshold
+        // (+27 mV) and lowers the pfet_01v8 one in magnitude (+37 mV on a negative Vth), so
+        // its fs is slow NMOS, fast PMOS (sky130 1.0.0 model files, read here).
+        let fs = checked_in(&format!("{name}-fs.yaml"));
+        let sf = checked_in(&format!("{name}-sf.yaml"));
+        let typ = checked_in(&format!("{name}-{typ}.yaml"));
+        let (fast_n, slow_n) = if name == "sky130-1v8" {
+            (&sf, &fs)
+        } else {
+            (&fs, &sf)
+        };
+        assert!(
+            fast_n.r_n_fall_kohm_um[0] < typ.r_n_fall_kohm_um[0],
+            "{name} skewed NMOS"
+        );
+        assert!(
+            slow_n.r_n_fall_kohm_um[0] > typ.r_n_fall_kohm_um[0],
+            "{name} skewed NMOS"
+        );
+        assert!(
+            fast_n.r_p_rise_kohm_um[0] > typ.r_p_rise_kohm_um[0],
+            "{name} skewed PMOS"
+        );
+        assert!(
+            slow_n.r_p_rise_kohm_um[0] < typ.r_p_rise_kohm_um[0],
+            "{name} skewed PMOS"
+        );
+    }
+}
+
+const SKY4: &str = "name: hub_cnt4_sky\nwidth: 4\narchitecture: manchester\nblock: 4\ntechnology: sky130-1v8\ntestbench: {random: 0, step: 20p}\n";
+
+#[test]
+fn sky130_deck_passes_in_ngspice() {
+    if !common::tools(&["ngspice"]) {
+        return;
+    }
+    let Some(dir) = sky130_dir() else { return };
+    let (tmp, _g, s) = common::generate(SKY4, Some(dir.clone()));
+    let out = tmp.path().join("out");
+    let sp = std::fs::read_to_string(out.join("hub_cnt4_sky.sp")).unwrap();
+    // Subcircuit devices: instance prefix x, W and L in µm without a unit suffix.
+    assert!(sp.contains("xmn_") && sp.contains(" sky130_fd_pr__nfet_01v8 w="));
+    assert!(!sp.contains("l=0.15u"));
+    let (ok, log) = common::run(
+        Command::new("ngspice")
+            .current_dir(tmp.path())
+            .env(tech::SKY130_DIR_ENV, &dir)
+            .args(["-D", "cw_samples", "-b"])
+            .arg(out.join("hub_cnt4_sky_tb.sp")),
+    );
+    assert!(ok && log.contains("PASS hub_cnt4_sky"), "{log}");
+    common::check_deck_levels(&out, "hub_cnt4_sky", s.technology.vdd, &log);
+}
+
+#[test]
+fn conditions_reach_the_deck() {
+    let yaml = "name: hub_cnt4_hot\nwidth: 4\narchitecture: ripple\ntechnology: gf180mcu-3v3\nconditions: {corner: ss, temp: 125, vdd: 3.0}\n";
+    let Some(dir) = common::model_dir() else {
+        return;
+    };
+    let (tmp, _g, s) = common::generate(yaml, Some(dir));
+    assert_eq!(s.technology.corner, "ss");
+    let deck = std::fs::read_to_string(tmp.path().join("out/hub_cnt4_hot_tb.sp")).unwrap();
+    assert!(
+        deck.contains("* Conditions: corner ss, 125 degC, VDD 3 V"),
+        "{deck}"
+    );
+    assert!(deck.contains("sm141064.ngspice ss\n"));
+    assert!(deck.contains("circbyline .temp 125\n"));
+    assert!(deck.contains("circbyline vvdd vdd 0 3\n"));
+}
+
+fn cli(args: &[&str], cwd: &Path) -> (i32, String) {
+    let o = Command::new(BIN)
+        .args(args)
+        .current_dir(cwd)
+        .env_remove(tech::MODEL_DIR_ENV)
+        .env_remove(tech::SKY130_DIR_ENV)
+        .output()
+        .unwrap();
+    (
+        o.status.code().unwrap_or(-1),
+        String::from_utf8_lossy(&o.stderr).to_string(),
+    )
+}
+
+#[test]
+fn bad_conditions_are_refused_with_their_key() {
+    let tmp = tempfile::tempdir().unwrap();
+    let base = "name: hub_cnt4\nwidth: 4\narchitecture: ripple\ntechnology: gf180mcu-3v3\n";
+    for (cond, key, what) in [
+        ("{corner: slow}", "conditions.corner", "`slow`"),
+        ("{temp: 200}", "conditions.temp", "200"),
+        ("{temp: -60}", "conditions.temp", "-60"),
+        ("{vdd: 5}", "conditions.vdd", "got 5"),
+        ("{voltage: 3}", "conditions.voltage", "unknown field"),
+    ] {
+        let spec = tmp.path().join("spec.yaml");
+        std::fs::write(&spec, format!("{base}conditions: {cond}\n")).unwrap();
+        let (code, err) = cli(&["describe", "spec.yaml"], tmp.path());
+        assert_eq!(code, 2, "{cond}: {err}");
+        assert_eq!(err.lines().count(), 1, "{err}");
+        assert!(
+            err.contains("spec.yaml:5:") && err.contains(key) && err.contains(what),
+            "{cond}: {err}"
+        );
+    }
+    // characterize: the option is named, nothing is written, ngspice never runs.
+    for (args, key) in [
+        (vec!["--corner", "xx"], "--corner"),
+        (vec!["--temp", "300"], "--temp"),
+        (vec!["--vdd", "9"], "--vdd"),
+    ] {
+        let mut a = vec!["characterize", "--technology", "generic", "-o", "t.yaml"];
+        a.extend(args);
+        let (code, err) = cli(&a, tmp.path());
+        assert_eq!(code, 2, "{err}");
+        assert!(err.starts_with(&format!("error: {key}:")), "{err}");
+        assert!(!tmp.path().join("t.yaml").exists());
+    }
+    let (code, err) = cli(
+        &["characterize", "--technology", "sky130-1v8", "-o", "t.yaml"],
+        tmp.path(),
+    );
+    assert_eq!(code, 2, "{err}");
+    assert!(err.contains(tech::SKY130_DIR_ENV), "{err}");
+}
