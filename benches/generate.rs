@@ -758,16 +758,6 @@ fn bench_architectures() {
 // 5. timing estimate (src/timing): graph building, one timed vector pair, the whole search
 // ---------------------------------------------------------------------------------------
 
-/// GF180MCU 3.3 V typical, as `carrywright characterize --technology gf180mcu-3v3` wrote it on
-/// the development machine; used when the spec's technology carries no timing of its own.
-const BENCH_TIMING: &str = "conditions: {corner: typical, temp: 27, vdd: 3.3}
-timing: {input_slew_ps: 50, n_width_um: 1, p_width_um: 2,
-  r_n_fall_kohm_um: [4.796, 7.614, 10.38], r_p_rise_kohm_um: [10.3, 19.59, 28.91],
-  r_pass_n_fall_kohm_um: 3.298, r_pass_n_rise_kohm_um: 9.326, r_tg_fall_kohm_um: 3.175,
-  r_tg_rise_kohm_um: 3.017, c_gate_n_ff_um: 1.334, c_gate_p_ff_um: 1.391,
-  c_diff_n_ff_um: 0.9968, c_diff_p_ff_um: 0.9416, fo4_ps: 111.1, tau_ps: 14.63, p_inv: 1.904}
-";
-
 const ESTIMATE_TARGET_MS: f64 = 2.0;
 
 fn bench_estimate() {
@@ -775,7 +765,6 @@ fn bench_estimate() {
     use carrywright::timing::search::{Budget, In, Pair, Timer};
     println!();
     println!("5. timing estimate: transistor graph, one timed pair, the whole worst-path search");
-    let fallback = carrywright::timing::parse_timing(BENCH_TIMING).expect("bench timing");
     let mut at64 = None;
     for arch in ["manchester", "kogge-stone", "ripple"] {
         for width in [8usize, 16, 32, 64, 128] {
@@ -789,11 +778,8 @@ fn bench_estimate() {
             );
             let s = parse(&text);
             let d = carrywright::build(&s).unwrap();
-            let tm = s
-                .technology
-                .timing
-                .clone()
-                .unwrap_or_else(|| fallback.clone());
+            // The built-in `generic` technology's characterised timing.
+            let tm = s.technology.timing.clone().expect("generic carries timing");
             let g_st = measure(1, 5, || Graph::new(&s, &d, &tm).unwrap());
             let g = Graph::new(&s, &d, &tm).unwrap();
             let m = vectors::mask(width);

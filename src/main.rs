@@ -190,13 +190,10 @@ fn run(cli: Cli) -> Result<ExitCode> {
             json,
             model_dir,
         } => {
-            let s = spec::load(&spec, &LoadOptions { model_dir })?;
+            let s = load_spec(&spec, &LoadOptions { model_dir })?;
             let design = carrywright::build(&s)?;
             let e = carrywright::timing::engine::estimate(&s, &design)?;
-            say!(
-                "{}",
-                carrywright::timing::search::render(&e, json).trim_end()
-            );
+            out.line(carrywright::timing::search::render(&e, json).trim_end());
             Ok(ExitCode::SUCCESS)
         }
         Command::Check {

@@ -13,36 +13,12 @@ use carrywright::timing::search::{self, Budget, In, Pair, Timer};
 use carrywright::timing::Timing;
 use std::path::Path;
 
-/// Timing parameters for the tests that do not need a simulator: the technology's own when
-/// it carries them, else GF180MCU 3.3 V typical values written by `carrywright characterize
-/// --technology gf180mcu-3v3` on the development machine (ngspice 39), used here only as
-/// plausible inputs for the relative checks (ratios, orderings).
+/// The technology's characterised timing (every built-in technology carries it).
 fn timing(s: &Spec) -> Timing {
-    if let Some(t) = &s.technology.timing {
-        return t.clone();
-    }
-    carrywright::timing::parse_timing(
-        "conditions: {corner: typical, temp: 27, vdd: 3.3}
-timing:
-  input_slew_ps: 50
-  n_width_um: 1
-  p_width_um: 2
-  r_n_fall_kohm_um: [4.796, 7.614, 10.38]
-  r_p_rise_kohm_um: [10.3, 19.59, 28.91]
-  r_pass_n_fall_kohm_um: 3.298
-  r_pass_n_rise_kohm_um: 9.326
-  r_tg_fall_kohm_um: 3.175
-  r_tg_rise_kohm_um: 3.017
-  c_gate_n_ff_um: 1.334
-  c_gate_p_ff_um: 1.391
-  c_diff_n_ff_um: 0.9968
-  c_diff_p_ff_um: 0.9416
-  fo4_ps: 111.1
-  tau_ps: 14.63
-  p_inv: 1.904
-",
-    )
-    .expect("test timing parses")
+    s.technology
+        .timing
+        .clone()
+        .expect("the built-in technologies carry characterised timing")
 }
 
 fn spec_of(yaml: &str) -> Spec {
@@ -454,23 +430,6 @@ fn pair_deck(sp: &str, s: &Spec, e: &engine::Estimate, model_dir: &Path) -> Stri
     d
 }
 
-/// GF180MCU typical with characterised timing: the technology's own, else characterised now
-/// (one ngspice run, about 5 s of CPU) into a technology file for these specs.
-fn gf180_technology(dir: &Path, model_dir: &Path) -> String {
-    let opts = LoadOptions {
-        model_dir: Some(model_dir.to_path_buf()),
-    };
-    let t = carrywright::tech::builtin("gf180mcu-3v3", &opts).unwrap();
-    if t.timing.is_some() {
-        return "gf180mcu-3v3".into();
-    }
-    eprintln!("gf180mcu-3v3 carries no characterised timing yet: characterising it now");
-    let c = carrywright::timing::characterize::characterize(&t).unwrap();
-    let path = dir.join("gf180_typical.yaml");
-    std::fs::write(&path, &c.yaml).unwrap();
-    path.display().to_string()
-}
-
 #[test]
 fn estimate_matches_ngspice_on_small_gf180_designs() {
     if !common::tools(&["ngspice"]) {
@@ -480,7 +439,8 @@ fn estimate_matches_ngspice_on_small_gf180_designs() {
         return;
     };
     let dir = tempfile::tempdir().unwrap();
-    let tech = gf180_technology(dir.path(), &models);
+    // The checked-in characterisation of GF180MCU 3.3 V, typical corner.
+    let tech = "gf180mcu-3v3";
     let mut worst_err: f64 = 0.0;
     let mut table = vec![];
     for (name, arch, style) in [

@@ -945,9 +945,8 @@ fn slowest_taus(g: &Graph, si: usize) -> Vec<(u32, f64)> {
                 continue;
             }
             for v in [false, true] {
-                if (d.mos == Mos::N && v && d.role != Role::Pass)
-                    || (d.mos == Mos::P && !v && d.role != Role::Pass)
-                {
+                let pulls_up = d.mos == Mos::P;
+                if d.role != Role::Pass && pulls_up != v {
                     continue; // a pull-down does not raise a node, nor a pull-up lower it
                 }
                 // BFS tree from y over the stage's non-keeper devices.

@@ -688,9 +688,8 @@ pub fn render(e: &Estimate, json: bool) -> String {
     let _ = writeln!(o, "  total width      {:>9.1} um", e.total_width_um);
     let _ = writeln!(
         o,
-        "  energy           {:>9.1} fJ   per addition, 50 % random activity{}",
-        e.energy_fj,
-        if e.conditions.is_empty() { "" } else { "" }
+        "  energy           {:>9.1} fJ   per addition, 50 % random activity",
+        e.energy_fj
     );
     let mut caps: Vec<String> = vec![];
     let mut seen: Vec<(f64, Vec<String>)> = vec![];
