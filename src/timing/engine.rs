@@ -365,6 +365,12 @@ impl Graph {
     }
 }
 
+/// Make `v` hold `m` copies of `x`, reusing its memory.
+fn refill<T: Clone>(v: &mut Vec<T>, m: usize, x: T) {
+    v.clear();
+    v.resize(m, x);
+}
+
 /// Path strength: (weak, resistance kΩ); smaller is stronger.
 #[derive(Clone, Copy, PartialEq, Debug)]
 struct Cost {
@@ -373,6 +379,9 @@ struct Cost {
 }
 
 impl Cost {
+    fn at(t: f64) -> Cost {
+        Cost { weak: false, r: t }
+    }
     const INF: Cost = Cost {
         weak: true,
         r: f64::INFINITY,
@@ -382,6 +391,7 @@ impl Cost {
     }
 }
 
+/// A heap entry: a path cost (or an event time as `r`) and a node or event index.
 #[derive(PartialEq)]
 struct HeapItem(Cost, u32);
 impl Eq for HeapItem {}
@@ -392,7 +402,7 @@ impl PartialOrd for HeapItem {
 }
 impl Ord for HeapItem {
     fn cmp(&self, o: &Self) -> Ordering {
-        // Min-heap on cost, then on node for a deterministic order.
+        // Min-heap on cost (or time), then on index for a deterministic order.
         o.0.cmp(&self.0).then(o.1.cmp(&self.1))
     }
 }
@@ -433,10 +443,8 @@ impl Graph {
         let m = st.nodes.len();
         sc.out.clear();
         for v in 0..2 {
-            sc.dist[v].clear();
-            sc.dist[v].resize(m, Cost::INF);
-            sc.pred[v].clear();
-            sc.pred[v].resize(m, (NONE, NONE));
+            refill(&mut sc.dist[v], m, Cost::INF);
+            refill(&mut sc.pred[v], m, (NONE, NONE));
             sc.order[v].clear();
         }
         for (vi, v) in [false, true].into_iter().enumerate() {
@@ -515,18 +523,12 @@ impl Graph {
                 (true, true) => Some(c1.cmp(&c0) == Ordering::Less),
             }
         };
-        sc.down.clear();
-        sc.down.resize(m, 0.0);
-        sc.tau.clear();
-        sc.tau.resize(m, 0.0);
-        sc.rpath.clear();
-        sc.rpath.resize(m, 0.0);
-        sc.up.clear();
-        sc.up.resize(m, 0);
-        sc.below.clear();
-        sc.below.resize(m, 0);
-        sc.children.clear();
-        sc.children.resize(m, 0);
+        for v in [&mut sc.down, &mut sc.tau, &mut sc.rpath] {
+            refill(v, m, 0.0);
+        }
+        for v in [&mut sc.up, &mut sc.below, &mut sc.children] {
+            refill(v, m, 0);
+        }
         for (vi, v) in [false, true].into_iter().enumerate() {
             let order = std::mem::take(&mut sc.order[vi]);
             // Downstream switching capacitance and single-child runs, leaves first.
@@ -631,20 +633,6 @@ pub struct Event {
     pub dev: u32,
 }
 
-#[derive(PartialEq)]
-struct Timed(f64, u32);
-impl Eq for Timed {}
-impl PartialOrd for Timed {
-    fn partial_cmp(&self, o: &Self) -> Option<Ordering> {
-        Some(self.cmp(o))
-    }
-}
-impl Ord for Timed {
-    fn cmp(&self, o: &Self) -> Ordering {
-        o.0.total_cmp(&self.0).then(o.1.cmp(&self.1))
-    }
-}
-
 /// The state of a simulation: node values and reusable space.
 pub struct Sim<'g> {
     pub g: &'g Graph,
@@ -659,7 +647,7 @@ pub struct Sim<'g> {
     pub last: Vec<u32>,
     /// Capacitance switched by the events applied in the latest timed run (fF).
     switched_ff: f64,
-    heap: BinaryHeap<Timed>,
+    heap: BinaryHeap<HeapItem>,
 }
 
 impl<'g> Sim<'g> {
@@ -772,11 +760,11 @@ impl<'g> Sim<'g> {
                 });
                 self.pending[x as usize] = id;
                 self.proj[x as usize] = v;
-                self.heap.push(Timed(0.0, id));
+                self.heap.push(HeapItem(Cost::at(0.0), id));
             }
         }
         let limit = 200 * (g.n_nodes() + 10);
-        while let Some(Timed(t, id)) = self.heap.pop() {
+        while let Some(HeapItem(Cost { r: t, .. }, id)) = self.heap.pop() {
             let e = self.events[id as usize];
             let x = e.node as usize;
             if self.pending[x] != id {
@@ -800,26 +788,15 @@ impl<'g> Sim<'g> {
                 for d in &sc.out {
                     let y = d.node as usize;
                     let delay = stage_delay(LN2 * d.tau_ps, e.slew_ps, g.slope_k);
-                    if d.value == self.proj[y] {
-                        // Already on its way: an earlier arrival under the new conditions
-                        // (a fight ended, a stronger path opened) replaces the pending one.
+                    let on_its_way = d.value == self.proj[y];
+                    if on_its_way {
+                        // Already on its way: only an earlier arrival under the new
+                        // conditions (a fight ended, a stronger path opened) replaces it.
                         let p = self.pending[y];
-                        if p != NONE && t + delay < self.events[p as usize].time_ps {
-                            let nid = self.events.len() as u32;
-                            self.events.push(Event {
-                                node: d.node,
-                                value: d.value,
-                                time_ps: t + delay,
-                                slew_ps: SLEW_PER_TAU * d.tau_ps,
-                                cause: id,
-                                dev: d.dev,
-                            });
-                            self.pending[y] = nid;
-                            self.heap.push(Timed(t + delay, nid));
+                        if p == NONE || t + delay >= self.events[p as usize].time_ps {
+                            continue;
                         }
-                        continue;
-                    }
-                    if d.value == self.val[y] {
+                    } else if d.value == self.val[y] {
                         // A pending change is called off.
                         self.pending[y] = NONE;
                         self.proj[y] = d.value;
@@ -836,7 +813,7 @@ impl<'g> Sim<'g> {
                     });
                     self.pending[y] = nid;
                     self.proj[y] = d.value;
-                    self.heap.push(Timed(t + delay, nid));
+                    self.heap.push(HeapItem(Cost::at(t + delay), nid));
                 }
                 self.sc = sc;
             }
