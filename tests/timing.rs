@@ -520,3 +520,112 @@ fn accuracy_table() {
         100.0 * errs[errs.len() - 1]
     );
 }
+
+#[test]
+fn switch_level_values_agree_with_the_logic_view() {
+    // After every timed pair the engine's output values (switch level, Bryant 1984) equal
+    // native integer addition of the `after` vector, for every architecture and style, on
+    // seeded random pairs: the transistor view the timing rests on computes the sum.
+    use carrywright::emit::vectors::{mask, Rng};
+    for arch in carrywright::spec::ARCHITECTURES {
+        let styles: &[&str] = if arch.has_dynamic() {
+            &["static", "dynamic"]
+        } else {
+            &["static"]
+        };
+        for style in styles {
+            let w = 12;
+            let s = spec_of(&yaml("sv", arch.as_str(), style, w, 4, "none"));
+            let d = carrywright::build(&s).unwrap();
+            let g = Graph::new(&s, &d, &timing(&s)).unwrap();
+            let mut t = Timer::new(&g).unwrap();
+            let mut rng = Rng::new(7);
+            let m = mask(w);
+            let mut r = || In {
+                a: rng.next_u128() & m,
+                b: rng.next_u128() & m,
+                cin: rng.next_u64() & 1 == 1,
+            };
+            for _ in 0..40 {
+                let p = Pair {
+                    before: r(),
+                    after: r(),
+                };
+                t.time(p).unwrap();
+                let sum = p.after.a + p.after.b + p.after.cin as u128;
+                let got = t.output_values();
+                for (i, v) in got.iter().enumerate() {
+                    assert_eq!(
+                        *v,
+                        sum >> i & 1 == 1,
+                        "{} {style}: output {i} wrong after {p:?}",
+                        arch.as_str()
+                    );
+                }
+            }
+        }
+    }
+}
+
+#[test]
+fn estimate_command_prints_json_and_refuses_missing_timing() {
+    use std::process::Command;
+    let dir = tempfile::tempdir().unwrap();
+    let spec = dir.path().join("e.yaml");
+    std::fs::write(&spec, yaml("e8", "sklansky", "static", 8, 4, "none")).unwrap();
+    let out = Command::new(env!("CARGO_BIN_EXE_carrywright"))
+        .args(["estimate", "--json"])
+        .arg(&spec)
+        .output()
+        .unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    for key in [
+        "worst_ps",
+        "worst_path",
+        "worst_vectors",
+        "cin_cout_ps",
+        "bound_ps",
+        "outputs_ps",
+        "transistors",
+        "gate_area_um2",
+        "energy_fj",
+    ] {
+        assert!(v.get(key).is_some(), "JSON lacks {key}");
+    }
+    let worst = v["worst_ps"].as_f64().unwrap();
+    let bound = v["bound_ps"].as_f64().unwrap();
+    assert!(
+        worst > 0.0 && worst <= bound,
+        "worst {worst} ps, bound {bound} ps"
+    );
+    assert_eq!(v["outputs_ps"].as_object().unwrap().len(), 9);
+    // A technology file without a timing block: exit 2 and a line that says what is missing.
+    let tech = dir.path().join("t.yaml");
+    let example = std::fs::read_to_string("configs/tech_example.yaml").unwrap();
+    if example.contains("timing:") {
+        return; // the example carries timing; nothing to refuse
+    }
+    std::fs::write(&tech, &example).unwrap();
+    let spec2 = dir.path().join("f.yaml");
+    std::fs::write(
+        &spec2,
+        yaml("f8", "ripple", "static", 8, 4, "none").replace(
+            "technology: generic",
+            &format!("technology: {}", tech.display()),
+        ),
+    )
+    .unwrap();
+    let out = Command::new(env!("CARGO_BIN_EXE_carrywright"))
+        .args(["estimate"])
+        .arg(&spec2)
+        .output()
+        .unwrap();
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(2), "{err}");
+    assert!(err.contains("characterised timing"), "{err}");
+}

@@ -158,6 +158,15 @@ impl<'g> Timer<'g> {
         })
     }
 
+    /// Output values after the latest timed pair, in port order.
+    pub fn output_values(&self) -> Vec<bool> {
+        self.g
+            .outputs
+            .iter()
+            .map(|&o| self.sim.val[o as usize])
+            .collect()
+    }
+
     /// The critical path of the latest timed pair into output `out`: from the input edge to
     /// the output, one step per node transition.
     pub fn path(&self, out: usize) -> Vec<PathStep> {
