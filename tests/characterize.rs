@@ -406,3 +406,42 @@ fn bad_conditions_are_refused_with_their_key() {
     assert_eq!(code, 2, "{err}");
     assert!(err.contains(tech::SKY130_DIR_ENV), "{err}");
 }
+
+/// Through the binary: a cold characterisation of the generic cards is written whole, names
+/// its conditions, and a spec can use the file as its technology.
+#[test]
+fn characterize_command_writes_a_usable_technology_file() {
+    if !common::tools(&["ngspice"]) {
+        return;
+    }
+    let tmp = tempfile::tempdir().unwrap();
+    let (code, err) = cli(
+        &[
+            "characterize",
+            "--technology",
+            "generic",
+            "--temp",
+            "-40",
+            "-o",
+            "cold.yaml",
+        ],
+        tmp.path(),
+    );
+    assert_eq!(code, 0, "{err}");
+    let text = std::fs::read_to_string(tmp.path().join("cold.yaml")).unwrap();
+    assert!(
+        text.contains("base: generic\n") && text.contains("temp: -40,"),
+        "{text}"
+    );
+    let cold = timing::parse_timing(&text).unwrap();
+    // Colder silicon has more mobile carriers: the level-1 cards' kp scales as T^-1.5
+    // (SPICE level-1 temperature model, from memory), so the cold inverter is faster.
+    assert!(cold.fo4_ps < checked_in("generic.yaml").fo4_ps);
+    std::fs::write(
+        tmp.path().join("spec.yaml"),
+        "name: hub_cnt4_cold\nwidth: 4\narchitecture: ripple\ntechnology: cold.yaml\n",
+    )
+    .unwrap();
+    let (code, err) = cli(&["describe", "spec.yaml"], tmp.path());
+    assert_eq!(code, 0, "{err}");
+}

@@ -110,6 +110,54 @@ impl Bench {
         self.dev(t, name, y, a, "vss", false, wn);
         self.dev(t, name, y, a, "vdd", true, wp);
     }
+    /// A stack of k equal devices from `out` to its rail, every gate on the input (`in` for
+    /// NMOS, `inb` for PMOS), one opposite device setting the starting level, a load of
+    /// `c_ff`, and the measurement of the edge the stack drives.
+    fn stack(&mut self, t: &Technology, out: &str, pmos: bool, k: usize, c_ff: f64) {
+        let (input, rail, other_rail, w, w_other) = if pmos {
+            ("inb", "vdd", "vss", self.w_p, self.w_n)
+        } else {
+            ("in", "vss", "vdd", self.w_n, self.w_p)
+        };
+        self.dev(
+            t,
+            &format!("{out}_start"),
+            out,
+            input,
+            other_rail,
+            !pmos,
+            w_other,
+        );
+        let node = |j: usize| {
+            if j == 0 {
+                out.to_string()
+            } else if j == k {
+                rail.to_string()
+            } else {
+                format!("{out}_x{j}")
+            }
+        };
+        for j in 0..k {
+            self.dev(
+                t,
+                &format!("{out}_{j}"),
+                &node(j),
+                input,
+                &node(j + 1),
+                pmos,
+                w,
+            );
+        }
+        self.lines
+            .push(format!("c{out} {out} 0 {}f", trim_num(c_ff)));
+        let (from_edge, to_edge) = if pmos {
+            ("fall", "rise")
+        } else {
+            ("rise", "fall")
+        };
+        self.delay(&format!("t_{out}"), input, from_edge, out, to_edge, t.vdd);
+    }
+
     /// `meas` of a delay from `from` (rise or fall) to `to`, both at 50 % VDD.
     #[allow(clippy::too_many_arguments)]
     fn delay(
@@ -165,42 +213,10 @@ fn bench(t: &Technology, model_lines: &[String]) -> Bench {
     // Stacks: k series devices, all gates on the input, one opposite device for the start.
     for k in 1..=3usize {
         for (li, c) in LOADS_FF.iter().enumerate() {
-            // NMOS pull-down, output falling when `in` rises.
-            let out = format!("nd{k}_{li}");
-            b.dev(t, &format!("nd{k}_{li}_up"), &out, "in", "vdd", true, w_p);
-            for j in 0..k {
-                let d = if j == 0 {
-                    out.clone()
-                } else {
-                    format!("nd{k}_{li}_x{j}")
-                };
-                let s = if j + 1 == k {
-                    "vss".to_string()
-                } else {
-                    format!("nd{k}_{li}_x{}", j + 1)
-                };
-                b.dev(t, &format!("nd{k}_{li}_{j}"), &d, "in", &s, false, w_n);
-            }
-            b.lines.push(format!("c{out} {out} 0 {}f", trim_num(*c)));
-            b.delay(&format!("t_{out}"), "in", "rise", &out, "fall", vdd);
-            // PMOS pull-up, output rising when `inb` falls.
-            let out = format!("pu{k}_{li}");
-            b.dev(t, &format!("pu{k}_{li}_dn"), &out, "inb", "vss", false, w_n);
-            for j in 0..k {
-                let d = if j == 0 {
-                    out.clone()
-                } else {
-                    format!("pu{k}_{li}_x{j}")
-                };
-                let s = if j + 1 == k {
-                    "vdd".to_string()
-                } else {
-                    format!("pu{k}_{li}_x{}", j + 1)
-                };
-                b.dev(t, &format!("pu{k}_{li}_{j}"), &d, "inb", &s, true, w_p);
-            }
-            b.lines.push(format!("c{out} {out} 0 {}f", trim_num(*c)));
-            b.delay(&format!("t_{out}"), "inb", "fall", &out, "rise", vdd);
+            // NMOS pull-down: output falling when `in` rises; PMOS pull-up: rising when
+            // `inb` falls.
+            b.stack(t, &format!("nd{k}_{li}"), false, k, *c);
+            b.stack(t, &format!("pu{k}_{li}"), true, k, *c);
         }
     }
     // Pass NMOS and transmission gate between a driven node and the load: passing a 0 from
