@@ -21,6 +21,7 @@ use crate::sim::Evaluator;
 use crate::spec::Spec;
 use serde::ser::SerializeMap;
 use serde::{Serialize, Serializer};
+use std::collections::HashSet;
 
 /// One input vector.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
@@ -343,8 +344,25 @@ pub fn search(g: &Graph, budget: Budget) -> Result<Worst> {
             scored.push((x, p));
         }
     };
+    // Pairs already timed. In dynamic style every node is precharged before clk↑, so the
+    // timing depends on `after` alone: pairs with the same `after` are timed once.
+    let dynamic = g.clk.is_some();
+    let key = |p: &Pair| -> Pair {
+        if dynamic {
+            Pair {
+                before: p.after,
+                after: p.after,
+            }
+        } else {
+            *p
+        }
+    };
+    let mut seen: HashSet<Pair> = HashSet::new();
     let hard = hard_pairs(w);
     for (k, p) in hard.iter().enumerate() {
+        if !seen.insert(key(p)) {
+            continue;
+        }
         let pt = t.time(*p)?;
         if k < 2 {
             // The first two pairs: cin toggled with every bit propagating (a all ones).
@@ -384,14 +402,16 @@ pub fn search(g: &Graph, budget: Budget) -> Result<Worst> {
     let nbits = 2 * w + 1;
     for st in starts.iter_mut() {
         for _ in 0..budget.flips {
+            // Dynamic style: only `after` matters.
             let k = (rng.next_u64() % (2 * nbits) as u64) as usize;
+            let k = if dynamic { nbits + k % nbits } else { k };
             let mut p = st.1;
             if k < nbits {
                 p.before = flip(p.before, k, w);
             } else {
                 p.after = flip(p.after, k - nbits, w);
             }
-            if p.before == p.after && g.clk.is_none() {
+            if (p.before == p.after && !dynamic) || !seen.insert(key(&p)) {
                 continue;
             }
             let pt = t.time(p)?;
