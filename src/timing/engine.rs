@@ -327,23 +327,18 @@ impl Graph {
     fn r_kohm(&self, d: &Dev, v: bool, tg: bool, k: usize) -> f64 {
         let t = &self.tm;
         let k = k.clamp(1, 3) - 1;
-        let (n, p) = if tg {
-            let p = &self.devs[d.partner as usize];
-            match d.mos {
-                Mos::N => (d.w, p.w),
-                Mos::P => (p.w, d.w),
-            }
-        } else {
-            (d.w, d.w)
-        };
         if tg {
+            // Per µm of the NMOS half's width (the PMOS half is pn_ratio wider, as characterised).
+            let n = match d.mos {
+                Mos::N => d.w,
+                Mos::P => self.devs[d.partner as usize].w,
+            };
             return if v {
                 t.r_tg_rise_kohm_um / n
             } else {
                 t.r_tg_fall_kohm_um / n
             };
         }
-        let _ = p;
         let pass = d.role == Role::Pass;
         match (d.mos, v) {
             (Mos::N, false) if pass => t.r_pass_n_fall_kohm_um / d.w,
@@ -910,8 +905,6 @@ fn slowest_taus(g: &Graph, si: usize) -> Vec<(u32, f64)> {
     let st = &g.stages[si];
     let m = st.nodes.len();
     let mut best = vec![0.0f64; m];
-    let all_on = |_: &Dev| true;
-    let _ = all_on;
     for &di in &st.devs {
         let d = &g.devs[di as usize];
         if d.role == Role::Keeper {
