@@ -134,6 +134,10 @@ fn spec_hash_follows_the_values_not_the_formatting() {
         "name: hub_h16\nwidth: 16\narchitecture: manchester\nblock: 4\nbuffers: {every: 8}\nsizing: {unit_n: 1.2}\ntestbench: {load: 10f}\n",
         "name: hub_h16\nwidth: 16\narchitecture: manchester\nstyle: dynamic\nblock: 4\nbuffers: {every: 8}\ntestbench: {load: 10f}\n",
         "name: hub_h16\nwidth: 16\narchitecture: carry-skip\nblock: 4\ntestbench: {load: 10f}\n",
+        // The conditions a deck runs at are part of what it is.
+        "name: hub_h16\nwidth: 16\narchitecture: manchester\nblock: 4\nbuffers: {every: 8}\ntechnology: gf180mcu-3v3\ntestbench: {load: 10f}\n",
+        "name: hub_h16\nwidth: 16\narchitecture: manchester\nblock: 4\nbuffers: {every: 8}\ntechnology: gf180mcu-3v3\nconditions: {corner: ss}\ntestbench: {load: 10f}\n",
+        "name: hub_h16\nwidth: 16\narchitecture: manchester\nblock: 4\nbuffers: {every: 8}\ntechnology: gf180mcu-3v3\nconditions: {temp: 85}\ntestbench: {load: 10f}\n",
     ];
     let mut seen = vec![base.clone()];
     for y in different {

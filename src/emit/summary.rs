@@ -139,6 +139,8 @@ pub fn json(
         technology: rounded(serde_json::json!({
             "name": tech.name,
             "origin": tech.origin,
+            "corner": tech.corner,
+            "temp_c": tech.temp,
             "vdd": tech.vdd,
             "l_um": tech.l_min,
             "nmos": tech.nmos,
@@ -237,7 +239,7 @@ pub fn round_floats(v: &mut serde_json::Value, digits: usize) {
 }
 
 /// What `spec_hash` covers, as said in `NAME.json`.
-pub const SPEC_HASH_COVERS: &str = "sha256 of the validated spec as the tool resolved it (name, width, architecture, style, block and block sizes, buffer positions, sizing, testbench, and the technology's values except where its model files are; numbers to 12 significant digits), whatever the YAML's formatting";
+pub const SPEC_HASH_COVERS: &str = "sha256 of the validated spec as the tool resolved it (name, width, architecture, style, block and block sizes, buffer positions, sizing, testbench, and the technology's values, corner, temperature and supply included, except where its model files are; numbers to 12 significant digits), whatever the YAML's formatting";
 
 /// SHA-256 of a canonical form of the validated spec: the resolved values (defaults filled
 /// in, quantities in SI units, floats to 12 significant digits so that `10f` and `1e-14` are
@@ -261,6 +263,8 @@ pub fn spec_hash(spec: &Spec) -> String {
         "testbench": spec.testbench,
         "technology": {
             "name": t.name,
+            "corner": t.corner,
+            "temp": t.temp,
             "vdd": t.vdd,
             "l_min": t.l_min,
             "w_min": t.w_min,
