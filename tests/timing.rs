@@ -622,3 +622,123 @@ fn estimate_command_prints_json_and_refuses_missing_timing() {
     assert_eq!(out.status.code(), Some(2), "{err}");
     assert!(err.contains("characterised timing"), "{err}");
 }
+
+/// Energy per addition against ngspice (not run by default: a figure for the notes). A run of
+/// seeded random vectors, one every 4 ns, through the engine (½·C·VDD² per node transition,
+/// summed over the pairs) and through ngspice (the supply's charge × VDD over the same run).
+/// `cargo test --test timing energy_table -- --ignored --nocapture`
+#[test]
+#[ignore]
+fn energy_table() {
+    use carrywright::emit::vectors::{mask, Rng};
+    if !common::tools(&["ngspice"]) {
+        return;
+    }
+    let Some(models) = common::model_dir() else {
+        return;
+    };
+    let dir = tempfile::tempdir().unwrap();
+    for (name, arch) in [("esm8", "manchester"), ("eks8", "kogge-stone")] {
+        let y = yaml(name, arch, "static", 8, 4, "none")
+            .replace("technology: generic", "technology: gf180mcu-3v3");
+        let opts = LoadOptions {
+            model_dir: Some(models.clone()),
+        };
+        let s = spec::parse(&y, "test-spec", Path::new("."), &opts).unwrap();
+        let g = carrywright::generate(&s).unwrap();
+        let graph = Graph::new(&s, &g.design, &timing(&s)).unwrap();
+        let mut t = Timer::new(&graph).unwrap();
+        let (w, n, period) = (8usize, 16usize, 4e-9);
+        let mut rng = Rng::new(11);
+        let m = mask(w);
+        let vs: Vec<In> = (0..=n)
+            .map(|_| In {
+                a: rng.next_u128() & m,
+                b: rng.next_u128() & m,
+                cin: rng.next_u64() & 1 == 1,
+            })
+            .collect();
+        let vdd = s.technology.vdd;
+        let mut switched = 0.0;
+        for k in 0..n {
+            let pt = t
+                .time(Pair {
+                    before: vs[k],
+                    after: vs[k + 1],
+                })
+                .unwrap();
+            switched += pt.switched_ff;
+        }
+        let est_fj = 0.5 * switched * vdd * vdd / n as f64;
+        let sp = &g
+            .files
+            .iter()
+            .find(|(f, _)| f.ends_with(".sp") && !f.ends_with("_tb.sp"))
+            .unwrap()
+            .1;
+        let mut d = format!(
+            "* energy\n.include {0}/design.ngspice\n.lib {0}/sm141064.ngspice typical\n{sp}\nvvdd vdd 0 {vdd}\nvvss vss 0 0\n",
+            models.display()
+        );
+        let bit = |v: &In, k: usize| -> bool {
+            if k < w {
+                v.a >> k & 1 == 1
+            } else if k < 2 * w {
+                v.b >> (k - w) & 1 == 1
+            } else {
+                v.cin
+            }
+        };
+        let mut pins = vec![];
+        for k in 0..2 * w + 1 {
+            let pin = if k < w {
+                format!("a{k}")
+            } else if k < 2 * w {
+                format!("b{}", k - w)
+            } else {
+                "cin".into()
+            };
+            let mut pwl = vec![];
+            for (j, v) in vs.iter().enumerate() {
+                let lv = if bit(v, k) { vdd } else { 0.0 };
+                let t0 = j as f64 * period;
+                pwl.push(format!(
+                    "{} {lv} {} {lv}",
+                    t0 + s.technology.slew,
+                    t0 + period
+                ));
+            }
+            d.push_str(&format!(
+                "v{pin} {pin} 0 pwl(0 {} {})\n",
+                if bit(&vs[0], k) { vdd } else { 0.0 },
+                pwl.join(" ")
+            ));
+            pins.push(pin);
+        }
+        let outs: Vec<String> = (0..w)
+            .map(|i| format!("s{i}"))
+            .chain(["cout".into()])
+            .collect();
+        d.push_str(&format!(
+            "xdut {} {} vdd vss {name}\n",
+            pins.join(" "),
+            outs.join(" ")
+        ));
+        for o in &outs {
+            d.push_str(&format!("cl_{o} {o} 0 {}\n", s.testbench.load));
+        }
+        let (from, to) = (period * 0.9, period * (n as f64 + 0.9));
+        d.push_str(&format!(
+            ".options method=gear\n.tran 10p {to} 0 20p\n.control\nset num_threads=1\nrun\nmeas tran qsup integ i(vvdd) from={from} to={to}\nlet epj = -qsup * {vdd} / {n} * 1e15\nprint epj\nquit 0\n.endc\n.end\n"
+        ));
+        let path = dir.path().join(format!("{name}.sp"));
+        std::fs::write(&path, d).unwrap();
+        let (_, log) = common::ngspice_in(dir.path(), &path, &[]);
+        let sim_fj = common::printed(&log).get("epj").copied().unwrap_or(-1.0);
+        println!(
+            "{name}: energy per addition over {n} random pairs: estimate {est_fj:.0} fJ, ngspice {sim_fj:.0} fJ ({:+.0} %)",
+            100.0 * (est_fj / sim_fj - 1.0)
+        );
+        assert!(sim_fj > 0.0, "{log}");
+    }
+}
