@@ -339,6 +339,24 @@ fn estimate_is_deterministic() {
 // ---------------------------------------------------------------------------------------
 // Against ngspice (GF180MCU typical): the engine's worst pair, simulated.
 
+/// The adder instance (inputs as given, outputs s0.. cout) and its output loads.
+fn dut_lines(s: &Spec, inputs: &[String]) -> String {
+    let outs: Vec<String> = (0..s.width)
+        .map(|i| format!("s{i}"))
+        .chain(["cout".into()])
+        .collect();
+    let mut d = format!(
+        "xdut {} {} vdd vss {}\n",
+        inputs.join(" "),
+        outs.join(" "),
+        s.name
+    );
+    for o in &outs {
+        d.push_str(&format!("cl_{o} {o} 0 {}\n", s.testbench.load));
+    }
+    d
+}
+
 /// A deck of our own from the generated subcircuits: the pair applied as PWL sources (static:
 /// `before` until t0, then `after`; dynamic: `before` evaluated, precharge with `after`, clk↑
 /// at t0), 50 % to 50 % measured from the toggling input (or clk) to the output.
@@ -404,19 +422,7 @@ fn pair_deck(sp: &str, s: &Spec, e: &engine::Estimate, model_dir: &Path) -> Stri
         ));
         names.push(name);
     }
-    let outs: Vec<String> = (0..w)
-        .map(|i| format!("s{i}"))
-        .chain(["cout".into()])
-        .collect();
-    d.push_str(&format!(
-        "xdut {} {} vdd vss {}\n",
-        names.join(" "),
-        outs.join(" "),
-        s.name
-    ));
-    for o in &outs {
-        d.push_str(&format!("cl_{o} {o} 0 {}\n", s.testbench.load));
-    }
+    d.push_str(&dut_lines(s, &names));
     let from = &e.worst_vectors.from;
     let to = &e.worst_vectors.to;
     let first = &e.worst_path[0];
@@ -715,18 +721,7 @@ fn energy_table() {
             ));
             pins.push(pin);
         }
-        let outs: Vec<String> = (0..w)
-            .map(|i| format!("s{i}"))
-            .chain(["cout".into()])
-            .collect();
-        d.push_str(&format!(
-            "xdut {} {} vdd vss {name}\n",
-            pins.join(" "),
-            outs.join(" ")
-        ));
-        for o in &outs {
-            d.push_str(&format!("cl_{o} {o} 0 {}\n", s.testbench.load));
-        }
+        d.push_str(&dut_lines(&s, &pins));
         let (from, to) = (period * 0.9, period * (n as f64 + 0.9));
         d.push_str(&format!(
             ".options method=gear\n.tran 10p {to} 0 20p\n.control\nset num_threads=1\nrun\nmeas tran qsup integ i(vvdd) from={from} to={to}\nlet epj = -qsup * {vdd} / {n} * 1e15\nprint epj\nquit 0\n.endc\n.end\n"
