@@ -506,7 +506,7 @@ fn estimate_matches_ngspice_on_small_gf180_designs() {
 /// A longer table for the notes (not run by default: several minutes of ngspice).
 /// `cargo test --test timing accuracy_table -- --ignored --nocapture`
 #[test]
-#[ignore]
+#[ignore = "a benchmark, not a check: runs ngspice on 12 designs for the accuracy table (cargo test --test timing -- --ignored accuracy_table)"]
 fn accuracy_table() {
     let Some(rows) = against_ngspice(&[
         ("rc16", 16, "ripple", "static", 4, "none", "10f"),
@@ -634,7 +634,7 @@ fn estimate_command_prints_json_and_refuses_missing_timing() {
 /// summed over the pairs) and through ngspice (the supply's charge × VDD over the same run).
 /// `cargo test --test timing energy_table -- --ignored --nocapture`
 #[test]
-#[ignore]
+#[ignore = "a benchmark, not a check: energy against ngspice (cargo test --test timing -- --ignored energy_table)"]
 fn energy_table() {
     use carrywright::emit::vectors::{mask, Rng};
     if !common::tools(&["ngspice"]) {

@@ -593,7 +593,13 @@ pub fn estimate_with(
     let t = &spec.technology;
     Ok(Estimate {
         name: spec.name.clone(),
-        conditions: format!("{} {}, {} V", t.name, t.corner, vdd),
+        conditions: format!(
+            "{}, corner {}, {} degC, {} V",
+            t.name,
+            t.corner,
+            crate::spec::trim_num(t.temp),
+            vdd
+        ),
         load_ff: round1(spec.testbench.load * 1e15),
         worst_ps: round1(worst.ps),
         worst_path: worst.path,
