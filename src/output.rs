@@ -549,7 +549,7 @@ impl Lock {
         let _ = writeln!(
             std::io::stderr(),
             "waiting for another carrywright writing {}",
-            crate::spec::shown_path(&fs_path(shown))
+            crate::spec::shown_path(fs_path(shown))
         );
         loop {
             // SAFETY: as above; blocks until the other writer is done or a signal comes.

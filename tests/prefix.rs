@@ -25,6 +25,9 @@ fn closed_form(f: Family, n: usize) -> (usize, usize) {
     }
 }
 
+/// A family's combines: (column, lower column, row).
+type Ops = Vec<(usize, usize, usize)>;
+
 #[test]
 fn counts_equal_the_closed_forms() {
     for n in [8, 16, 32, 64] {
@@ -79,7 +82,7 @@ fn lateral_fanout_as_harris_counts_it() {
 fn snir_bound_and_exactly_once_at_every_width() {
     let mut graphs = 0;
     for n in 2..=128usize {
-        let mut all: Vec<(String, Vec<(usize, usize, usize)>)> = vec![];
+        let mut all: Vec<(String, Ops)> = vec![];
         for &f in FAMILIES {
             for k in [1, 2, 3, 4, 8] {
                 if k <= n {
