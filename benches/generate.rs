@@ -213,7 +213,7 @@ fn bench_generate() {
     let compile = measure(3, 30, || Evaluator::new(&design).unwrap());
     line("    Evaluator::new (flatten+compile)", &compile);
     let plan = vectors::plan(spec.width, spec.testbench.random, spec.testbench.seed);
-    let deck = spice::DeckPlan::new(&spec, &plan).unwrap();
+    let deck = spice::DeckPlan::new(&spec, &design, &plan).unwrap();
     let netlist = spice::subcircuits(&spec, &design).unwrap();
     let views: [(&str, Stats); 5] = [
         (

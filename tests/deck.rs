@@ -406,7 +406,11 @@ fn too_many_transient_points_are_refused() {
 /// the print step and saves only the vectors it reads.
 #[test]
 fn deck_header_and_simulator_settings() {
-    let (dir, _g, _s) = common::generate(GEN4, None);
+    // A 4 ns period: the cap (100 ps) is below a twentieth of it.
+    let (dir, _g, _s) = common::generate(
+        "name: wr4\nwidth: 4\narchitecture: manchester\nblock: 4\ntestbench: {random: 0, step: 50p, period: 4n}\n",
+        None,
+    );
     let deck = std::fs::read_to_string(dir.path().join("out/wr4_tb.sp")).unwrap();
     for needle in [
         "corner ",
@@ -512,4 +516,40 @@ fn step_cap_keeps_delays_within_one_percent() {
         );
         assert!(err < 0.01, "{key}: {a} vs {b}");
     }
+}
+
+/// The default period comes from the timing engine's bound with a margin, so a default deck
+/// passes its own level checks: a 64-bit static Manchester chain buffered every 4 bits got a
+/// 10 ns period from the old structural formula, shorter than its carry delay, and failed
+/// 64 level checks (exit 3).
+#[test]
+fn default_period_covers_a_64_bit_buffered_chain() {
+    if !common::tools(&["ngspice"]) {
+        return;
+    }
+    let Some(models) = common::model_dir() else {
+        return;
+    };
+    let (dir, _g, s) = common::generate(
+        "name: acc64\nwidth: 64\narchitecture: manchester\nblock: 4\nbuffers: {every: 4}\ntechnology: gf180mcu-3v3\ntestbench: {random: 0, load: 10f}\n",
+        Some(models),
+    );
+    let out = dir.path().join("out");
+    let deck = std::fs::read_to_string(out.join("acc64_tb.sp")).unwrap();
+    assert!(
+        deck.contains("Period from the timing engine's topological bound"),
+        "{deck}"
+    );
+    let (ok, log) = common::ngspice(&out, &s.name);
+    assert!(ok && log.contains("PASS acc64"), "{log}");
+    common::check_deck_levels(&out, &s.name, s.technology.vdd, &log);
+    let p = common::printed(&log);
+    eprintln!(
+        "acc64: tcarry_rise {:e} s, tcarry_fall {:e} s; {}",
+        p["tcarry_rise"],
+        p["tcarry_fall"],
+        deck.lines()
+            .find(|l| l.contains("vectors of"))
+            .unwrap_or("")
+    );
 }

@@ -153,7 +153,7 @@ pub fn render_all(
     // random ones itself from the same seed.
     let listed = spec.testbench.random.min(spice::DECK_RANDOM);
     let plan = vectors::plan(spec.width, listed, spec.testbench.seed);
-    let deck = spice::DeckPlan::new(spec, &plan)?;
+    let deck = spice::DeckPlan::new(spec, design, &plan)?;
     let n = &spec.name;
     let netlist = spice::subcircuits(spec, design)?;
     let bench = spice::deck(spec, design, &deck, &netlist)?;

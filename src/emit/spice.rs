@@ -158,6 +158,8 @@ pub struct DeckPlan {
     /// Vector period, seconds.
     pub period: f64,
     pub period_from_spec: bool,
+    /// How the period was chosen, one line for the deck header and NAME.json.
+    pub period_rule: String,
     pub step: f64,
     /// Largest internal time step ngspice may take, seconds (separate from the print step).
     pub tmax: f64,
@@ -186,15 +188,21 @@ pub const MAX_POINTS: f64 = 500_000.0;
 pub const TMAX_CAP: f64 = 100e-12;
 
 impl DeckPlan {
-    pub fn new(spec: &Spec, plan: &[Labeled]) -> Result<DeckPlan> {
+    pub fn new(spec: &Spec, design: &Design, plan: &[Labeled]) -> Result<DeckPlan> {
         let n_directed = super::vectors::directed(spec.width).len();
         let take = n_directed + spec.testbench.random.min(DECK_RANDOM);
         let vectors: Vec<Labeled> = plan.iter().take(take).cloned().collect();
         let dynamic = spec.style == Style::Dynamic;
-        let period = spec
-            .testbench
-            .period
-            .unwrap_or_else(|| default_period(spec));
+        let (period, period_rule) = match spec.testbench.period {
+            Some(p) => (p, "testbench.period".to_string()),
+            None => match &spec.technology.timing {
+                Some(tm) => period_from_bound(spec, design, tm)?,
+                None => (
+                    default_period(spec),
+                    "a rough structural bound (the technology has no characterised timing at these conditions)".to_string(),
+                ),
+            },
+        };
         let step = spec
             .testbench
             .step
@@ -214,6 +222,7 @@ impl DeckPlan {
         Ok(DeckPlan {
             period,
             period_from_spec: spec.testbench.period.is_some(),
+            period_rule,
             step,
             tmax: TMAX_CAP.min(period / 20.0).max(step),
             slew: spec.technology.slew,
@@ -224,6 +233,45 @@ impl DeckPlan {
             delay_from: if dynamic { "clk" } else { "cin" },
         })
     }
+}
+
+/// Margin of the default period over the timing engine's topological bound.
+pub const PERIOD_MARGIN: f64 = 1.25;
+
+/// The default vector period from the timing engine: its topological bound (the longest
+/// stage path from any input to any output, every stage at its slowest, sensitisation
+/// ignored: no real transition is slower in the engine's model) times [`PERIOD_MARGIN`] for
+/// the model's error (within 15 % of ngspice on the designs measured so far, tests/timing.rs),
+/// plus an input slew, must end before the strobe: at 90 % of the period in static style, in
+/// the evaluate half before the 95 % strobe in dynamic style. Rounded up to 0.1 ns.
+fn period_from_bound(
+    spec: &Spec,
+    design: &Design,
+    tm: &crate::timing::Timing,
+) -> Result<(f64, String)> {
+    let g = crate::timing::engine::Graph::new(spec, design, tm)?;
+    let (bound_ps, _) = crate::timing::engine::topological_bound(&g)?;
+    let bound = bound_ps * 1e-12;
+    let need = PERIOD_MARGIN * bound + 2.0 * spec.technology.slew;
+    let raw = match spec.style {
+        Style::Static => need / 0.9,
+        Style::Dynamic => need / 0.45,
+    };
+    let tenth = 0.1e-9;
+    let floor = spec.technology.slew
+        * if spec.style == Style::Dynamic {
+            20.0
+        } else {
+            10.0
+        };
+    let period = ((raw / tenth).ceil() * tenth).max(floor);
+    Ok((
+        period,
+        format!(
+            "the timing engine's topological bound {:.3} ns x {PERIOD_MARGIN} margin, to the strobe",
+            bound * 1e9
+        ),
+    ))
 }
 
 /// A conservative vector period from a rough delay bound (not a timing model): the square
@@ -315,6 +363,7 @@ struct DeckCtx {
     load: String,
     slew: String,
     period: String,
+    period_rule: String,
     half: String,
     high: String,
     step: String,
@@ -473,6 +522,7 @@ pub fn deck(spec: &Spec, design: &Design, plan: &DeckPlan, netlist: &str) -> Res
         load: fmt_si(spec.testbench.load, 'F'),
         slew: s(plan.slew),
         period: s(t),
+        period_rule: plan.period_rule.clone(),
         half: s(t / 2.0),
         high: s(t / 2.0 - plan.slew),
         step: s(plan.step),

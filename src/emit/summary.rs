@@ -162,6 +162,7 @@ pub fn json(
             "vectors": deck.vectors.len(),
             "period_s": deck.period,
             "period_from_spec": deck.period_from_spec,
+            "period_rule": deck.period_rule,
             "step_s": deck.step,
             "tstop_s": deck.tstop,
             "input_slew_s": deck.slew,
