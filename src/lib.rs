@@ -107,7 +107,7 @@ fn check_name_is_free(spec: &Spec, design: &Design) -> Result<()> {
 pub struct Generated {
     pub design: Design,
     pub check: sim::CheckReport,
-    /// Transistor and cell counts and logic depth (also in NAME.json).
+    /// Transistor and cell counts and the topological depth (also in NAME.json).
     pub counts: emit::summary::Counts,
     /// (file name, contents), in a fixed order.
     pub files: Vec<(String, String)>,

@@ -45,7 +45,8 @@ enum Command {
         #[arg(long, value_name = "DIR")]
         model_dir: Option<PathBuf>,
     },
-    /// Print what a spec builds (counts by cell kind, logic depth, prefix-graph figures) and
+    /// Print what a spec builds (counts by cell kind, topological depth, prefix-graph figures,
+    /// and the timing engine's worst path and area when the technology is characterised) and
     /// optionally draw its carry structure as SVG.
     Describe {
         /// The adder spec (YAML; `-` reads it from standard input).
@@ -175,10 +176,22 @@ fn run(cli: Cli) -> Result<ExitCode> {
                 let text = emit::report::svg(&s, &design)?;
                 carrywright::write_file(path, &text)?;
             }
+            // The timing engine's figures, where the technology has characterised timing.
+            let est = match &s.technology.timing {
+                Some(_) => Some(carrywright::timing::engine::estimate(&s, &design)?),
+                None => None,
+            };
             if json {
-                out.line(describe_json(&s, &design));
+                out.line(describe_json(&s, &design, est.as_ref()));
             } else {
                 out.line(emit::report::table(&s, &design).trim_end());
+                match &est {
+                    Some(e) => out.line(describe_timing(e)),
+                    None => out.line(format!(
+                        "  (no timing: {} has no characterised timing at these conditions)",
+                        s.technology.name
+                    )),
+                }
                 if let Some(path) = &svg {
                     out.line(format!("  wrote {}", shown_path(path)));
                 }
@@ -300,8 +313,23 @@ fn run(cli: Cli) -> Result<ExitCode> {
 }
 
 /// `describe --json`: the facts of the table as one object.
-fn describe_json(s: &Spec, design: &carrywright::netlist::Design) -> String {
+fn describe_json(
+    s: &Spec,
+    design: &carrywright::netlist::Design,
+    est: Option<&carrywright::timing::engine::Estimate>,
+) -> String {
     let c = emit::summary::counts(design);
+    let timing = est.map(|e| {
+        serde_json::json!({
+            "worst_ps": e.worst_ps,
+            "worst_from": e.worst_vectors.from,
+            "worst_to": e.worst_vectors.to,
+            "cin_cout_ps": e.cin_cout_ps,
+            "bound_ps": e.bound_ps,
+            "gate_area_um2": e.gate_area_um2,
+            "energy_fj": e.energy_fj,
+        })
+    });
     serde_json::json!({
         "name": s.name,
         "title": emit::title(s),
@@ -314,8 +342,36 @@ fn describe_json(s: &Spec, design: &carrywright::netlist::Design) -> String {
         "block_sizes": s.block_sizes,
         "buffers": s.buffers.positions,
         "prefix": design.prefix,
+        "timing": timing,
     })
     .to_string()
+}
+
+/// `describe`'s timing rows: the engine's worst path, cin -> cout, the bound and the area.
+fn describe_timing(e: &carrywright::timing::engine::Estimate) -> String {
+    let row = |k: &str, v: String| format!("  {k:<22} {v}");
+    let mut rows = vec![row(
+        "worst path",
+        format!(
+            "{:.1} ps, {} -> {} (timing engine; carrywright estimate shows the path and the vector pair)",
+            e.worst_ps, e.worst_vectors.from, e.worst_vectors.to
+        ),
+    )];
+    if let Some(c) = e.cin_cout_ps {
+        rows.push(row(
+            "cin -> cout",
+            format!("{c:.1} ps, every bit propagating"),
+        ));
+    }
+    rows.push(row(
+        "topological bound",
+        format!("{:.1} ps (sensitisation ignored)", e.bound_ps),
+    ));
+    rows.push(row(
+        "gate area",
+        format!("{:.1} um2 (sum of W*L)", e.gate_area_um2),
+    ));
+    rows.join("\n")
 }
 
 /// `generate`: every spec is loaded, validated, built and checked in memory before anything

@@ -737,3 +737,39 @@ fn energy_table() {
         assert!(sim_fj > 0.0, "{log}");
     }
 }
+
+/// `describe` shows the engine's worst path beside the structural count, and labels the
+/// count as one: a 32-bit carry-skip adder is structurally deeper than ripple but its real
+/// worst path is far shorter (the bypassed ripple is a false path; Rabaey et al. ch. 11).
+#[test]
+fn describe_labels_the_structural_depth_and_shows_the_worst_path() {
+    let dir = tempfile::tempdir().unwrap();
+    let mut seen = vec![];
+    for (name, body) in [
+        ("cs32", "architecture: carry-skip\nblock: 4\n"),
+        ("rc32", "architecture: ripple\n"),
+    ] {
+        let spec = dir.path().join(format!("{name}.yaml"));
+        std::fs::write(&spec, format!("name: {name}\nwidth: 32\n{body}")).unwrap();
+        let o = std::process::Command::new(env!("CARGO_BIN_EXE_carrywright"))
+            .args(["describe", "--json"])
+            .arg(&spec)
+            .output()
+            .unwrap();
+        assert!(o.status.success());
+        let v: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+        assert!(v["counts"].get("logic_depth").is_none());
+        let depth = v["counts"]["topological_depth_stages"].as_u64().unwrap();
+        let worst = v["timing"]["worst_ps"].as_f64().unwrap();
+        seen.push((depth, worst));
+    }
+    let ((d_skip, w_skip), (d_ripple, w_ripple)) = (seen[0], seen[1]);
+    assert!(
+        d_skip > d_ripple,
+        "the structural count is deeper for carry-skip"
+    );
+    assert!(
+        w_skip * 2.0 < w_ripple,
+        "carry-skip {w_skip} ps should be far faster than ripple {w_ripple} ps"
+    );
+}

@@ -20,7 +20,14 @@ pub fn table(spec: &Spec, design: &Design) -> String {
     for (k, n) in &c.cells_by_kind {
         row(&mut out, &format!("  {k}"), n.to_string());
     }
-    row(&mut out, "logic depth (stages)", c.logic_depth.to_string());
+    row(
+        &mut out,
+        "topological depth",
+        format!(
+            "{} gate stages (structure only, sensitisation ignored: not a delay)",
+            c.topological_depth_stages
+        ),
+    );
     if let Some(rule) = spec.block_rule {
         row(
             &mut out,

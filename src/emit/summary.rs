@@ -36,9 +36,16 @@ pub struct Counts {
     pub cells: usize,
     pub cells_by_kind: BTreeMap<String, usize>,
     pub modules: usize,
-    /// Longest input-to-output path in gate stages (a pass device counts as one).
-    pub logic_depth: usize,
+    /// Longest input-to-output path in gate stages (a pass device counts as one), through
+    /// the structure: no input vector need sensitise it, so it is not a delay (a carry-skip
+    /// adder counts deeper than ripple though it is faster). Delays come from the timing
+    /// engine (`carrywright estimate`).
+    pub topological_depth_stages: usize,
+    pub topological_depth_note: &'static str,
 }
+
+/// What `topological_depth_stages` is, in NAME.json and `describe --json`.
+pub const TOPOLOGICAL_DEPTH_NOTE: &str = "longest input-to-output path in gate stages through the structure, sensitisation ignored: a count, not a delay (see carrywright estimate)";
 
 pub fn counts(design: &Design) -> Counts {
     let by_kind = design.cell_counts();
@@ -50,7 +57,8 @@ pub fn counts(design: &Design) -> Counts {
             .map(|(k, n)| (design.cells[k].base.to_string(), *n))
             .collect(),
         modules: design.modules.len(),
-        logic_depth: design.logic_depth(),
+        topological_depth_stages: design.logic_depth(),
+        topological_depth_note: TOPOLOGICAL_DEPTH_NOTE,
     }
 }
 
