@@ -319,7 +319,46 @@ pub struct Flat {
     pub top_ports: Vec<u32>,
 }
 
+/// A leaf cell's node names mapped to global node ids, for the transistor-level views
+/// (the ratio rule, the timing engine): pins to their nets, `vdd` / `vss` to the rails, and
+/// each cell-internal node to a new id named `PATH.NODE`, appended to `names` on first use.
+pub struct LeafNodes<'a> {
+    path: &'a str,
+    local: HashMap<String, u32>,
+}
+
+impl LeafNodes<'_> {
+    /// The id of node `n`, and whether it was created by this call.
+    pub fn id(&mut self, n: &str, names: &mut Vec<String>) -> (u32, bool) {
+        if let Some(&g) = self.local.get(n) {
+            return (g, false);
+        }
+        names.push(format!("{}.{n}", self.path));
+        let g = (names.len() - 1) as u32;
+        self.local.insert(n.to_string(), g);
+        (g, true)
+    }
+}
+
 impl Flat {
+    /// The node map of leaf `leaf`, with the rails at ids `vss` and `vdd`.
+    pub fn leaf_nodes(&self, design: &Design, leaf: usize, vss: u32, vdd: u32) -> LeafNodes<'_> {
+        let l = &self.leaves[leaf];
+        let cell = &design.cells[&l.kind];
+        let mut local: HashMap<String, u32> = cell
+            .pins
+            .iter()
+            .zip(&l.nets)
+            .map(|(p, &g)| (p.name.to_string(), g))
+            .collect();
+        local.insert("vss".into(), vss);
+        local.insert("vdd".into(), vdd);
+        LeafNodes {
+            path: &l.path,
+            local,
+        }
+    }
+
     fn new_net(&mut self, name: String) -> u32 {
         self.names.push(name);
         (self.names.len() - 1) as u32

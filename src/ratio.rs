@@ -88,21 +88,10 @@ pub fn survey(design: &Design, flat: &Flat) -> Vec<Kept> {
     let mut devs: Vec<Dev> = vec![];
     for (li, leaf) in flat.leaves.iter().enumerate() {
         let cell = &design.cells[&leaf.kind];
-        let mut local: HashMap<String, u32> = HashMap::new();
-        for (p, &g) in cell.pins.iter().zip(&leaf.nets) {
-            local.insert(p.name.to_string(), g);
-        }
-        local.insert("vss".into(), vss);
-        local.insert("vdd".into(), vdd);
-        let mut node = |n: &str, names: &mut Vec<String>| -> u32 {
-            *local.entry(n.to_string()).or_insert_with(|| {
-                names.push(format!("{}.{n}", leaf.path));
-                (names.len() - 1) as u32
-            })
-        };
+        let mut nodes = flat.leaf_nodes(design, li, vss, vdd);
         for d in &cell.devices {
-            let dn = node(&d.d, &mut names);
-            let sn = node(&d.s, &mut names);
+            let dn = nodes.id(&d.d, &mut names).0;
+            let sn = nodes.id(&d.s, &mut names).0;
             let gate_pin = cell
                 .pins
                 .iter()

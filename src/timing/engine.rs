@@ -156,20 +156,15 @@ impl Graph {
         for (li, leaf) in flat.leaves.iter().enumerate() {
             leaf_paths.push(leaf.path.clone());
             let cell = &design.cells[&leaf.kind];
-            let mut local: HashMap<String, u32> = HashMap::new();
-            for (p, &g) in cell.pins.iter().zip(&leaf.nets) {
-                local.insert(p.name.to_string(), g);
-            }
-            local.insert("vss".into(), vss);
-            local.insert("vdd".into(), vdd);
+            let mut nodes = flat.leaf_nodes(design, li, vss, vdd);
             let first = devs.len();
             for d in &cell.devices {
                 let mut node = |n: &str| -> u32 {
-                    *local.entry(n.to_string()).or_insert_with(|| {
-                        names.push(format!("{}.{n}", leaf.path));
+                    let (g, new) = nodes.id(n, &mut names);
+                    if new {
                         kind.push(NodeKind::Inner);
-                        (names.len() - 1) as u32
-                    })
+                    }
+                    g
                 };
                 let (a, b, g) = (node(&d.d), node(&d.s), node(&d.g));
                 devs.push(Dev {
