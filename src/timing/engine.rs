@@ -831,67 +831,127 @@ pub fn device_totals(g: &Graph) -> (usize, f64, f64) {
 /// whether any input vector makes that path happen. Keeper gates are not followed (the
 /// feedback loop of a keeper is not a path). Returns (bound ps, arrival per node).
 pub fn topological_bound(g: &Graph) -> Result<(f64, Vec<f64>)> {
-    let ns = g.stages.len();
-    // Stage inputs: gates of its devices except keepers.
-    let mut indeg = vec![0usize; ns];
-    let mut ins: Vec<Vec<u32>> = vec![vec![]; ns];
-    for (si, st) in g.stages.iter().enumerate() {
-        for &di in &st.devs {
-            let d = &g.devs[di as usize];
-            if d.role == Role::Keeper || ins[si].contains(&d.g) {
-                continue;
-            }
-            ins[si].push(d.g);
-        }
+    let t = Topo::new(g)?;
+    Ok((t.bound, t.arrival))
+}
+
+/// The longest stage path from every top input to any output (ps), in the order of
+/// `Graph::inputs`: the topological bound seen from one input. It orders and prunes the
+/// worst-pair search ([`super::search`]); like the bound it ignores sensitisation.
+pub fn input_reach(g: &Graph) -> Result<Vec<f64>> {
+    let t = Topo::new(g)?;
+    // tail[x]: longest path from node x's change to an output.
+    let mut tail = vec![f64::NEG_INFINITY; g.n_nodes()];
+    for &o in &g.outputs {
+        tail[o as usize] = 0.0;
     }
-    let mut readers: Vec<Vec<u32>> = vec![vec![]; ns];
-    for (si, gates) in ins.iter().enumerate() {
-        for &x in gates {
-            let s = g.stage_of[x as usize];
-            if s != NONE && s as usize != si {
-                readers[s as usize].push(si as u32);
-                indeg[si] += 1;
-            }
-        }
-    }
-    let mut arrival = vec![0.0f64; g.n_nodes()];
-    let mut slew = vec![g.input_slew_ps; g.n_nodes()];
-    let mut ready: VecDeque<usize> = (0..ns).filter(|&s| indeg[s] == 0).collect();
-    let mut done = 0;
-    while let Some(si) = ready.pop_front() {
-        done += 1;
-        let (t_in, s_in) = ins[si]
+    for &si in t.order.iter().rev() {
+        // Entering stage si at time 0 reaches its node x at delay[x], then x's own tail.
+        let through = g.stages[si]
+            .nodes
             .iter()
-            .map(|&x| (arrival[x as usize], slew[x as usize]))
-            .fold((0.0f64, g.input_slew_ps), |acc, (t, s)| {
-                if t > acc.0 {
-                    (t, s)
-                } else {
-                    acc
-                }
-            });
-        for (x, tau) in slowest_taus(g, si) {
-            arrival[x as usize] = t_in + stage_delay(LN2 * tau, s_in, g.slope_k);
-            slew[x as usize] = SLEW_PER_TAU * tau;
-        }
-        for &r in &readers[si] {
-            indeg[r as usize] -= 1;
-            if indeg[r as usize] == 0 {
-                ready.push_back(r as usize);
+            .map(|&x| t.delay[x as usize] + tail[x as usize])
+            .fold(f64::NEG_INFINITY, f64::max);
+        let st = &g.stages[si];
+        // Its gates, and the top inputs its channels reach (a pass device fed by an input).
+        let channel_inputs = st.devs.iter().flat_map(|&di| {
+            let d = &g.devs[di as usize];
+            [d.a, d.b]
+                .into_iter()
+                .filter(|&x| matches!(g.kind[x as usize], NodeKind::Input(_)))
+        });
+        for x in t.ins[si].iter().copied().chain(channel_inputs) {
+            if tail[x as usize] < through {
+                tail[x as usize] = through;
             }
         }
     }
-    if done < ns {
-        return Err(Error::Check(
-            "timing: the stage graph has a loop other than a keeper's".into(),
-        ));
+    Ok(g.inputs.iter().map(|&x| tail[x as usize].max(0.0)).collect())
+}
+
+/// The stage graph in topological order with each node's delay through its stage.
+struct Topo {
+    bound: f64,
+    arrival: Vec<f64>,
+    /// Delay from the stage's latest input to this node.
+    delay: Vec<f64>,
+    /// Stage inputs: gates of its devices except keepers.
+    ins: Vec<Vec<u32>>,
+    order: Vec<usize>,
+}
+
+impl Topo {
+    fn new(g: &Graph) -> Result<Topo> {
+        let ns = g.stages.len();
+        let mut indeg = vec![0usize; ns];
+        let mut ins: Vec<Vec<u32>> = vec![vec![]; ns];
+        for (si, st) in g.stages.iter().enumerate() {
+            for &di in &st.devs {
+                let d = &g.devs[di as usize];
+                if d.role == Role::Keeper || ins[si].contains(&d.g) {
+                    continue;
+                }
+                ins[si].push(d.g);
+            }
+        }
+        let mut readers: Vec<Vec<u32>> = vec![vec![]; ns];
+        for (si, gates) in ins.iter().enumerate() {
+            for &x in gates {
+                let s = g.stage_of[x as usize];
+                if s != NONE && s as usize != si {
+                    readers[s as usize].push(si as u32);
+                    indeg[si] += 1;
+                }
+            }
+        }
+        let mut arrival = vec![0.0f64; g.n_nodes()];
+        let mut delay = vec![0.0f64; g.n_nodes()];
+        let mut slew = vec![g.input_slew_ps; g.n_nodes()];
+        let mut ready: VecDeque<usize> = (0..ns).filter(|&s| indeg[s] == 0).collect();
+        let mut order = Vec::with_capacity(ns);
+        while let Some(si) = ready.pop_front() {
+            order.push(si);
+            let (t_in, s_in) = ins[si]
+                .iter()
+                .map(|&x| (arrival[x as usize], slew[x as usize]))
+                .fold((0.0f64, g.input_slew_ps), |acc, (t, s)| {
+                    if t > acc.0 {
+                        (t, s)
+                    } else {
+                        acc
+                    }
+                });
+            for (x, tau) in slowest_taus(g, si) {
+                let d = stage_delay(LN2 * tau, s_in, g.slope_k);
+                delay[x as usize] = d;
+                arrival[x as usize] = t_in + d;
+                slew[x as usize] = SLEW_PER_TAU * tau;
+            }
+            for &r in &readers[si] {
+                indeg[r as usize] -= 1;
+                if indeg[r as usize] == 0 {
+                    ready.push_back(r as usize);
+                }
+            }
+        }
+        if order.len() < ns {
+            return Err(Error::Check(
+                "timing: the stage graph has a loop other than a keeper's".into(),
+            ));
+        }
+        let bound = g
+            .outputs
+            .iter()
+            .map(|&o| arrival[o as usize])
+            .fold(0.0, f64::max);
+        Ok(Topo {
+            bound,
+            arrival,
+            delay,
+            ins,
+            order,
+        })
     }
-    let bound = g
-        .outputs
-        .iter()
-        .map(|&o| arrival[o as usize])
-        .fold(0.0, f64::max);
-    Ok((bound, arrival))
 }
 
 /// For every node of a stage, the largest Elmore delay over trees grown breadth-first from

@@ -49,6 +49,9 @@ pub struct Budget {
     /// Single-bit flips tried from each start.
     pub flips: usize,
     pub seed: u64,
+    /// Skip hard pairs whose inputs cannot reach an output within [`PRUNE_SLACK`] of the
+    /// worst arrival found so far (by the topological reach, [`engine::input_reach`]).
+    pub prune: bool,
 }
 
 impl Default for Budget {
@@ -58,6 +61,7 @@ impl Default for Budget {
             starts: 4,
             flips: 96,
             seed: 1,
+            prune: true,
         }
     }
 }
@@ -216,26 +220,43 @@ fn round1(x: f64) -> f64 {
     (x * 10.0).round() / 10.0
 }
 
+/// A hard pair and the input bits (0..W a, W..2W b, 2W cin) it varies from its
+/// every-bit-propagating base vector.
+#[derive(Debug, Clone, Copy)]
+pub struct Hard {
+    pub pair: Pair,
+    pub bits: [usize; 2],
+}
+
 /// The candidate pairs of the deterministic part of the search.
 pub fn hard_pairs(width: usize) -> Vec<Pair> {
+    hard_set(width).into_iter().map(|h| h.pair).collect()
+}
+
+fn hard_set(width: usize) -> Vec<Hard> {
     let m = mask(width);
     let alt = 0x5555_5555_5555_5555_5555_5555_5555_5555u128 & m;
+    let cin_bit = 2 * width;
     let mut out = vec![];
     // Every bit propagating: a ⊕ b = 1.
     for a in [m, alt] {
         let b = !a & m;
         for cin in [false, true] {
             let before = In { a, b, cin };
-            out.push(Pair {
-                before,
-                after: In {
-                    cin: !cin,
-                    ..before
+            out.push(Hard {
+                pair: Pair {
+                    before,
+                    after: In {
+                        cin: !cin,
+                        ..before
+                    },
                 },
+                bits: [cin_bit, cin_bit],
             });
         }
         for i in 0..width {
             let bit = 1u128 << i;
+            let both = [i, width + i];
             for cin in [false, true] {
                 // a_i toggled (b_i at its value and at the other), b_i likewise, both edges.
                 for (ta, tb) in [(true, false), (false, true)] {
@@ -257,10 +278,16 @@ pub fn hard_pairs(width: usize) -> Vec<Pair> {
                         if tb {
                             after.b ^= bit;
                         }
-                        out.push(Pair { before, after });
-                        out.push(Pair {
-                            before: after,
-                            after: before,
+                        out.push(Hard {
+                            pair: Pair { before, after },
+                            bits: both,
+                        });
+                        out.push(Hard {
+                            pair: Pair {
+                                before: after,
+                                after: before,
+                            },
+                            bits: both,
                         });
                     }
                 }
@@ -273,19 +300,32 @@ pub fn hard_pairs(width: usize) -> Vec<Pair> {
                     b: kill.b | bit,
                     cin,
                 };
-                out.push(Pair {
-                    before: kill,
-                    after: gen,
+                out.push(Hard {
+                    pair: Pair {
+                        before: kill,
+                        after: gen,
+                    },
+                    bits: both,
                 });
-                out.push(Pair {
-                    before: gen,
-                    after: kill,
+                out.push(Hard {
+                    pair: Pair {
+                        before: gen,
+                        after: kill,
+                    },
+                    bits: both,
                 });
             }
         }
     }
     out
 }
+
+/// A hard pair is skipped when the topological reach of the inputs it varies, raised by this
+/// share, is still below the worst arrival found so far. The reach is a bound of the same
+/// stage delays that ignores sensitisation, but the timed solve can exceed it a little
+/// (stacked devices, fights, slower slopes), hence the slack; `tests/timing.rs` checks the
+/// pruned search against the full one over every architecture and style.
+pub const PRUNE_SLACK: f64 = 0.1;
 
 fn random_in(rng: &mut Rng, width: usize) -> In {
     let m = mask(width);
@@ -358,17 +398,38 @@ pub fn search(g: &Graph, budget: Budget) -> Result<Worst> {
         }
     };
     let mut seen: HashSet<Pair> = HashSet::new();
-    let hard = hard_pairs(w);
-    for (k, p) in hard.iter().enumerate() {
+    let mut hard = hard_set(w);
+    // Reach of every input bit (a, b, cin order; clk left out).
+    let reach: Vec<f64> = {
+        let r = engine::input_reach(g)?;
+        g.inputs
+            .iter()
+            .zip(r)
+            .filter(|(&x, _)| Some(x) != g.clk)
+            .map(|(_, r)| r)
+            .collect()
+    };
+    let reach_of = |h: &Hard| reach[h.bits[0]].max(reach[h.bits[1]]);
+    // The first two pairs (cin toggled with every bit propagating, a all ones) stay first;
+    // the others go in order of falling reach, so the pruning can stop early.
+    hard[2..].sort_by(|x, y| reach_of(y).total_cmp(&reach_of(x)));
+    let mut best = 0.0f64;
+    for (k, h) in hard.iter().enumerate() {
+        let p = &h.pair;
+        if budget.prune && k >= 2 && reach_of(h) * (1.0 + PRUNE_SLACK) < best {
+            break;
+        }
         if !seen.insert(key(p)) {
             continue;
         }
         let pt = t.time(*p)?;
         if k < 2 {
-            // The first two pairs: cin toggled with every bit propagating (a all ones).
             if let Some(x) = pt.outputs[cout] {
                 cin_cout = Some(cin_cout.map_or(x, |y: f64| y.max(x)));
             }
+        }
+        if let Some((x, _)) = pt.worst {
+            best = best.max(x);
         }
         record(&pt, *p, &mut scored);
     }
