@@ -109,6 +109,9 @@ pub struct Generated {
     pub check: sim::CheckReport,
     /// Transistor and cell counts and the topological depth (also in NAME.json).
     pub counts: emit::summary::Counts,
+    /// The timing engine's estimate (also in NAME.json and the deck), where the technology
+    /// is characterised at the spec's conditions.
+    pub estimate: Option<timing::search::Estimate>,
     /// (file name, contents), in a fixed order.
     pub files: Vec<(String, String)>,
 }
@@ -127,11 +130,17 @@ pub fn generate(spec: &Spec) -> Result<Generated> {
         GENERATE_EXHAUSTIVE_MAX,
     )?;
     let counts = emit::summary::counts(&design);
-    let files = emit::render_all(spec, &design, &counts)?;
+    // The timing engine's estimate, where the technology is characterised at these conditions.
+    let estimate = match spec.technology.timing {
+        Some(_) => Some(timing::search::estimate(spec, &design)?),
+        None => None,
+    };
+    let files = emit::render_all(spec, &design, &counts, estimate.as_ref())?;
     Ok(Generated {
         design,
         check,
         counts,
+        estimate,
         files,
     })
 }

@@ -789,7 +789,11 @@ fn pruned_search_finds_the_full_search_worst() {
                 continue;
             }
             for width in [8usize, 13, 24] {
-                let buffers = if arch == "manchester" { "{every: 4}" } else { "none" };
+                let buffers = if arch == "manchester" {
+                    "{every: 4}"
+                } else {
+                    "none"
+                };
                 cases.push(yaml("p", arch, style, width, 4, buffers));
             }
         }

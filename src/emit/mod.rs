@@ -10,6 +10,7 @@ pub mod verilog;
 use crate::error::{Error, Result};
 use crate::netlist::Design;
 use crate::spec::Spec;
+use crate::timing::search::Estimate;
 use std::sync::OnceLock;
 use tera::Tera;
 
@@ -144,16 +145,24 @@ pub fn title(spec: &Spec) -> String {
 
 /// Every output file, in memory: (file name, contents).
 /// `counts` is the design's [`summary::counts`], computed once by the caller.
+/// `estimate` is the timing engine's (when the technology is characterised at the spec's
+/// conditions): its worst pair joins the directed vectors, the deck measures it, and its
+/// figures go into NAME.json and the deck header.
 pub fn render_all(
     spec: &Spec,
     design: &Design,
     counts: &summary::Counts,
+    estimate: Option<&Estimate>,
 ) -> Result<Vec<(String, String)>> {
     // Only the vectors the deck uses are materialised; the Verilog testbench draws the other
     // random ones itself from the same seed.
     let listed = spec.testbench.random.min(spice::DECK_RANDOM);
-    let plan = vectors::plan(spec.width, listed, spec.testbench.seed);
-    let deck = spice::DeckPlan::new(spec, design, &plan)?;
+    let worst = estimate.map(|e| {
+        let v = |x: crate::timing::search::In| vectors::Vector::new(x.a, x.b, x.cin, spec.width);
+        (v(e.pair.before), v(e.pair.after), design.dynamic)
+    });
+    let plan = vectors::plan(spec.width, listed, spec.testbench.seed, worst);
+    let deck = spice::DeckPlan::new(spec, design, &plan, estimate)?;
     let n = &spec.name;
     let netlist = spice::subcircuits(spec, design)?;
     let bench = spice::deck(spec, design, &deck, &netlist)?;
@@ -164,7 +173,7 @@ pub fn render_all(
         (format!("{n}_tb.sp"), bench),
         (
             format!("{n}.json"),
-            summary::json(spec, design, counts, &plan, &deck)?,
+            summary::json(spec, design, counts, &plan, &deck, estimate)?,
         ),
     ])
 }

@@ -9,6 +9,7 @@ use crate::cells::Mos;
 use crate::error::{Error, Result};
 use crate::netlist::{Design, Master};
 use crate::spec::{fmt_si, trim_num, Architecture, Spec, Style};
+use crate::timing::search::Estimate;
 use serde::Serialize;
 
 const LINE: usize = 78;
@@ -173,6 +174,20 @@ pub struct DeckPlan {
     /// Dynamic designs: fraction of the period at which cout is sampled in precharge.
     pub precharge_strobe: Option<f64>,
     pub delay_from: &'static str,
+    /// The timing engine's worst path, measured on its vector pair.
+    pub worst: Option<WorstMeasure>,
+}
+
+/// The worst path the deck measures: the engine's vector pair is in the deck's vectors.
+#[derive(Debug, Clone, Serialize)]
+pub struct WorstMeasure {
+    /// Index of the vector whose transition is measured (`after`).
+    pub vector: usize,
+    pub from: String,
+    pub from_edge: &'static str,
+    pub to: String,
+    pub to_edge: &'static str,
+    pub estimate_ps: f64,
 }
 
 /// Random vectors the transistor-level deck adds to the directed ones.
@@ -188,20 +203,37 @@ pub const MAX_POINTS: f64 = 500_000.0;
 pub const TMAX_CAP: f64 = 100e-12;
 
 impl DeckPlan {
-    pub fn new(spec: &Spec, design: &Design, plan: &[Labeled]) -> Result<DeckPlan> {
-        let n_directed = super::vectors::directed(spec.width).len();
+    pub fn new(
+        spec: &Spec,
+        design: &Design,
+        plan: &[Labeled],
+        estimate: Option<&Estimate>,
+    ) -> Result<DeckPlan> {
+        let n_directed = super::vectors::n_directed(plan);
         let take = n_directed + spec.testbench.random.min(DECK_RANDOM);
         let vectors: Vec<Labeled> = plan.iter().take(take).cloned().collect();
         let dynamic = spec.style == Style::Dynamic;
-        let (period, period_rule) = match spec.testbench.period {
-            Some(p) => (p, "testbench.period".to_string()),
-            None => match &spec.technology.timing {
+        let (period, period_rule) = match (spec.testbench.period, estimate) {
+            (Some(p), _) => (p, "testbench.period".to_string()),
+            (None, Some(e)) => period_from_estimate(spec, e),
+            (None, None) => match &spec.technology.timing {
                 Some(tm) => period_from_bound(spec, design, tm)?,
                 None => (
                     default_period(spec),
                     "a rough structural bound (the technology has no characterised timing at these conditions)".to_string(),
                 ),
             },
+        };
+        let worst = match (estimate, super::vectors::worst_index(&vectors)) {
+            (Some(e), Some(k)) => Some(WorstMeasure {
+                vector: k,
+                from: e.worst_vectors.from.clone(),
+                from_edge: e.worst_vectors.from_edge,
+                to: e.worst_vectors.to.clone(),
+                to_edge: e.worst_vectors.to_edge,
+                estimate_ps: e.worst_ps,
+            }),
+            _ => None,
         };
         let step = spec
             .testbench
@@ -231,8 +263,60 @@ impl DeckPlan {
             strobe: if dynamic { 0.95 } else { 0.9 },
             precharge_strobe: dynamic.then_some(0.45),
             delay_from: if dynamic { "clk" } else { "cin" },
+            worst,
         })
     }
+}
+
+/// Margin of the default period over the timing engine's worst-path estimate: the estimate
+/// was within 15 % of ngspice on the designs measured (tests/accuracy.rs), and the deck's
+/// random vectors must also settle; 1.5 leaves room for both.
+pub const ESTIMATE_MARGIN: f64 = 1.5;
+
+/// The default vector period from the timing engine's estimate: the worst path (found over
+/// real vector pairs) times [`ESTIMATE_MARGIN`], plus two input slews, must end before the
+/// strobe: at 90 % of the period in static style, in the evaluate half before the 95 % strobe
+/// in dynamic style. Never longer than the topological-bound rule; rounded up to 0.1 ns.
+fn period_from_estimate(spec: &Spec, e: &Estimate) -> (f64, String) {
+    let need = |ps: f64, margin: f64| {
+        let need = margin * ps * 1e-12 + 2.0 * spec.technology.slew;
+        match spec.style {
+            Style::Static => need / 0.9,
+            Style::Dynamic => need / 0.45,
+        }
+    };
+    let by_estimate = need(e.worst_ps, ESTIMATE_MARGIN);
+    let by_bound = need(e.bound_ps, PERIOD_MARGIN);
+    let (raw, rule) = if by_bound < by_estimate {
+        (
+            by_bound,
+            format!(
+                "the timing engine's topological bound {:.3} ns x {PERIOD_MARGIN} margin, to the strobe",
+                e.bound_ps * 1e-3
+            ),
+        )
+    } else {
+        (
+            by_estimate,
+            format!(
+                "the timing engine's worst-path estimate {:.3} ns x {ESTIMATE_MARGIN} margin, to the strobe",
+                e.worst_ps * 1e-3
+            ),
+        )
+    };
+    (round_period(spec, raw), rule)
+}
+
+/// Round a period up to 0.1 ns, and keep it at least 10 input slews (20 in dynamic style).
+fn round_period(spec: &Spec, raw: f64) -> f64 {
+    let tenth = 0.1e-9;
+    let floor = spec.technology.slew
+        * if spec.style == Style::Dynamic {
+            20.0
+        } else {
+            10.0
+        };
+    ((raw / tenth).ceil() * tenth).max(floor)
 }
 
 /// Margin of the default period over the timing engine's topological bound.
@@ -257,14 +341,7 @@ fn period_from_bound(
         Style::Static => need / 0.9,
         Style::Dynamic => need / 0.45,
     };
-    let tenth = 0.1e-9;
-    let floor = spec.technology.slew
-        * if spec.style == Style::Dynamic {
-            20.0
-        } else {
-            10.0
-        };
-    let period = ((raw / tenth).ceil() * tenth).max(floor);
+    let period = round_period(spec, raw);
     Ok((
         period,
         format!(
@@ -386,6 +463,20 @@ struct DeckCtx {
     delay_note: String,
     strobes: Vec<StrobeCtx>,
     sample_count: usize,
+    worst: Option<WorstCtx>,
+    estimate_note: Vec<String>,
+}
+
+/// The worst-path measurement as the deck prints it.
+#[derive(Serialize)]
+struct WorstCtx {
+    from: String,
+    from_edge: &'static str,
+    to: String,
+    to_edge: &'static str,
+    vector: usize,
+    td: String,
+    estimate: String,
 }
 
 fn s(x: f64) -> String {
@@ -393,6 +484,24 @@ fn s(x: f64) -> String {
 }
 
 /// `NAME_tb.sp`. `netlist` is the text of `NAME.sp`, which the deck carries inside it.
+/// The deck header's lines on the timing engine's estimate.
+fn estimate_note(plan: &DeckPlan) -> Vec<String> {
+    match &plan.worst {
+        Some(w) => vec![format!(
+            "Timing engine: worst path {} {} -> {} {} estimated {:.4e} s; the deck applies its vector",
+            w.from,
+            w.from_edge,
+            w.to,
+            w.to_edge,
+            w.estimate_ps * 1e-12
+        ), format!(
+            "pair (vector {}) and measures it as tworst.",
+            w.vector
+        )],
+        None => vec!["No timing estimate: the technology has no characterised timing at these conditions.".into()],
+    }
+}
+
 pub fn deck(spec: &Spec, design: &Design, plan: &DeckPlan, netlist: &str) -> Result<String> {
     let tech = &spec.technology;
     let w = spec.width;
@@ -503,7 +612,32 @@ pub fn deck(spec: &Spec, design: &Design, plan: &DeckPlan, netlist: &str) -> Res
     let mut save = vec![".save".to_string()];
     save.extend(outputs.iter().map(|o| format!("v({o})")));
     save.push(format!("v({})", plan.delay_from));
+    if let Some(wm) = &plan.worst {
+        for x in [&wm.from, &wm.to] {
+            let v = format!("v({x})");
+            if !save.contains(&v) {
+                save.push(v);
+            }
+        }
+    }
     save.push("i(vvdd)".into());
+    if dynamic {
+        save.push("i(vclk)".into());
+    }
+    let worst = plan.worst.as_ref().map(|wm| {
+        // Static: the inputs change at the vector's start; dynamic: timed from clk↑ at its
+        // middle. Looked for from a little before either.
+        let at = wm.vector as f64 * t + if dynamic { t / 2.0 } else { change };
+        WorstCtx {
+            from: wm.from.clone(),
+            from_edge: wm.from_edge,
+            to: wm.to.clone(),
+            to_edge: wm.to_edge,
+            vector: wm.vector,
+            td: s(at - 0.05 * t),
+            estimate: format!("{:.4e} s", wm.estimate_ps * 1e-12),
+        }
+    });
     let ctx = DeckCtx {
         title: title(spec),
         version: VERSION,
@@ -558,6 +692,8 @@ pub fn deck(spec: &Spec, design: &Design, plan: &DeckPlan, netlist: &str) -> Res
         },
         strobes,
         sample_count,
+        worst,
+        estimate_note: estimate_note(plan),
     };
     render("spice/deck.sp", &ctx)
 }

@@ -9,6 +9,7 @@ use crate::arch::manchester::blocks;
 use crate::error::{Error, Result};
 use crate::netlist::{Design, Master};
 use crate::spec::{Architecture, Spec, Style};
+use crate::timing::search::Estimate;
 use serde::Serialize;
 use std::collections::BTreeMap;
 
@@ -85,6 +86,8 @@ struct Summary<'a> {
     technology: serde_json::Value,
     sizing: serde_json::Value,
     counts: &'a Counts,
+    /// The timing engine's estimate (`carrywright estimate --json`), or why there is none.
+    timing: serde_json::Value,
     verilog_testbench: serde_json::Value,
     spice_deck: serde_json::Value,
     vectors_note: &'static str,
@@ -101,13 +104,14 @@ pub fn json(
     counts: &Counts,
     plan: &[Labeled],
     deck: &DeckPlan,
+    estimate: Option<&Estimate>,
 ) -> Result<String> {
     let chain = matches!(
         spec.architecture,
         Architecture::Manchester | Architecture::CarrySkip
     );
     let tech = &spec.technology;
-    let n_directed = super::vectors::directed(spec.width).len().min(plan.len());
+    let n_directed = super::vectors::n_directed(plan);
     let mut s = Summary {
         generator: format!("carrywright {VERSION}"),
         tool_version: VERSION,
@@ -156,6 +160,15 @@ pub fn json(
         }))?,
         sizing: rounded(&spec.sizing)?,
         counts,
+        timing: match estimate {
+            Some(e) => rounded(e)?,
+            None => serde_json::json!({
+                "none": format!(
+                    "{} has no characterised timing at corner {}, {} degC, {} V",
+                    tech.name, tech.corner, crate::spec::trim_num(tech.temp), crate::spec::trim_num(tech.vdd)
+                )
+            }),
+        },
         verilog_testbench: rounded(serde_json::json!({
             "exhaustive": spec.width <= TB_EXHAUSTIVE_MAX,
             "directed_vectors": n_directed,
@@ -181,7 +194,16 @@ pub fn json(
             "measures": {
                 "tcarry_rise": format!("{} rise to cout rise, vector {}", deck.delay_from, super::vectors::WORST_CASE_RISE),
                 "tcarry_fall": if spec.style == Style::Static { serde_json::json!(format!("cin fall to cout fall, vector {}", super::vectors::WORST_CASE_FALL)) } else { serde_json::Value::Null },
-                "power": "average supply power over the whole transient, W",
+                "tworst": deck.worst.as_ref().map(|w| format!(
+                    "the timing engine's worst path: {} {} to {} {}, vector {} (estimate {} ps)",
+                    w.from, w.from_edge, w.to, w.to_edge, w.vector, w.estimate_ps
+                )),
+                "power": if spec.style == Style::Dynamic {
+                    "average power over the whole transient, W: the supply's, plus the clock's charging energy as a clock driver on the same supply would draw it"
+                } else {
+                    "average supply power over the whole transient, W"
+                },
+                "energy_per_op": "energy per vector (one addition), J: the power's energy over the transient divided by the number of vectors",
             },
         }))?,
         vectors_note: "the SPICE deck's vectors in order (directed worst cases, then the first random ones); the Verilog testbench applies them too and draws the rest of its random vectors from the seed",

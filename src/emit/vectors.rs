@@ -118,15 +118,50 @@ pub fn random_vector(rng: &mut Rng, width: usize) -> Vector {
     Vector::new(a, b, c, width)
 }
 
-/// Directed vectors followed by `n` random ones from `seed`.
-pub fn plan(width: usize, n: usize, seed: u64) -> Vec<Labeled> {
+/// Label of the random vectors (everything else in a plan is directed).
+pub const RANDOM: &str = "random";
+/// Labels of the timing engine's worst vector pair in a plan.
+pub const WORST_BEFORE: &str = "worst path: before";
+pub const WORST_AFTER: &str = "worst path: after (the measured transition)";
+
+/// Directed vectors, then the timing engine's worst pair (static style: `before` and `after`;
+/// dynamic style: `after` only, since every node is precharged before it evaluates), then `n`
+/// random ones from `seed`.
+pub fn plan(
+    width: usize,
+    n: usize,
+    seed: u64,
+    worst: Option<(Vector, Vector, bool)>,
+) -> Vec<Labeled> {
     let mut out = directed_labeled(width);
+    if let Some((before, after, dynamic)) = worst {
+        if !dynamic {
+            out.push(Labeled {
+                label: WORST_BEFORE,
+                v: before,
+            });
+        }
+        out.push(Labeled {
+            label: WORST_AFTER,
+            v: after,
+        });
+    }
     let mut rng = Rng::new(seed);
     for _ in 0..n {
         out.push(Labeled {
-            label: "random",
+            label: RANDOM,
             v: random_vector(&mut rng, width),
         });
     }
     out
+}
+
+/// How many vectors at the head of a plan are directed (the worst pair included).
+pub fn n_directed(plan: &[Labeled]) -> usize {
+    plan.iter().take_while(|l| l.label != RANDOM).count()
+}
+
+/// Index of the worst pair's measured vector in a plan, if it has one.
+pub fn worst_index(plan: &[Labeled]) -> Option<usize> {
+    plan.iter().position(|l| l.label == WORST_AFTER)
 }

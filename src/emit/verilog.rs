@@ -274,7 +274,7 @@ pub fn hex(w: usize, v: u128) -> String {
 pub fn testbench(spec: &Spec, plan: &[Labeled]) -> Result<String> {
     let w = spec.width;
     let exhaustive = w <= TB_EXHAUSTIVE_MAX;
-    let n_directed = super::vectors::directed(w).len().min(plan.len());
+    let n_directed = super::vectors::n_directed(plan);
     let random = spec.testbench.random;
     let listed: Vec<VecCtx> = plan[n_directed..]
         .iter()

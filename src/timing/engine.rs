@@ -866,7 +866,10 @@ pub fn input_reach(g: &Graph) -> Result<Vec<f64>> {
             }
         }
     }
-    Ok(g.inputs.iter().map(|&x| tail[x as usize].max(0.0)).collect())
+    Ok(g.inputs
+        .iter()
+        .map(|&x| tail[x as usize].max(0.0))
+        .collect())
 }
 
 /// The stage graph in topological order with each node's delay through its stage.

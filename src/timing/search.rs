@@ -575,7 +575,10 @@ pub struct WorstVectors {
     pub toggling: Vec<String>,
     /// The input edge the worst path starts from (`clk` in dynamic style).
     pub from: String,
+    /// `rise` or `fall`.
+    pub from_edge: &'static str,
     pub to: String,
+    pub to_edge: &'static str,
     /// The bit-parallel evaluator agrees that the pair changes that output.
     pub checked: bool,
 }
@@ -583,6 +586,9 @@ pub struct WorstVectors {
 /// Everything `carrywright estimate` prints.
 #[derive(Debug, Clone, Serialize)]
 pub struct Estimate {
+    /// The worst pair itself (also printed in `worst_vectors`).
+    #[serde(skip)]
+    pub pair: Pair,
     pub name: String,
     pub conditions: String,
     pub load_ff: f64,
@@ -645,14 +651,16 @@ pub fn estimate_with(
     if a.cin != b.cin {
         toggling.push("cin".into());
     }
-    let from = worst
+    let (from, from_edge) = worst
         .path
         .first()
-        .map(|s| s.net.clone())
+        .map(|s| (s.net.clone(), s.edge))
         .unwrap_or_default();
+    let to_edge = worst.path.last().map(|s| s.edge).unwrap_or_default();
     let vdd = g.vdd_v;
     let t = &spec.technology;
     Ok(Estimate {
+        pair: worst.pair,
         name: spec.name.clone(),
         conditions: format!(
             "{}, corner {}, {} degC, {} V",
@@ -669,7 +677,9 @@ pub fn estimate_with(
             after: vtext(a, spec.width),
             toggling,
             from,
+            from_edge,
             to: out_names[worst.output].clone(),
+            to_edge,
             checked,
         },
         cin_cout_ps: worst.cin_cout_ps.map(round1),
