@@ -193,13 +193,20 @@ fn bench_generate() {
         .unwrap()
     });
     let counts = summary::counts(&design);
-    let render = measure(5, 50, || emit::render_all(&spec, &design, &counts).unwrap());
+    let est = carrywright::timing::engine::estimate(&spec, &design).ok();
+    let estimate = measure(1, 5, || {
+        carrywright::timing::engine::estimate(&spec, &design)
+    });
+    let render = measure(5, 50, || {
+        emit::render_all(&spec, &design, &counts, est.as_ref()).unwrap()
+    });
     line("  build (arch + structural check)", &build);
     line("  check_or_fail (16,384 random + 7)", &check);
+    line("  timing estimate (worst-pair search)", &estimate);
     line("  render_all (five files)", &render);
-    let sum = build.median + check.median + render.median;
+    let sum = build.median + check.median + estimate.median + render.median;
     println!(
-        "  {:<40} {:>16.3} ms (sum of the three medians)",
+        "  {:<40} {:>16.3} ms (sum of the four medians)",
         "  sum",
         ms(sum)
     );
@@ -212,8 +219,8 @@ fn bench_generate() {
     line("    Design::check (structure)", &structure);
     let compile = measure(3, 30, || Evaluator::new(&design).unwrap());
     line("    Evaluator::new (flatten+compile)", &compile);
-    let plan = vectors::plan(spec.width, spec.testbench.random, spec.testbench.seed);
-    let deck = spice::DeckPlan::new(&spec, &design, &plan).unwrap();
+    let plan = vectors::plan(spec.width, spec.testbench.random, spec.testbench.seed, None);
+    let deck = spice::DeckPlan::new(&spec, &design, &plan, est.as_ref()).unwrap();
     let netlist = spice::subcircuits(&spec, &design).unwrap();
     let views: [(&str, Stats); 5] = [
         (
@@ -237,7 +244,7 @@ fn bench_generate() {
         (
             "    summary::json",
             measure(3, 30, || {
-                summary::json(&spec, &design, &counts, &plan, &deck).unwrap()
+                summary::json(&spec, &design, &counts, &plan, &deck, est.as_ref()).unwrap()
             }),
         ),
     ];
@@ -732,7 +739,9 @@ fn bench_architectures() {
     );
     line(
         "    render_all",
-        &measure(1, 9, || emit::render_all(&s128, &d128, &c128).unwrap()),
+        &measure(1, 9, || {
+            emit::render_all(&s128, &d128, &c128, None).unwrap()
+        }),
     );
     line("    logic_depth", &measure(1, 9, || d128.logic_depth()));
     println!("  growth with width (generate median; prefix cells; time per cell):");
