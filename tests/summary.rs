@@ -171,5 +171,5 @@ fn a_million_random_vectors_do_not_grow_the_output() {
         v["verilog_testbench"]["random_drawn_in_testbench"],
         1_000_000 - 8
     );
-    assert_eq!(v["spice_deck"]["vectors"], 15);
+    assert_eq!(v["spice_deck"]["vectors"], 17);
 }
