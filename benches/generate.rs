@@ -198,7 +198,7 @@ fn bench_generate() {
         carrywright::timing::engine::estimate(&spec, &design)
     });
     let render = measure(5, 50, || {
-        emit::render_all(&spec, &design, &counts, est.as_ref()).unwrap()
+        emit::render_all(&spec, &design, &counts, est.as_ref().ok_or("none")).unwrap()
     });
     line("  build (arch + structural check)", &build);
     line("  check_or_fail (16,384 random + 7)", &check);
@@ -244,7 +244,15 @@ fn bench_generate() {
         (
             "    summary::json",
             measure(3, 30, || {
-                summary::json(&spec, &design, &counts, &plan, &deck, est.as_ref()).unwrap()
+                summary::json(
+                    &spec,
+                    &design,
+                    &counts,
+                    &plan,
+                    &deck,
+                    est.as_ref().ok_or("none"),
+                )
+                .unwrap()
             }),
         ),
     ];
@@ -740,7 +748,7 @@ fn bench_architectures() {
     line(
         "    render_all",
         &measure(1, 9, || {
-            emit::render_all(&s128, &d128, &c128, None).unwrap()
+            emit::render_all(&s128, &d128, &c128, Err("none")).unwrap()
         }),
     );
     line("    logic_depth", &measure(1, 9, || d128.logic_depth()));

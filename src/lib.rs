@@ -112,6 +112,9 @@ pub struct Generated {
     /// The timing engine's estimate (also in NAME.json and the deck), where the technology
     /// is characterised at the spec's conditions.
     pub estimate: Option<timing::search::Estimate>,
+    /// Why the estimate failed, where the technology is characterised but the engine could
+    /// not time the design (`generate` prints it as a warning).
+    pub estimate_failed: Option<String>,
     /// (file name, contents), in a fixed order.
     pub files: Vec<(String, String)>,
 }
@@ -131,16 +134,40 @@ pub fn generate(spec: &Spec) -> Result<Generated> {
     )?;
     let counts = emit::summary::counts(&design);
     // The timing engine's estimate, where the technology is characterised at these conditions.
-    let estimate = match spec.technology.timing {
-        Some(_) => Some(timing::search::estimate(spec, &design)?),
-        None => None,
+    // An estimate that fails (an engine fault, never bad input) does not stop the views: it
+    // is reported in NAME.json and by `generate`, and the deck falls back to the bound rule.
+    let t = &spec.technology;
+    let (estimate, timing_note) = match t.timing {
+        Some(_) => match timing::search::estimate(spec, &design) {
+            Ok(e) => (Some(e), None),
+            Err(e) => (None, Some(format!("the timing estimate failed: {e}"))),
+        },
+        None => (
+            None,
+            Some(format!(
+                "{} has no characterised timing at corner {}, {} degC, {} V",
+                t.name,
+                t.corner,
+                spec::trim_num(t.temp),
+                spec::trim_num(t.vdd)
+            )),
+        ),
     };
-    let files = emit::render_all(spec, &design, &counts, estimate.as_ref())?;
+    let timing = estimate
+        .as_ref()
+        .ok_or_else(|| timing_note.as_deref().unwrap_or("no estimate"));
+    let files = emit::render_all(spec, &design, &counts, timing)?;
+    let estimate_failed = if estimate.is_none() && t.timing.is_some() {
+        timing_note
+    } else {
+        None
+    };
     Ok(Generated {
         design,
         check,
         counts,
         estimate,
+        estimate_failed,
         files,
     })
 }

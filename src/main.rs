@@ -453,6 +453,15 @@ fn generate(
                 ""
             }
         ));
+        if let Some(e) = &g.estimate {
+            out.line(format!(
+                "  worst path {:.0} ps ({} -> {}), timing engine estimate; the deck measures it",
+                e.worst_ps, e.worst_vectors.from, e.worst_vectors.to
+            ));
+        }
+        if let Some(why) = &g.estimate_failed {
+            eprintln!("warning: {}: {}", s.name, why.escape_debug());
+        }
         for (name, _) in &g.files {
             out.line(format!("  wrote {}", shown_path(&into.join(name))));
         }

@@ -145,15 +145,17 @@ pub fn title(spec: &Spec) -> String {
 
 /// Every output file, in memory: (file name, contents).
 /// `counts` is the design's [`summary::counts`], computed once by the caller.
-/// `estimate` is the timing engine's (when the technology is characterised at the spec's
-/// conditions): its worst pair joins the directed vectors, the deck measures it, and its
-/// figures go into NAME.json and the deck header.
+/// `timing` is the timing engine's estimate, or why there is none (the technology is not
+/// characterised at the spec's conditions, or the estimate failed): its worst pair joins the
+/// directed vectors, the deck measures it, and its figures go into NAME.json and the deck
+/// header.
 pub fn render_all(
     spec: &Spec,
     design: &Design,
     counts: &summary::Counts,
-    estimate: Option<&Estimate>,
+    timing: std::result::Result<&Estimate, &str>,
 ) -> Result<Vec<(String, String)>> {
+    let estimate = timing.ok();
     // Only the vectors the deck uses are materialised; the Verilog testbench draws the other
     // random ones itself from the same seed.
     let listed = spec.testbench.random.min(spice::DECK_RANDOM);
@@ -173,7 +175,7 @@ pub fn render_all(
         (format!("{n}_tb.sp"), bench),
         (
             format!("{n}.json"),
-            summary::json(spec, design, counts, &plan, &deck, estimate)?,
+            summary::json(spec, design, counts, &plan, &deck, timing)?,
         ),
     ])
 }

@@ -104,7 +104,7 @@ pub fn json(
     counts: &Counts,
     plan: &[Labeled],
     deck: &DeckPlan,
-    estimate: Option<&Estimate>,
+    timing: std::result::Result<&Estimate, &str>,
 ) -> Result<String> {
     let chain = matches!(
         spec.architecture,
@@ -160,14 +160,9 @@ pub fn json(
         }))?,
         sizing: rounded(&spec.sizing)?,
         counts,
-        timing: match estimate {
-            Some(e) => rounded(e)?,
-            None => serde_json::json!({
-                "none": format!(
-                    "{} has no characterised timing at corner {}, {} degC, {} V",
-                    tech.name, tech.corner, crate::spec::trim_num(tech.temp), crate::spec::trim_num(tech.vdd)
-                )
-            }),
+        timing: match timing {
+            Ok(e) => rounded(e)?,
+            Err(why) => serde_json::json!({ "none": why }),
         },
         verilog_testbench: rounded(serde_json::json!({
             "exhaustive": spec.width <= TB_EXHAUSTIVE_MAX,
@@ -199,11 +194,11 @@ pub fn json(
                     w.from, w.from_edge, w.to, w.to_edge, w.vector, w.estimate_ps
                 )),
                 "power": if spec.style == Style::Dynamic {
-                    "average power over the whole transient, W: the supply's, plus the clock's charging energy as a clock driver on the same supply would draw it"
+                    "average power from vector 1 to the end, W: the supply's, plus the clock's charging energy as a clock driver on the same supply would draw it"
                 } else {
-                    "average supply power over the whole transient, W"
+                    "average supply power from vector 1 to the end, W"
                 },
-                "energy_per_op": "energy per vector (one addition), J: the power's energy over the transient divided by the number of vectors",
+                "energy_per_op": "energy per addition, J: the energy of vectors 1 to the last (vector 0 starts from the operating point) divided by their number; over the deck's vectors, mostly directed worst cases, so not the timing estimate's energy_fj at 50 % random activity",
             },
         }))?,
         vectors_note: "the SPICE deck's vectors in order (directed worst cases, then the first random ones); the Verilog testbench applies them too and draws the rest of its random vectors from the seed",
