@@ -2,8 +2,8 @@
 //! unbuffered Manchester segments and linear growth once buffered (Elmore 1948; Rabaey,
 //! Chandrakasan & Nikolić, Digital Integrated Circuits, 2nd ed., §6.2.3), the carry-skip false
 //! path (Rabaey ch. 11), the worst pair checked by the bit-parallel evaluator, log N growth of
-//! prefix adders against N for ripple (Kogge & Stone 1973; Harris 2003), determinism, and the
-//! estimate against ngspice on small GF180MCU designs.
+//! prefix adders against N for ripple (Kogge & Stone 1973; Harris 2003) and determinism. The
+//! estimate against ngspice is in tests/accuracy.rs.
 
 mod common;
 
@@ -189,10 +189,6 @@ fn bypassed(v: &In, width: usize, block: usize) -> Vec<bool> {
         .collect()
 }
 
-fn hex(s: &str) -> u128 {
-    u128::from_str_radix(s.trim_start_matches("0x"), 16).unwrap()
-}
-
 #[test]
 fn carry_skip_worst_path_is_real() {
     // The ripple through a bypassed block is a false path (Rabaey ch. 11): the worst delay a
@@ -211,8 +207,8 @@ fn carry_skip_worst_path_is_real() {
             e.bound_ps
         );
         let after = In {
-            a: hex(&e.worst_vectors.after.a),
-            b: hex(&e.worst_vectors.after.b),
+            a: common::hex(&e.worst_vectors.after.a),
+            b: common::hex(&e.worst_vectors.after.b),
             cin: e.worst_vectors.after.cin == 1,
         };
         let byp = bypassed(&after, width, block);
@@ -257,13 +253,13 @@ fn worst_pair_changes_its_output() {
         assert!(e.worst_vectors.checked);
         let p = Pair {
             before: In {
-                a: hex(&e.worst_vectors.before.a),
-                b: hex(&e.worst_vectors.before.b),
+                a: common::hex(&e.worst_vectors.before.a),
+                b: common::hex(&e.worst_vectors.before.b),
                 cin: e.worst_vectors.before.cin == 1,
             },
             after: In {
-                a: hex(&e.worst_vectors.after.a),
-                b: hex(&e.worst_vectors.after.b),
+                a: common::hex(&e.worst_vectors.after.a),
+                b: common::hex(&e.worst_vectors.after.b),
                 cin: e.worst_vectors.after.cin == 1,
             },
         };
@@ -335,200 +331,6 @@ fn estimate_is_deterministic() {
     for key in JSON_KEYS {
         assert!(ja.contains(&format!("\"{key}\"")), "JSON lacks {key}");
     }
-}
-
-// ---------------------------------------------------------------------------------------
-// Against ngspice (GF180MCU typical): the engine's worst pair, simulated.
-
-/// The adder instance (inputs as given, outputs s0.. cout) and its output loads.
-fn dut_lines(s: &Spec, inputs: &[String]) -> String {
-    let outs: Vec<String> = (0..s.width)
-        .map(|i| format!("s{i}"))
-        .chain(["cout".into()])
-        .collect();
-    let mut d = format!(
-        "xdut {} {} vdd vss {}\n",
-        inputs.join(" "),
-        outs.join(" "),
-        s.name
-    );
-    for o in &outs {
-        d.push_str(&format!("cl_{o} {o} 0 {}\n", s.testbench.load));
-    }
-    d
-}
-
-/// A deck of our own from the generated subcircuits: the pair applied as PWL sources (static:
-/// `before` until t0, then `after`; dynamic: `before` evaluated, precharge with `after`, clk↑
-/// at t0), 50 % to 50 % measured from the toggling input (or clk) to the output.
-fn pair_deck(sp: &str, s: &Spec, e: &engine::Estimate, model_dir: &Path) -> String {
-    let vdd = s.technology.vdd;
-    let slew = s.technology.slew;
-    let w = s.width;
-    let dynamic = s.style.as_str() == "dynamic";
-    let t0 = 2e-9;
-    let stop = t0 + (3.0 * e.worst_ps * 1e-12).max(2e-9);
-    let get = |v: &carrywright::timing::search::VectorText, k: usize| -> bool {
-        if k < w {
-            hex(&v.a) >> k & 1 == 1
-        } else if k < 2 * w {
-            hex(&v.b) >> (k - w) & 1 == 1
-        } else {
-            v.cin == 1
-        }
-    };
-    let mut d = String::new();
-    d.push_str("* engine pair check\n");
-    d.push_str(&format!(
-        ".include {}/design.ngspice\n",
-        model_dir.display()
-    ));
-    d.push_str(&format!(
-        ".lib {}/sm141064.ngspice typical\n",
-        model_dir.display()
-    ));
-    d.push_str(sp);
-    d.push('\n');
-    d.push_str(&format!("vvdd vdd 0 {vdd}\nvvss vss 0 0\n"));
-    let mut names: Vec<String> = vec![];
-    if dynamic {
-        names.push("clk".into());
-        // evaluate `before` until 0.5 ns, precharge (inputs move to `after` at 0.8 ns), clk↑ at t0.
-        d.push_str(&format!(
-            "vclk clk 0 pwl(0 {vdd} 0.5n {vdd} {} 0 {t0} 0 {} {vdd})\n",
-            0.5e-9 + slew,
-            t0 + slew
-        ));
-    }
-    for k in 0..2 * w + 1 {
-        let name = if k < w {
-            format!("a{k}")
-        } else if k < 2 * w {
-            format!("b{}", k - w)
-        } else {
-            "cin".into()
-        };
-        let (x, y) = (
-            get(&e.worst_vectors.before, k),
-            get(&e.worst_vectors.after, k),
-        );
-        let lv = |b: bool| if b { vdd } else { 0.0 };
-        let tc = if dynamic { 0.8e-9 } else { t0 };
-        d.push_str(&format!(
-            "v{name} {name} 0 pwl(0 {} {tc} {} {} {})\n",
-            lv(x),
-            lv(x),
-            tc + slew,
-            lv(y)
-        ));
-        names.push(name);
-    }
-    d.push_str(&dut_lines(s, &names));
-    let from = &e.worst_vectors.from;
-    let to = &e.worst_vectors.to;
-    let first = &e.worst_path[0];
-    let last = e.worst_path.last().unwrap();
-    let trig_edge = if first.edge == "rise" { "rise" } else { "fall" };
-    let targ_edge = if last.edge == "rise" { "rise" } else { "fall" };
-    let half = vdd / 2.0;
-    let td = t0 - 0.1e-9;
-    d.push_str(".options method=gear\n.temp 27\n");
-    d.push_str(&format!(".tran 2p {stop} 0 10p\n"));
-    d.push_str(&format!(
-        ".control\nset num_threads=1\nrun\nlet tpair = -1\nmeas tran tpair trig v({from}) val={half} td={td} {trig_edge}=1 targ v({to}) val={half} td={td} {targ_edge}=1\nprint tpair\nquit 0\n.endc\n.end\n"
-    ));
-    d
-}
-
-/// Estimate each design (GF180MCU 3.3 V typical, the checked-in characterisation), simulate
-/// the engine's worst pair in ngspice and return (line for the table, relative error).
-/// Each design: (name, width, architecture, style, block, buffers, load).
-fn against_ngspice(
-    designs: &[(&str, usize, &str, &str, usize, &str, &str)],
-) -> Option<Vec<(String, f64)>> {
-    if !common::tools(&["ngspice"]) {
-        return None;
-    }
-    let models = common::model_dir()?;
-    let dir = tempfile::tempdir().unwrap();
-    let mut rows = vec![];
-    for &(name, width, arch, style, block, buffers, load) in designs {
-        let y = format!(
-            "name: {name}\nwidth: {width}\narchitecture: {arch}\nstyle: {style}\nblock: {block}\nbuffers: {buffers}\ntechnology: gf180mcu-3v3\ntestbench: {{random: 0, seed: 1, load: {load}}}\n"
-        );
-        let opts = LoadOptions {
-            model_dir: Some(models.clone()),
-        };
-        let s = spec::parse(&y, "test-spec", Path::new("."), &opts).unwrap();
-        let g = carrywright::generate(&s).unwrap();
-        let e = engine::estimate(&s, &g.design).unwrap();
-        let sp = &g
-            .files
-            .iter()
-            .find(|(n, _)| n.ends_with(".sp") && !n.ends_with("_tb.sp"))
-            .unwrap()
-            .1;
-        let deck = pair_deck(sp, &s, &e, &models);
-        let path = dir.path().join(format!("{name}_pair.sp"));
-        std::fs::write(&path, &deck).unwrap();
-        let (_, log) = common::ngspice_in(dir.path(), &path, &[]);
-        let got = common::printed(&log);
-        let measured = got.get("tpair").copied().unwrap_or(-1.0) * 1e12;
-        assert!(measured > 0.0, "{name}: ngspice measured nothing:\n{log}");
-        let err = e.worst_ps / measured - 1.0;
-        let line = format!(
-            "{name} ({width}-bit {arch} {style}, block {block}, buffers {buffers}, {load}): estimate {:.0} ps, ngspice {measured:.0} ps ({:+.1} %), path {} -> {}",
-            e.worst_ps,
-            100.0 * err,
-            e.worst_vectors.from,
-            e.worst_vectors.to
-        );
-        println!("{line}");
-        rows.push((line, err));
-    }
-    Some(rows)
-}
-
-#[test]
-fn estimate_matches_ngspice_on_small_gf180_designs() {
-    let Some(rows) = against_ngspice(&[
-        ("sm8", 8, "manchester", "static", 4, "none", "10f"),
-        ("ks8", 8, "kogge-stone", "static", 4, "none", "10f"),
-        ("dm8", 8, "manchester", "dynamic", 4, "none", "10f"),
-    ]) else {
-        return;
-    };
-    // The CI bound of the accuracy target (issue 7 §5): within 20 % of ngspice.
-    for (line, err) in &rows {
-        assert!(err.abs() < 0.20, "more than 20 % off: {line}");
-    }
-}
-
-/// A longer table for the notes (not run by default: several minutes of ngspice).
-/// `cargo test --test timing accuracy_table -- --ignored --nocapture`
-#[test]
-#[ignore = "a benchmark, not a check: runs ngspice on 12 designs for the accuracy table (cargo test --test timing -- --ignored accuracy_table)"]
-fn accuracy_table() {
-    let Some(rows) = against_ngspice(&[
-        ("rc16", 16, "ripple", "static", 4, "none", "10f"),
-        ("ms16", 16, "manchester", "static", 4, "{every: 4}", "10f"),
-        ("md16", 16, "manchester", "dynamic", 4, "{every: 4}", "10f"),
-        ("cs16", 16, "carry-select", "static", 4, "none", "10f"),
-        ("sk16", 16, "carry-skip", "static", 4, "none", "10f"),
-        ("la16", 16, "lookahead", "static", 4, "none", "10f"),
-        ("sk32", 32, "carry-skip", "static", 4, "none", "20f"),
-        ("bk32", 32, "brent-kung", "static", 4, "none", "20f"),
-        ("sl16", 16, "sklansky", "static", 4, "none", "20f"),
-    ]) else {
-        return;
-    };
-    let mut errs: Vec<f64> = rows.iter().map(|r| r.1.abs()).collect();
-    errs.sort_by(f64::total_cmp);
-    println!(
-        "median |error| {:.1} %, largest {:.1} %",
-        100.0 * errs[errs.len() / 2],
-        100.0 * errs[errs.len() - 1]
-    );
 }
 
 #[test]
@@ -628,115 +430,6 @@ fn estimate_command_prints_json_and_refuses_missing_timing() {
     let err = String::from_utf8_lossy(&out.stderr);
     assert_eq!(out.status.code(), Some(2), "{err}");
     assert!(err.contains("characterised timing"), "{err}");
-}
-
-/// Energy per addition against ngspice (not run by default: a figure for the notes). A run of
-/// seeded random vectors, one every 4 ns, through the engine (½·C·VDD² per node transition,
-/// summed over the pairs) and through ngspice (the supply's charge × VDD over the same run).
-/// `cargo test --test timing energy_table -- --ignored --nocapture`
-#[test]
-#[ignore = "a benchmark, not a check: energy against ngspice (cargo test --test timing -- --ignored energy_table)"]
-fn energy_table() {
-    use carrywright::emit::vectors::{mask, Rng};
-    if !common::tools(&["ngspice"]) {
-        return;
-    }
-    let Some(models) = common::model_dir() else {
-        return;
-    };
-    let dir = tempfile::tempdir().unwrap();
-    for (name, arch) in [("esm8", "manchester"), ("eks8", "kogge-stone")] {
-        let y = yaml(name, arch, "static", 8, 4, "none")
-            .replace("technology: generic", "technology: gf180mcu-3v3");
-        let opts = LoadOptions {
-            model_dir: Some(models.clone()),
-        };
-        let s = spec::parse(&y, "test-spec", Path::new("."), &opts).unwrap();
-        let g = carrywright::generate(&s).unwrap();
-        let graph = Graph::new(&s, &g.design, &timing(&s)).unwrap();
-        let mut t = Timer::new(&graph).unwrap();
-        let (w, n, period) = (8usize, 16usize, 4e-9);
-        let mut rng = Rng::new(11);
-        let m = mask(w);
-        let vs: Vec<In> = (0..=n)
-            .map(|_| In {
-                a: rng.next_u128() & m,
-                b: rng.next_u128() & m,
-                cin: rng.next_u64() & 1 == 1,
-            })
-            .collect();
-        let vdd = s.technology.vdd;
-        let mut switched = 0.0;
-        for k in 0..n {
-            let pt = t
-                .time(Pair {
-                    before: vs[k],
-                    after: vs[k + 1],
-                })
-                .unwrap();
-            switched += pt.switched_ff;
-        }
-        let est_fj = 0.5 * switched * vdd * vdd / n as f64;
-        let sp = &g
-            .files
-            .iter()
-            .find(|(f, _)| f.ends_with(".sp") && !f.ends_with("_tb.sp"))
-            .unwrap()
-            .1;
-        let mut d = format!(
-            "* energy\n.include {0}/design.ngspice\n.lib {0}/sm141064.ngspice typical\n{sp}\nvvdd vdd 0 {vdd}\nvvss vss 0 0\n",
-            models.display()
-        );
-        let bit = |v: &In, k: usize| -> bool {
-            if k < w {
-                v.a >> k & 1 == 1
-            } else if k < 2 * w {
-                v.b >> (k - w) & 1 == 1
-            } else {
-                v.cin
-            }
-        };
-        let mut pins = vec![];
-        for k in 0..2 * w + 1 {
-            let pin = if k < w {
-                format!("a{k}")
-            } else if k < 2 * w {
-                format!("b{}", k - w)
-            } else {
-                "cin".into()
-            };
-            let mut pwl = vec![];
-            for (j, v) in vs.iter().enumerate() {
-                let lv = if bit(v, k) { vdd } else { 0.0 };
-                let t0 = j as f64 * period;
-                pwl.push(format!(
-                    "{} {lv} {} {lv}",
-                    t0 + s.technology.slew,
-                    t0 + period
-                ));
-            }
-            d.push_str(&format!(
-                "v{pin} {pin} 0 pwl(0 {} {})\n",
-                if bit(&vs[0], k) { vdd } else { 0.0 },
-                pwl.join(" ")
-            ));
-            pins.push(pin);
-        }
-        d.push_str(&dut_lines(&s, &pins));
-        let (from, to) = (period * 0.9, period * (n as f64 + 0.9));
-        d.push_str(&format!(
-            ".options method=gear\n.tran 10p {to} 0 20p\n.control\nset num_threads=1\nrun\nmeas tran qsup integ i(vvdd) from={from} to={to}\nlet epj = -qsup * {vdd} / {n} * 1e15\nprint epj\nquit 0\n.endc\n.end\n"
-        ));
-        let path = dir.path().join(format!("{name}.sp"));
-        std::fs::write(&path, d).unwrap();
-        let (_, log) = common::ngspice_in(dir.path(), &path, &[]);
-        let sim_fj = common::printed(&log).get("epj").copied().unwrap_or(-1.0);
-        println!(
-            "{name}: energy per addition over {n} random pairs: estimate {est_fj:.0} fJ, ngspice {sim_fj:.0} fJ ({:+.0} %)",
-            100.0 * (est_fj / sim_fj - 1.0)
-        );
-        assert!(sim_fj > 0.0, "{log}");
-    }
 }
 
 /// `describe` shows the engine's worst path beside the structural count, and labels the

@@ -55,6 +55,54 @@ pub fn model_dir() -> Option<PathBuf> {
     }
 }
 
+/// The SKY130 model folder (`sky130_fd_pr`) from CARRYWRIGHT_SKY130_DIR, if present.
+pub fn sky130_dir() -> Option<PathBuf> {
+    let dir = std::env::var_os(carrywright::tech::SKY130_DIR_ENV).map(PathBuf::from);
+    let ok = dir
+        .as_ref()
+        .map(|d| d.join("combined_models/sky130.lib.spice").is_file())
+        .unwrap_or(false);
+    if prerequisite(ok, "the SKY130 model folder (CARRYWRIGHT_SKY130_DIR)") {
+        dir
+    } else {
+        None
+    }
+}
+
+/// The model folder of a built-in technology (`gf180mcu-3v3` or `sky130-1v8`), if present.
+pub fn pdk_dir(technology: &str) -> Option<PathBuf> {
+    match technology {
+        "gf180mcu-3v3" => model_dir(),
+        "sky130-1v8" => sky130_dir(),
+        other => panic!("no model folder for technology `{other}`"),
+    }
+}
+
+/// The lines that read a technology's models, as the generated deck writes them
+/// (`Models::deck_lines`: GF180 `.include design.ngspice` and `.lib sm141064.ngspice CORNER`;
+/// SKY130 `.param mc_mm_switch=0` and `.lib combined_models/sky130.lib.spice CORNER`), with the
+/// model folder the technology was loaded from written out in place of `$cw_models` (a deck of
+/// a test runs here only).
+pub fn model_lines(t: &carrywright::tech::Technology) -> Vec<String> {
+    let var = format!("${}", carrywright::tech::DECK_MODEL_VAR);
+    let lines = t.models.deck_lines();
+    if !t.models.need_model_dir() {
+        return lines;
+    }
+    let root = t
+        .model_root
+        .as_ref()
+        .unwrap_or_else(|| panic!("technology {} was loaded without its model folder", t.name))
+        .to_string_lossy()
+        .to_string();
+    lines.into_iter().map(|l| l.replace(&var, &root)).collect()
+}
+
+/// A hex word as the estimate prints it (`0x00ff`).
+pub fn hex(s: &str) -> u128 {
+    u128::from_str_radix(s.trim_start_matches("0x"), 16).unwrap()
+}
+
 /// Generate a spec's files into a fresh temporary folder through the library API.
 pub fn generate(
     yaml: &str,
