@@ -6,7 +6,7 @@
 //! engine, the worst of the hard transitions (cin, a0 and b0 toggled with every other bit
 //! propagating, both edges) measured in ngspice, which the engine's worst path must not fall
 //! more than 10 % below. A CI test asserts a looser bound (20 %) on a few small designs; the
-//! ignored `accuracy_benchmark` runs the whole table (about an hour of ngspice) and writes
+//! ignored `accuracy_benchmark` runs the whole table (about 90 minutes of ngspice) and writes
 //! `target/accuracy.md`.
 //!
 //! One ngspice at a time, one thread each (`set num_threads=1`, EDA-RECIPES: Debian's ngspice
@@ -828,9 +828,11 @@ fn median(mut v: Vec<f64>) -> f64 {
 /// ranking means something. Manchester chains longer than 8 bits are buffered every 4 (an
 /// unbuffered 16-bit chain is a square-law curiosity, not a design); blocks of 4 for the
 /// block adders; the prefix families in their dense form. The flag: also on SKY130. A SKY130
-/// deck costs 4 to 10 times its GF180 twin (the model expansion, above), so SKY130 runs every
-/// 8- and 16-bit design (all 11 architectures), four at 32 bits and one at 64: about 65
-/// minutes of ngspice CPU in all, against 15 for GF180 alone.
+/// deck costs 4 to 20 times its GF180 twin (the model expansion, above, grows faster than the
+/// device count), so SKY130 runs every 8- and 16-bit design (all 11 architectures), four at
+/// 32 bits and one at 64. Measured (2026-12-02, one ngspice on a shared two-core machine):
+/// 86 minutes of ngspice CPU in all, GF180 13, SKY130 73 of which the 64-bit Brent-Kung alone
+/// took 27; CARRYWRIGHT_ACCURACY_ONLY / CARRYWRIGHT_ACCURACY_TECH run a part.
 const DESIGNS: &[(Dut, bool)] = &[
     (dut("rc8", 8, "ripple", "static", None, "none"), true),
     (dut("ms8", 8, "manchester", "static", Some(4), "none"), true),
@@ -924,13 +926,13 @@ fn estimate_matches_ngspice_on_small_gf180_designs() {
     }
 }
 
-/// The table of issue 7 §5 (not run by default: about an hour of ngspice on one core).
+/// The table of issue 7 §5 (not run by default: about 90 minutes of ngspice on one core).
 /// `cargo test --release --test accuracy -- --ignored --nocapture accuracy_benchmark`;
 /// CARRYWRIGHT_ACCURACY_ONLY=rc8,ks32 runs only those designs, CARRYWRIGHT_ACCURACY_TECH=sky130-1v8
 /// only that technology, CARRYWRIGHT_ACCURACY_KEEP=1 keeps the decks and logs in
 /// target/accuracy-decks/.
 #[test]
-#[ignore = "a benchmark, not a check: an hour of ngspice over 24 designs, 2 technologies, 2 loads (cargo test --release --test accuracy -- --ignored --nocapture accuracy_benchmark)"]
+#[ignore = "a benchmark, not a check: 90 minutes of ngspice over 24 designs, 2 technologies, 2 loads (cargo test --release --test accuracy -- --ignored --nocapture accuracy_benchmark)"]
 fn accuracy_benchmark() {
     if !common::tools(&["ngspice"]) {
         return;
