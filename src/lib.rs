@@ -136,31 +136,20 @@ pub fn generate(spec: &Spec) -> Result<Generated> {
     // The timing engine's estimate, where the technology is characterised at these conditions.
     // An estimate that fails (an engine fault, never bad input) does not stop the views: it
     // is reported in NAME.json and by `generate`, and the deck falls back to the bound rule.
-    let t = &spec.technology;
-    let (estimate, timing_note) = match t.timing {
-        Some(_) => match timing::search::estimate(spec, &design) {
-            Ok(e) => (Some(e), None),
-            Err(e) => (None, Some(format!("the timing estimate failed: {e}"))),
-        },
-        None => (
-            None,
-            Some(format!(
-                "{} has no characterised timing at corner {}, {} degC, {} V",
-                t.name,
-                t.corner,
-                spec::trim_num(t.temp),
-                spec::trim_num(t.vdd)
-            )),
-        ),
+    let timing = match spec.technology.timing {
+        Some(_) => timing::search::estimate(spec, &design)
+            .map_err(|e| format!("the timing estimate failed: {e}")),
+        None => Err(timing::engine::no_timing(spec)),
     };
-    let timing = estimate
-        .as_ref()
-        .ok_or_else(|| timing_note.as_deref().unwrap_or("no estimate"));
-    let files = emit::render_all(spec, &design, &counts, timing)?;
-    let estimate_failed = if estimate.is_none() && t.timing.is_some() {
-        timing_note
-    } else {
-        None
+    let files = emit::render_all(
+        spec,
+        &design,
+        &counts,
+        timing.as_ref().map_err(String::as_str),
+    )?;
+    let (estimate, estimate_failed) = match timing {
+        Ok(e) => (Some(e), None),
+        Err(why) => (None, spec.technology.timing.is_some().then_some(why)),
     };
     Ok(Generated {
         design,

@@ -528,7 +528,7 @@ fn estimate_note(plan: &DeckPlan) -> Vec<String> {
             },
         ],
         None => vec![
-            "No timing estimate: the technology has no characterised timing at these conditions."
+            "No timing estimate (NAME.json timing.none says why): the period follows the rule above."
                 .into(),
         ],
     }

@@ -1035,11 +1035,22 @@ pub use super::search::{estimate, estimate_with, Budget, Estimate};
 /// The technology's characterised timing parameters at its present conditions, or an input
 /// error naming what is missing.
 pub fn timing_of(spec: &Spec) -> Result<Timing> {
-    let t = &spec.technology;
-    t.timing.clone().ok_or_else(|| {
+    spec.technology.timing.clone().ok_or_else(|| {
         Error::Input(format!(
-            "technology: {} has no characterised timing at corner {}, {} °C, {} V; run `carrywright characterize` and use the file it writes",
-            t.name, t.corner, t.temp, t.vdd
+            "technology: {}; run `carrywright characterize` and use the file it writes",
+            no_timing(spec)
         ))
     })
+}
+
+/// Why a spec has no timing: its technology is not characterised at its conditions.
+pub fn no_timing(spec: &Spec) -> String {
+    let t = &spec.technology;
+    format!(
+        "{} has no characterised timing at corner {}, {} °C, {} V",
+        t.name,
+        t.corner,
+        crate::spec::trim_num(t.temp),
+        crate::spec::trim_num(t.vdd)
+    )
 }
