@@ -35,6 +35,8 @@ use std::path::Path;
 pub const LOADS_FF: [f64; 4] = [4.0, 8.0, 16.0, 32.0];
 /// Electrical fan-outs swept for τ and p_inv.
 pub const FANOUTS: [f64; 6] = [1.0, 2.0, 3.0, 4.0, 6.0, 8.0];
+/// Transmission-gate ladder lengths for the ladder resistance fit.
+pub const LADDERS: [usize; 2] = [4, 8];
 /// Unit devices in parallel for the charge measurements.
 pub const CHARGE_DEVICES: usize = 8;
 /// Elmore's step-response factor ln 2 (Rabaey et al. §6.2.3).
@@ -233,6 +235,33 @@ fn bench(t: &Technology, model_lines: &[String]) -> Bench {
                 b.lines.push(format!("c{out} {out} 0 {}f", trim_num(*c)));
                 let e = if edge == "f" { "fall" } else { "rise" };
                 b.delay(&format!("t_{out}"), src, e, &out, e, vdd);
+            }
+        }
+    }
+    // Transmission-gate ladders: an inverter (the characterised widths) driving N gates in
+    // series, every ladder node read by an inverter, for the ladder resistance fit.
+    for n in LADDERS {
+        for (edge, input) in [("f", "in"), ("r", "inb")] {
+            let node = |j: usize| format!("lad{n}{edge}_{j}");
+            b.inv(t, &format!("lad{n}{edge}_drv"), input, &node(0));
+            for j in 1..=n {
+                let tg = format!("lad{n}{edge}_tg{j}");
+                b.dev(t, &tg, &node(j - 1), "vdd", &node(j), false, w_n);
+                b.dev(t, &tg, &node(j - 1), "vss", &node(j), true, w_p);
+                b.inv(
+                    t,
+                    &format!("lad{n}{edge}_rd{j}"),
+                    &node(j),
+                    &format!("{}_y", node(j)),
+                );
+            }
+            let (ie, oe) = if edge == "f" {
+                ("rise", "fall")
+            } else {
+                ("fall", "rise")
+            };
+            for j in 1..=n {
+                b.delay(&format!("t_{}", node(j)), input, ie, &node(j), oe, vdd);
             }
         }
     }
@@ -496,7 +525,7 @@ fn fit_all(
         let mag = 10f64.powf(3.0 - x.abs().log10().floor());
         (x * mag).round() / mag
     };
-    let timing = Timing {
+    let mut timing = Timing {
         input_slew_ps: r4(t.slew * 1e12),
         n_width_um: b.w_n,
         p_width_um: b.w_p,
@@ -513,12 +542,92 @@ fn fit_all(
         fo4_ps: r4(fo4),
         tau_ps: r4(le.slope),
         p_inv: r4(le.intercept / le.slope),
+        r_tg_ladder_fall_kohm_um: None,
+        r_tg_ladder_rise_kohm_um: None,
         at: At {
             corner: t.corner.clone(),
             temp: t.temp,
             vdd: t.vdd,
         },
     };
+    // Ladder resistance: the engine's own ladder model (driver, first gate at the single
+    // value, the rest at R_L; node capacitances from the values above) fitted to the
+    // measured arrival at every node beyond the first, both ladders, by golden-section
+    // search on the squared error.
+    for edge in ["f", "r"] {
+        let rising = edge == "r";
+        let (wn, wp) = (b.w_n, b.w_p);
+        let tg_diff = wn * timing.c_diff_n_ff_um + wp * timing.c_diff_p_ff_um;
+        let reader = wn * timing.c_gate_n_ff_um + wp * timing.c_gate_p_ff_um;
+        let r_drv = if rising {
+            timing.r_p_rise_kohm_um[0] / wp
+        } else {
+            timing.r_n_fall_kohm_um[0] / wn
+        };
+        let r_single = if rising {
+            timing.r_tg_rise_kohm_um
+        } else {
+            timing.r_tg_fall_kohm_um
+        } / wn;
+        let k = super::engine::slope_share(&timing);
+        let t_in = t.slew * 1e12 * 0.8;
+        let mut data = vec![];
+        for n in LADDERS {
+            let mut caps = vec![2.0 * tg_diff];
+            for j in 1..=n {
+                caps.push(if j < n { 2.0 * tg_diff } else { tg_diff } + reader);
+            }
+            let meas: Vec<f64> = (1..=n)
+                .map(|j| need(&format!("t_lad{n}{edge}_{j}")).map(|x| x * 1e12))
+                .collect::<Result<_>>()?;
+            data.push((caps, meas));
+        }
+        let cost = |r_l: f64| -> f64 {
+            data.iter()
+                .map(|(caps, meas)| {
+                    let model = super::engine::ladder_delays(r_drv, r_single, r_l, caps, t_in, k);
+                    (2..meas.len() + 1)
+                        .map(|j| (model[j] - meas[j - 1]).powi(2))
+                        .sum::<f64>()
+                })
+                .sum()
+        };
+        let (mut lo, mut hi) = (0.2 * r_single, 8.0 * r_single);
+        let phi = 0.618_033_988_7;
+        for _ in 0..80 {
+            let a = hi - phi * (hi - lo);
+            let c = lo + phi * (hi - lo);
+            if cost(a) < cost(c) {
+                hi = c;
+            } else {
+                lo = a;
+            }
+        }
+        let r_l = 0.5 * (lo + hi);
+        let worst = data
+            .iter()
+            .flat_map(|(caps, meas)| {
+                let model = super::engine::ladder_delays(r_drv, r_single, r_l, caps, t_in, k);
+                (2..meas.len() + 1)
+                    .map(|j| (model[j] - meas[j - 1]).abs())
+                    .collect::<Vec<_>>()
+            })
+            .fold(0.0, f64::max);
+        let v = r4(r_l * wn);
+        fits.insert(
+            format!("tg_ladder_{edge}"),
+            Fit {
+                slope: v,
+                intercept: 0.0,
+                worst,
+            },
+        );
+        if rising {
+            timing.r_tg_ladder_rise_kohm_um = Some(v);
+        } else {
+            timing.r_tg_ladder_fall_kohm_um = Some(v);
+        }
+    }
     timing
         .check()
         .map_err(|(k, m)| Error::Check(format!("characterize {}: fitted {k} {m}", t.name)))?;
@@ -636,6 +745,14 @@ fn render_yaml(t: &Technology, tm: &Timing, fits: &BTreeMap<String, Fit>) -> Str
     );
     let _ = writeln!(w, "  r_tg_fall_kohm_um: {}", num(tm.r_tg_fall_kohm_um));
     let _ = writeln!(w, "  r_tg_rise_kohm_um: {}", num(tm.r_tg_rise_kohm_um));
+    if let (Some(f), Some(r)) = (tm.r_tg_ladder_fall_kohm_um, tm.r_tg_ladder_rise_kohm_um) {
+        let _ = writeln!(
+            w,
+            "  # a transmission gate fed through another one (inside a ladder)"
+        );
+        let _ = writeln!(w, "  r_tg_ladder_fall_kohm_um: {}", num(f));
+        let _ = writeln!(w, "  r_tg_ladder_rise_kohm_um: {}", num(r));
+    }
     let _ = writeln!(w, "  c_gate_n_ff_um: {}", num(tm.c_gate_n_ff_um));
     let _ = writeln!(w, "  c_gate_p_ff_um: {}", num(tm.c_gate_p_ff_um));
     let _ = writeln!(w, "  c_diff_n_ff_um: {}", num(tm.c_diff_n_ff_um));

@@ -46,6 +46,67 @@ pub fn stage_delay(step: f64, t_in: f64, k: f64) -> f64 {
     step + k * t_in * step / (t_in + step)
 }
 
+/// The delay of a node whose stage is triggered by an input of transition time t_in. The
+/// input's slope acts on the devices whose gates it drives, the logic devices of the path
+/// (driver, pull-up or pull-down stack), whose share of the step is `logic`; the pass devices
+/// and transmission gates beyond them add their RC delay unchanged (their gates are steady).
+pub fn node_delay(step: f64, logic: f64, t_in: f64, k: f64) -> f64 {
+    let logic = logic.min(step);
+    stage_delay(logic, t_in, k) + (step - logic)
+}
+
+/// The two-moment step delay of an RC tree node (D2M: ln 2 · m1² / √m2; Alpert, Devgan &
+/// Kashyap, "RC delay metrics for performance optimization", IEEE TCAD 20(5), 2001): m1 is
+/// the Elmore delay, m2 = Σ_k R_ik · C_k · m1_k. It equals 0.69 · m1 for a single pole, gives
+/// the far end of a distributed line 0.38·RC (0.69 × Elmore says 0.35·RC) and the near nodes
+/// of a ladder much less than 0.69 × Elmore, which overstates them.
+pub fn d2m(m1: f64, m2: f64) -> f64 {
+    if m2 > 0.0 {
+        LN2 * m1 * m1 / m2.sqrt()
+    } else {
+        LN2 * m1
+    }
+}
+
+/// The engine's delay of every node of an unbranched ladder: a driver of resistance `r_drv`
+/// (a logic device whose input moves in `t_in`) into node 0, then a gate of `r_first` (node 0
+/// to 1) and gates of `r_rest` (each further one); `caps` holds the node capacitances 0..=N,
+/// every node switching. It is the model [`Graph::solve`] and [`node_delay`] apply to any
+/// tree, written out for a ladder: `characterize` fits `r_rest` with it.
+pub fn ladder_delays(
+    r_drv: f64,
+    r_first: f64,
+    r_rest: f64,
+    caps: &[f64],
+    t_in: f64,
+    k: f64,
+) -> Vec<f64> {
+    let n = caps.len();
+    let r = |i: usize| match i {
+        0 => r_drv,
+        1 => r_first,
+        _ => r_rest,
+    };
+    let below: Vec<f64> = (0..n).map(|i| caps[i..].iter().sum()).collect();
+    let mut m1 = vec![0.0; n];
+    let mut acc = 0.0;
+    for i in 0..n {
+        acc += r(i) * below[i];
+        m1[i] = acc;
+    }
+    let below_m: Vec<f64> = (0..n)
+        .map(|i| (i..n).map(|j| caps[j] * m1[j]).sum())
+        .collect();
+    let logic = LN2 * r_drv * below[0];
+    let mut m2 = 0.0;
+    (0..n)
+        .map(|i| {
+            m2 += r(i) * below_m[i];
+            node_delay(d2m(m1[i], m2), logic, t_in, k)
+        })
+        .collect()
+}
+
 /// The slope share k that makes this model's FO4 inverter (the characterised NMOS and PMOS
 /// widths, four copies of itself as load, driven by an identical stage) as slow as the
 /// characterised `fo4_ps`, clamped to 0..2.
@@ -123,6 +184,10 @@ pub struct Graph {
     /// The input-slope share fitted to the technology's FO4 ([`slope_share`]).
     pub slope_k: f64,
     pub tm: Timing,
+    /// Per stage, the nodes whose values decide its solve (its devices' gates, the top
+    /// inputs its channels touch, its own nodes), when there are at most 128 of them: a
+    /// solve is a function of these values alone, so a timer caches it by them.
+    pub key_nodes: Vec<Option<Vec<u32>>>,
 }
 
 impl Graph {
@@ -275,6 +340,24 @@ impl Graph {
             }
         }
         let width = spec.width;
+        let key_nodes = stages
+            .iter()
+            .map(|st| {
+                let mut k: Vec<u32> = st.nodes.clone();
+                for &di in &st.devs {
+                    let d = &devs[di as usize];
+                    k.push(d.g);
+                    for x in [d.a, d.b] {
+                        if matches!(kind[x as usize], NodeKind::Input(_)) {
+                            k.push(x);
+                        }
+                    }
+                }
+                k.sort_unstable();
+                k.dedup();
+                (k.len() <= 128).then_some(k)
+            })
+            .collect();
         Ok(Graph {
             names,
             cap_ff,
@@ -296,6 +379,7 @@ impl Graph {
             input_slew_ps: spec.technology.slew * 1e12 * 0.8,
             slope_k: slope_share(tm),
             tm: tm.clone(),
+            key_nodes,
         })
     }
 
@@ -348,6 +432,23 @@ impl Graph {
                 t.r_p_rise_kohm_um[0] * (t.r_pass_n_rise_kohm_um / t.r_pass_n_fall_kohm_um) / d.w
             }
         }
+    }
+
+    /// Resistance (kΩ) of a conducting transmission gate inside a ladder (fed through another
+    /// one), carrying the node towards `v`; the single-gate value where the technology has no
+    /// ladder value.
+    fn r_tg_ladder(&self, d: &Dev, v: bool) -> f64 {
+        let t = &self.tm;
+        let n = match d.mos {
+            Mos::N => d.w,
+            Mos::P => self.devs[d.partner as usize].w,
+        };
+        let per = if v {
+            t.r_tg_ladder_rise_kohm_um.unwrap_or(t.r_tg_rise_kohm_um)
+        } else {
+            t.r_tg_ladder_fall_kohm_um.unwrap_or(t.r_tg_fall_kohm_um)
+        };
+        per / n
     }
 
     pub fn n_nodes(&self) -> usize {
@@ -403,8 +504,13 @@ impl Ord for HeapItem {
 pub struct Driven {
     pub node: u32,
     pub value: bool,
-    /// Elmore delay (ps) times the fight factor; 0.69 × this is the step delay.
+    /// Elmore delay (ps) times the fight factor (the output slew is 2.2 × this).
     pub tau_ps: f64,
+    /// Step delay (ps, the two-moment metric [`d2m`]) times the fight factor.
+    pub step_ps: f64,
+    /// The logic devices' share of the step (0.69 × their R × what each charges, ps, fight
+    /// included): the part an input's slope acts on ([`node_delay`]).
+    pub logic_ps: f64,
     pub dev: u32,
 }
 
@@ -417,6 +523,10 @@ pub struct Scratch {
     down: Vec<f64>,
     tau: Vec<f64>,
     rpath: Vec<f64>,
+    rdev: Vec<f64>,
+    downm: Vec<f64>,
+    m2: Vec<f64>,
+    tlogic: Vec<f64>,
     up: Vec<u32>,
     below: Vec<u32>,
     children: Vec<u32>,
@@ -513,7 +623,15 @@ impl Graph {
                 (true, true) => Some(c1.cmp(&c0) == Ordering::Less),
             }
         };
-        for v in [&mut sc.down, &mut sc.tau, &mut sc.rpath] {
+        for v in [
+            &mut sc.down,
+            &mut sc.tau,
+            &mut sc.rpath,
+            &mut sc.rdev,
+            &mut sc.downm,
+            &mut sc.m2,
+            &mut sc.tlogic,
+        ] {
             refill(v, m, 0.0);
         }
         for v in [&mut sc.up, &mut sc.below, &mut sc.children] {
@@ -563,10 +681,46 @@ impl Graph {
                     1
                 };
                 let tg = d.partner != NONE && self.on(&self.devs[d.partner as usize], val);
-                let r = self.r_kohm(d, v, tg, k);
+                // A transmission gate fed through another one is inside a ladder.
+                let in_ladder = tg && p != NONE && {
+                    let dp = &self.devs[sc.pred[vi][p as usize].1 as usize];
+                    dp.partner != NONE && self.on(&self.devs[dp.partner as usize], val)
+                };
+                let r = if in_ladder {
+                    self.r_tg_ladder(d, v)
+                } else {
+                    self.r_kohm(d, v, tg, k)
+                };
                 sc.rpath[li] = r_parent + r;
+                sc.rdev[li] = r;
+                let tl_parent = if p == NONE {
+                    0.0
+                } else {
+                    sc.tlogic[p as usize]
+                };
+                sc.tlogic[li] = tl_parent + if logic { r * sc.down[li] } else { 0.0 };
                 // kΩ × fF = ps.
                 sc.tau[li] = t_parent + r * sc.down[li];
+            }
+            {
+                // Second moment: m2_i = Σ_k R_ik · C_k · m1_k, leaves first then root first.
+                for &li in order.iter().rev() {
+                    let li = li as usize;
+                    let x = st.nodes[li];
+                    if win(li, sc) == Some(v) && val[x as usize] != v {
+                        sc.downm[li] += self.cap_ff[x as usize] * sc.tau[li];
+                    }
+                    let p = sc.pred[vi][li].0;
+                    if p != NONE {
+                        sc.downm[p as usize] += sc.downm[li];
+                    }
+                }
+                for &li in order.iter() {
+                    let li = li as usize;
+                    let p = sc.pred[vi][li].0;
+                    let mp = if p == NONE { 0.0 } else { sc.m2[p as usize] };
+                    sc.m2[li] = mp + sc.rdev[li] * sc.downm[li];
+                }
             }
             for &li in order.iter() {
                 let l = li as usize;
@@ -584,10 +738,13 @@ impl Graph {
                         FIGHT_MAX
                     };
                 }
+                let m1 = sc.tau[l];
                 sc.out.push(Driven {
                     node: x,
                     value: v,
-                    tau_ps: sc.tau[l] * factor,
+                    tau_ps: m1 * factor,
+                    step_ps: d2m(m1, sc.m2[l]) * factor,
+                    logic_ps: LN2 * sc.tlogic[l] * factor,
                     dev: sc.pred[vi][l].1,
                 });
             }
@@ -595,6 +752,7 @@ impl Graph {
             for &li in order.iter() {
                 let l = li as usize;
                 sc.down[l] = 0.0;
+                sc.downm[l] = 0.0;
                 sc.children[l] = 0;
                 sc.below[l] = 0;
             }
@@ -638,9 +796,74 @@ pub struct Sim<'g> {
     /// Capacitance switched by the events applied in the latest timed run (fF).
     switched_ff: f64,
     heap: BinaryHeap<HeapItem>,
+    /// Solves already done: (stage, key) -> range in `solved` (see `Graph::key_nodes`).
+    cache: HashMap<(u32, u128), (u32, u32), BuildKeyHasher>,
+    solved: Vec<Driven>,
+    /// A solve of a stage too large to cache, at the end of `solved` until the next one.
+    uncached_from: usize,
+}
+
+/// A fast hash for (stage, key) pairs (multiply-rotate over the words; no security need).
+#[derive(Default, Clone, Copy)]
+pub struct BuildKeyHasher;
+#[derive(Default)]
+pub struct KeyHasher(u64);
+impl std::hash::BuildHasher for BuildKeyHasher {
+    type Hasher = KeyHasher;
+    fn build_hasher(&self) -> KeyHasher {
+        KeyHasher(0)
+    }
+}
+impl std::hash::Hasher for KeyHasher {
+    fn write(&mut self, bytes: &[u8]) {
+        for &b in bytes {
+            self.write_u64(b as u64);
+        }
+    }
+    fn write_u32(&mut self, x: u32) {
+        self.write_u64(x as u64);
+    }
+    fn write_u64(&mut self, x: u64) {
+        self.0 = (self.0.rotate_left(23) ^ x).wrapping_mul(0x9e37_79b9_7f4a_7c15);
+    }
+    fn write_u128(&mut self, x: u128) {
+        self.write_u64(x as u64);
+        self.write_u64((x >> 64) as u64);
+    }
+    fn finish(&self) -> u64 {
+        self.0 ^ (self.0 >> 29)
+    }
 }
 
 impl<'g> Sim<'g> {
+    /// Solve stage `st` with the present values: the range of `solved` holding the nodes it
+    /// drives. Cached by the values of the stage's key nodes.
+    fn solve_cached(&mut self, st: u32) -> (usize, usize) {
+        let g = self.g;
+        self.solved.truncate(self.uncached_from);
+        let key = g.key_nodes[st as usize].as_ref().map(|kn| {
+            kn.iter()
+                .enumerate()
+                .fold(0u128, |k, (i, &x)| k | (self.val[x as usize] as u128) << i)
+        });
+        if let Some(key) = key {
+            if let Some(&(a, n)) = self.cache.get(&(st, key)) {
+                return (a as usize, (a + n) as usize);
+            }
+        }
+        let mut sc = std::mem::take(&mut self.sc);
+        g.solve(st, &self.val, &mut sc);
+        let a = self.solved.len();
+        self.solved.extend_from_slice(&sc.out);
+        self.sc = sc;
+        let b = self.solved.len();
+        if let Some(key) = key {
+            self.cache.insert((st, key), (a as u32, (b - a) as u32));
+            self.uncached_from = b;
+        }
+        (a, b)
+    }
+
     /// All nodes low, then settled (rails at their values).
     pub fn new(g: &'g Graph) -> Result<Sim<'g>> {
         let n = g.n_nodes();
@@ -662,6 +885,9 @@ impl<'g> Sim<'g> {
             last: vec![NONE; n],
             switched_ff: 0.0,
             heap: BinaryHeap::new(),
+            cache: HashMap::with_hasher(BuildKeyHasher),
+            solved: vec![],
+            uncached_from: 0,
         };
         for st in 0..g.stages.len() as u32 {
             s.enqueue(st);
@@ -709,9 +935,9 @@ impl<'g> Sim<'g> {
             budget = budget.checked_sub(1).ok_or_else(|| {
                 Error::Check("timing: the circuit does not settle (oscillation?)".into())
             })?;
-            let mut sc = std::mem::take(&mut self.sc);
-            self.g.solve(st, &self.val, &mut sc);
-            for d in &sc.out {
+            let (a, b) = self.solve_cached(st);
+            for i in a..b {
+                let d = self.solved[i];
                 let x = d.node as usize;
                 if self.val[x] != d.value {
                     self.val[x] = d.value;
@@ -722,7 +948,6 @@ impl<'g> Sim<'g> {
                     }
                 }
             }
-            self.sc = sc;
         }
         Ok(())
     }
@@ -773,11 +998,11 @@ impl<'g> Sim<'g> {
             }
             for k in 0..g.fanout[x].len() {
                 let st = g.fanout[x][k];
-                let mut sc = std::mem::take(&mut self.sc);
-                g.solve(st, &self.val, &mut sc);
-                for d in &sc.out {
+                let (a, b) = self.solve_cached(st);
+                for i in a..b {
+                    let d = &self.solved[i];
                     let y = d.node as usize;
-                    let delay = stage_delay(LN2 * d.tau_ps, e.slew_ps, g.slope_k);
+                    let delay = node_delay(d.step_ps, d.logic_ps, e.slew_ps, g.slope_k);
                     let on_its_way = d.value == self.proj[y];
                     if on_its_way {
                         // Already on its way: only an earlier arrival under the new
@@ -805,7 +1030,6 @@ impl<'g> Sim<'g> {
                     self.proj[y] = d.value;
                     self.heap.push(HeapItem(Cost::at(t + delay), nid));
                 }
-                self.sc = sc;
             }
         }
         Ok(())
@@ -924,8 +1148,8 @@ impl Topo {
                         acc
                     }
                 });
-            for (x, tau) in slowest_taus(g, si) {
-                let d = stage_delay(LN2 * tau, s_in, g.slope_k);
+            for (x, (step, logic, tau)) in slowest_taus(g, si) {
+                let d = node_delay(step, logic, s_in, g.slope_k);
                 delay[x as usize] = d;
                 arrival[x as usize] = t_in + d;
                 slew[x as usize] = SLEW_PER_TAU * tau;
@@ -957,12 +1181,14 @@ impl Topo {
     }
 }
 
-/// For every node of a stage, the largest Elmore delay over trees grown breadth-first from
+/// For every node of a stage, the slowest step (the larger of the two-moment and 0.69 × Elmore
+/// figures, with its logic share and Elmore delay) over trees grown breadth-first from
 /// each entry (a device from a source) through every device of the stage, both directions.
-fn slowest_taus(g: &Graph, si: usize) -> Vec<(u32, f64)> {
+fn slowest_taus(g: &Graph, si: usize) -> Vec<(u32, (f64, f64, f64))> {
     let st = &g.stages[si];
     let m = st.nodes.len();
-    let mut best = vec![0.0f64; m];
+    // Per node: (step, logic share, Elmore) of its slowest tree.
+    let mut best = vec![(0.0f64, 0.0f64, 0.0f64); m];
     for &di in &st.devs {
         let d = &g.devs[di as usize];
         if d.role == Role::Keeper {
@@ -1014,15 +1240,49 @@ fn slowest_taus(g: &Graph, si: usize) -> Vec<(u32, f64)> {
                         down[p] += down[li];
                     }
                 }
-                let mut tau = vec![0.0; m];
+                let (mut tau, mut tlogic, mut rdev) = (vec![0.0; m], vec![0.0; m], vec![0.0; m]);
                 for &li in &order {
                     let (p, dj) = pred[li];
                     let e = &g.devs[dj as usize];
                     let tg = e.partner != NONE;
-                    let r = g.r_kohm(e, v, tg, 1);
-                    let tp = if p == NONE { 0.0 } else { tau[p as usize] };
+                    let in_ladder = tg && p != NONE && {
+                        let dp = &g.devs[pred[p as usize].1 as usize];
+                        dp.partner != NONE
+                    };
+                    let r = if in_ladder {
+                        g.r_tg_ladder(e, v)
+                    } else {
+                        g.r_kohm(e, v, tg, 1)
+                    };
+                    rdev[li] = r;
+                    let (tp, lp) = if p == NONE {
+                        (0.0, 0.0)
+                    } else {
+                        (tau[p as usize], tlogic[p as usize])
+                    };
                     tau[li] = tp + r * down[li];
-                    best[li] = best[li].max(tau[li]);
+                    let logic = e.role != Role::Pass && !tg;
+                    tlogic[li] = lp + if logic { r * down[li] } else { 0.0 };
+                }
+                // Second moment, as in `Graph::solve`.
+                let mut downm = vec![0.0; m];
+                for &li in order.iter().rev() {
+                    downm[li] += g.cap_ff[st.nodes[li] as usize] * tau[li];
+                    if pred[li].0 != NONE {
+                        let p = pred[li].0 as usize;
+                        downm[p] += downm[li];
+                    }
+                }
+                let mut m2 = vec![0.0; m];
+                for &li in &order {
+                    let p = pred[li].0;
+                    let mp = if p == NONE { 0.0 } else { m2[p as usize] };
+                    m2[li] = mp + rdev[li] * downm[li];
+                    // The bound takes the larger of the two metrics.
+                    let step = d2m(tau[li], m2[li]).max(LN2 * tau[li]);
+                    if step > best[li].0 {
+                        best[li] = (step, LN2 * tlogic[li], tau[li]);
+                    }
                 }
             }
         }

@@ -49,6 +49,14 @@ pub struct Timing {
     /// inverter's parasitic delay in units of τ.
     pub tau_ps: f64,
     pub p_inv: f64,
+    /// Transmission gate inside a ladder (fed through another gate, so its source follows a
+    /// node that is itself still moving), falling and rising, per µm of NMOS width, kΩ·µm:
+    /// fitted on inverter-driven ladders of 4 and 8 gates to the engine's own ladder model.
+    /// Absent in older files: the single-gate values stand in.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub r_tg_ladder_fall_kohm_um: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub r_tg_ladder_rise_kohm_um: Option<f64>,
     /// The conditions these values hold at (the file's `conditions:` record).
     #[serde(skip)]
     pub at: At,
@@ -89,6 +97,12 @@ impl Timing {
             ("fo4_ps", self.fo4_ps),
             ("tau_ps", self.tau_ps),
         ];
+        if let Some(v) = self.r_tg_ladder_fall_kohm_um {
+            named.push(("r_tg_ladder_fall_kohm_um", v));
+        }
+        if let Some(v) = self.r_tg_ladder_rise_kohm_um {
+            named.push(("r_tg_ladder_rise_kohm_um", v));
+        }
         for (i, v) in self.r_n_fall_kohm_um.iter().enumerate() {
             named.push((
                 [
