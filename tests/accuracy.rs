@@ -1341,6 +1341,16 @@ fn model_probe() {
                     };
                     let pt = timer.time(ms.pair).unwrap();
                     let t_en = pt.outputs[o].unwrap_or(f64::NAN);
+                    if std::env::var_os("CARRYWRIGHT_PROBE_ALL").is_some() {
+                        for &(oo, t) in &ms.delays {
+                            println!(
+                                "      {:<5} ngspice {:>7.0}  engine {:>7.0}",
+                                outs[oo],
+                                t,
+                                pt.outputs[oo].unwrap_or(f64::NAN)
+                            );
+                        }
+                    }
                     let e = t_en / t_ng - 1.0;
                     errs.push(e);
                     all.push((format!("{} {} {}", d.name, short_tech(tech), LOADS[run]), e));
