@@ -927,6 +927,15 @@ fn estimate_matches_ngspice_on_small_gf180_designs() {
     }
 }
 
+/// The designs (CARRYWRIGHT_ACCURACY_ONLY, comma-separated names) and the technology
+/// (CARRYWRIGHT_ACCURACY_TECH) a benchmark run is limited to, if any.
+fn selection() -> (Option<Vec<String>>, Option<String>) {
+    let only = std::env::var("CARRYWRIGHT_ACCURACY_ONLY")
+        .ok()
+        .map(|v| v.split(',').map(|x| x.trim().to_string()).collect());
+    (only, std::env::var("CARRYWRIGHT_ACCURACY_TECH").ok())
+}
+
 /// The table of issue 7 §5 (not run by default: about 90 minutes of ngspice on one core).
 /// `cargo test --release --test accuracy -- --ignored --nocapture accuracy_benchmark`;
 /// CARRYWRIGHT_ACCURACY_ONLY=rc8,ks32 runs only those designs, CARRYWRIGHT_ACCURACY_TECH=sky130-1v8
@@ -938,10 +947,7 @@ fn accuracy_benchmark() {
     if !common::tools(&["ngspice"]) {
         return;
     }
-    let only: Option<Vec<String>> = std::env::var("CARRYWRIGHT_ACCURACY_ONLY")
-        .ok()
-        .map(|v| v.split(',').map(|x| x.trim().to_string()).collect());
-    let tech_only = std::env::var("CARRYWRIGHT_ACCURACY_TECH").ok();
+    let (only, tech_only) = selection();
     // The report's file under target/ (two runs side by side, one per technology, each
     // name their own).
     let out_name =
@@ -1251,10 +1257,7 @@ fn model_probe() {
     if !common::tools(&["ngspice"]) {
         return;
     }
-    let only: Option<Vec<String>> = std::env::var("CARRYWRIGHT_ACCURACY_ONLY")
-        .ok()
-        .map(|v| v.split(',').map(|x| x.trim().to_string()).collect());
-    let tech_only = std::env::var("CARRYWRIGHT_ACCURACY_TECH").ok();
+    let (only, tech_only) = selection();
     let probes = [
         dut("ms8", 8, "manchester", "static", Some(4), "none"),
         dut("md8", 8, "manchester", "dynamic", Some(4), "none"),
