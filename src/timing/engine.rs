@@ -188,6 +188,9 @@ pub struct Graph {
     /// inputs its channels touch, its own nodes), when there are at most 128 of them: a
     /// solve is a function of these values alone, so a timer caches it by them.
     pub key_nodes: Vec<Option<Vec<u32>>>,
+    /// The other way round: for every node, the (stage, bit) places it holds in those keys,
+    /// so a simulation keeps every stage's key up to date as nodes change.
+    pub key_refs: Vec<Vec<(u32, u8)>>,
 }
 
 impl Graph {
@@ -357,7 +360,13 @@ impl Graph {
                 k.dedup();
                 (k.len() <= 128).then_some(k)
             })
-            .collect();
+            .collect::<Vec<Option<Vec<u32>>>>();
+        let mut key_refs = vec![vec![]; names.len()];
+        for (st, kn) in key_nodes.iter().enumerate() {
+            for (i, &x) in kn.iter().flatten().enumerate() {
+                key_refs[x as usize].push((st as u32, i as u8));
+            }
+        }
         Ok(Graph {
             names,
             cap_ff,
@@ -380,6 +389,7 @@ impl Graph {
             slope_k: slope_share(tm),
             tm: tm.clone(),
             key_nodes,
+            key_refs,
         })
     }
 
@@ -801,6 +811,12 @@ pub struct Sim<'g> {
     solved: Vec<Driven>,
     /// A solve of a stage too large to cache, at the end of `solved` until the next one.
     uncached_from: usize,
+    /// Every stage's key: the values of its key nodes, bit i for `key_nodes[st][i]`, kept
+    /// up to date by [`Sim::set`].
+    keys: Vec<u128>,
+    /// Nodes changed by the latest untimed settle, with their value before it.
+    touched: Vec<(u32, bool)>,
+    seen: Vec<bool>,
 }
 
 /// A fast hash for (stage, key) pairs (multiply-rotate over the words; no security need).
@@ -841,11 +857,9 @@ impl<'g> Sim<'g> {
     fn solve_cached(&mut self, st: u32) -> (usize, usize) {
         let g = self.g;
         self.solved.truncate(self.uncached_from);
-        let key = g.key_nodes[st as usize].as_ref().map(|kn| {
-            kn.iter()
-                .enumerate()
-                .fold(0u128, |k, (i, &x)| k | (self.val[x as usize] as u128) << i)
-        });
+        let key = g.key_nodes[st as usize]
+            .as_ref()
+            .map(|_| self.keys[st as usize]);
         if let Some(key) = key {
             if let Some(&(a, n)) = self.cache.get(&(st, key)) {
                 return (a as usize, (a + n) as usize);
@@ -888,12 +902,35 @@ impl<'g> Sim<'g> {
             cache: HashMap::with_hasher(BuildKeyHasher),
             solved: vec![],
             uncached_from: 0,
+            keys: vec![0; g.stages.len()],
+            touched: vec![],
+            seen: vec![false; n],
         };
+        for x in 0..n {
+            if s.val[x] {
+                for &(st, i) in &g.key_refs[x] {
+                    s.keys[st as usize] |= 1u128 << i;
+                }
+            }
+        }
         for st in 0..g.stages.len() as u32 {
             s.enqueue(st);
         }
         s.settle()?;
+        for &(x, _) in &s.touched {
+            s.seen[x as usize] = false;
+        }
+        s.touched.clear();
         Ok(s)
+    }
+
+    /// Set a node's value, keeping the stage keys it belongs to in step.
+    #[inline]
+    fn set(&mut self, x: usize, v: bool) {
+        self.val[x] = v;
+        for &(st, i) in &self.g.key_refs[x] {
+            self.keys[st as usize] ^= 1u128 << i;
+        }
     }
 
     fn enqueue(&mut self, st: u32) {
@@ -905,10 +942,11 @@ impl<'g> Sim<'g> {
 
     /// Set input nodes (untimed) and settle. Returns the switched capacitance, fF.
     pub fn apply_untimed(&mut self, changes: &[(u32, bool)]) -> Result<f64> {
-        let before = self.val.clone();
+        self.touched.clear();
         for &(x, v) in changes {
             if self.val[x as usize] != v {
-                self.val[x as usize] = v;
+                self.note(x as usize);
+                self.set(x as usize, v);
                 self.proj[x as usize] = v;
                 for k in 0..self.g.fanout[x as usize].len() {
                     let st = self.g.fanout[x as usize][k];
@@ -917,14 +955,23 @@ impl<'g> Sim<'g> {
             }
         }
         self.settle()?;
-        Ok(self
-            .val
-            .iter()
-            .zip(&before)
-            .enumerate()
-            .filter(|(i, (a, b))| a != b && self.g.kind[*i] == NodeKind::Inner)
-            .map(|(i, _)| self.g.cap_ff[i])
-            .sum())
+        let mut sum = 0.0;
+        for &(x, was) in &self.touched {
+            self.seen[x as usize] = false;
+            if self.val[x as usize] != was && self.g.kind[x as usize] == NodeKind::Inner {
+                sum += self.g.cap_ff[x as usize];
+            }
+        }
+        Ok(sum)
+    }
+
+    /// Remember a node's value before an untimed settle changes it (once per settle).
+    #[inline]
+    fn note(&mut self, x: usize) {
+        if !self.seen[x] {
+            self.seen[x] = true;
+            self.touched.push((x as u32, self.val[x]));
+        }
     }
 
     /// Zero-delay settling of every queued stage.
@@ -940,7 +987,8 @@ impl<'g> Sim<'g> {
                 let d = self.solved[i];
                 let x = d.node as usize;
                 if self.val[x] != d.value {
-                    self.val[x] = d.value;
+                    self.note(x);
+                    self.set(x, d.value);
                     self.proj[x] = d.value;
                     for k in 0..self.g.fanout[x].len() {
                         let s2 = self.g.fanout[x][k];
@@ -956,10 +1004,11 @@ impl<'g> Sim<'g> {
     /// describe the run afterwards.
     pub fn run_timed(&mut self, changes: &[(u32, bool)]) -> Result<()> {
         let g = self.g;
-        self.events.clear();
-        for x in self.last.iter_mut() {
-            *x = NONE;
+        // Only the nodes of the previous run's events have a last event to clear.
+        for e in &self.events {
+            self.last[e.node as usize] = NONE;
         }
+        self.events.clear();
         self.heap.clear();
         self.switched_ff = 0.0;
         for &(x, v) in changes {
@@ -986,7 +1035,7 @@ impl<'g> Sim<'g> {
                 continue;
             }
             self.pending[x] = NONE;
-            self.val[x] = e.value;
+            self.set(x, e.value);
             self.last[x] = id;
             if g.kind[x] == NodeKind::Inner {
                 self.switched_ff += g.cap_ff[x];

@@ -147,12 +147,12 @@ impl<'g> Timer<'g> {
             let mut pre2 = after;
             pre2.push((clk, false));
             switched += self.sim.apply_untimed(&pre2)?;
-            start = self.sim.val.clone();
+            start = self.output_values();
             self.sim.run_timed(&[(clk, true)])?;
             // The clock node charges and discharges once per addition.
             switched += 2.0 * g.cap_ff[clk as usize];
         } else {
-            start = self.sim.val.clone();
+            start = self.output_values();
             self.sim.run_timed(&after)?;
         }
         switched += self.sim.run_switched_ff();
@@ -160,7 +160,7 @@ impl<'g> Timer<'g> {
         let mut worst: Option<(f64, usize)> = None;
         for (i, &o) in g.outputs.iter().enumerate() {
             let e = self.sim.last[o as usize];
-            if e == u32::MAX || self.sim.val[o as usize] == start[o as usize] {
+            if e == u32::MAX || self.sim.val[o as usize] == start[i] {
                 continue;
             }
             let t = self.sim.events[e as usize].time_ps;
