@@ -35,14 +35,13 @@ pub fn build(spec: &Spec) -> Result<Design> {
     let design = arch::build(spec);
     check_sizes(spec, &design)?;
     check_name_is_free(spec, &design)?;
-    if let Err(e) = design.check() {
-        // A dynamic chain too long for its keeper is a spec problem (exit 2), not a fault.
-        if matches!(&e, Error::Check(m) if m.starts_with(ratio::RULE_FAILS)) {
-            if let Some(input) = ratio::length_error(spec, &design) {
-                return Err(input);
-            }
+    design.check()?;
+    // Keepers that fail (a front that stalls or does not fit the evaluate phase at the slow
+    // corner, a node they cannot hold against leakage) are a spec problem: exit 2.
+    if let Some(report) = timing::keeper::check(spec, &design)? {
+        if let Some(why) = &report.failure {
+            return Err(timing::keeper::refusal(spec, why)?);
         }
-        return Err(e);
     }
     Ok(design)
 }

@@ -242,14 +242,13 @@ impl Design {
         }
     }
 
-    /// Structural checks of every module and the ratio rule on the flattened transistors.
+    /// Structural checks of every module and of the flattened design (no combinational loop).
     pub fn check(&self) -> Result<()> {
         for (mi, m) in self.modules.iter().enumerate() {
             self.check_module(mi, m)?;
         }
-        let flat = self.flatten();
-        flat.order(self)?;
-        self.check_ratio(&flat)
+        self.flatten().order(self)?;
+        Ok(())
     }
 
     fn check_module(&self, mi: usize, m: &Module) -> Result<()> {
@@ -296,10 +295,6 @@ impl Design {
             }
         }
         Ok(())
-    }
-
-    fn check_ratio(&self, flat: &Flat) -> Result<()> {
-        crate::ratio::check(self, flat)
     }
 }
 
@@ -378,10 +373,17 @@ impl Flat {
         }
         let mut indeg = vec![0usize; self.leaves.len()];
         let mut users: Vec<Vec<usize>> = vec![vec![]; self.leaves.len()];
+        let read: HashMap<CellKind, Vec<bool>> = design
+            .cells
+            .iter()
+            .map(|(k, c)| (*k, c.read_by_logic()))
+            .collect();
         for (li, leaf) in self.leaves.iter().enumerate() {
             let cell = &design.cells[&leaf.kind];
-            for (p, &g) in cell.pins.iter().zip(&leaf.nets) {
-                if p.dir == Dir::In {
+            let read = &read[&leaf.kind];
+            for ((p, &g), &r) in cell.pins.iter().zip(&leaf.nets).zip(read) {
+                // A pin no logic function reads (a keeper's gate) orders nothing.
+                if p.dir == Dir::In && r {
                     if let Some(d) = driver[g as usize] {
                         indeg[li] += 1;
                         users[d].push(li);

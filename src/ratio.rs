@@ -1,6 +1,7 @@
-//! The ratio rule (common practice): where a keeper (a weak always-fighting pull-up) holds a
-//! node, every pull-down path that must discharge that node is stronger than the keeper,
-//! comparing W/L of the keeper with the series W/L (1 / Σ L/W) of the path.
+//! The ratio survey (common practice): where a keeper (a weak pull-up) holds a node, the
+//! weakest pull-down path that must discharge that node, as series W/L (1 / Σ L/W), beside
+//! the keeper's W/L. A report, not a gate: whether keepers work is decided by the timed
+//! check in `timing::keeper`, which sees every keeper on the path and the corner.
 //!
 //! Paths are found on the flattened transistors, NMOS only, from the kept node to vss. A path
 //! counts only if it can conduct: every device on it needs its gate high, and those gate
@@ -8,9 +9,7 @@
 //! out, for instance, a path through both the generate and the propagate device of one bit.
 
 use crate::cells::{Mos, Role};
-use crate::error::{Error, Result};
 use crate::netlist::{Design, Flat};
-use crate::spec::{Architecture, Source, Spec, Style};
 use std::collections::HashMap;
 
 struct Dev {
@@ -44,10 +43,6 @@ fn feasible(design: &Design, flat: &Flat, leaf: usize, required: &[(usize, bool)
         })
     })
 }
-
-/// Start of the message of a keeper that its pull-down paths do not overpower (the case
-/// [`length_error`] can explain as a spec problem).
-pub const RULE_FAILS: &str = "ratio rule: at node";
 
 /// One keeper and the pull-down paths it fights.
 #[derive(Debug, Clone)]
@@ -139,32 +134,6 @@ pub fn survey(design: &Design, flat: &Flat) -> Vec<Kept> {
     out
 }
 
-pub fn check(design: &Design, flat: &Flat) -> Result<()> {
-    for k in survey(design, flat) {
-        let node = &k.node;
-        if k.exhausted {
-            return Err(Error::Check(format!(
-                "ratio check: too many pull-down paths at node {node}"
-            )));
-        }
-        match k.weakest {
-            None => {
-                return Err(Error::Check(format!(
-                    "ratio rule: keeper at node {node} has no pull-down path to fight"
-                )))
-            }
-            Some(w) if w <= k.keeper => {
-                return Err(Error::Check(format!(
-                    "{RULE_FAILS} {node} the weakest pull-down path (W/L {w:.2}) is not stronger than its keeper (W/L {:.2}); shorten the block or lower sizing.keeper",
-                    k.keeper
-                )))
-            }
-            Some(_) => {}
-        }
-    }
-    Ok(())
-}
-
 struct Search<'a> {
     design: &'a Design,
     flat: &'a Flat,
@@ -226,111 +195,4 @@ impl Search<'_> {
         }
         self.visited[x as usize] = false;
     }
-}
-
-/// The unbroken dynamic chains of a spec as bit ranges [lo, hi): a dynamic Manchester chain
-/// runs from one buffer (a domino boundary) to the next, a dynamic carry-skip chain restarts
-/// at every block. Empty for other designs.
-pub fn dynamic_chains(spec: &Spec) -> Vec<(usize, usize)> {
-    if spec.style != Style::Dynamic {
-        return vec![];
-    }
-    match spec.architecture {
-        Architecture::Manchester => {
-            let mut cuts = vec![0];
-            cuts.extend(spec.buffers.positions.iter().copied());
-            cuts.push(spec.width);
-            cuts.windows(2).map(|w| (w[0], w[1])).collect()
-        }
-        Architecture::CarrySkip => crate::arch::manchester::blocks(spec.width, spec.block),
-        _ => vec![],
-    }
-}
-
-/// Does one unbroken dynamic chain of `len` bits, built as `spec` builds its chains (same
-/// architecture, cells, sizing and technology), pass the rule at every keeper?
-fn chain_passes(spec: &Spec, len: usize) -> bool {
-    let mut one = spec.clone();
-    one.width = len;
-    one.block = len;
-    one.block_sizes = None;
-    one.buffers.positions.clear();
-    let d = crate::arch::build(&one);
-    survey(&d, &d.flatten()).iter().all(Kept::passes)
-}
-
-/// The longest unbroken dynamic chain, up to `limit` bits, that passes the rule with this
-/// spec's sizing; 0 when even a 1-bit chain fails. A longer chain only adds pass devices in
-/// series, so the weakest path only gets weaker: a binary search over the length is exact.
-pub fn longest_passing_chain(spec: &Spec, limit: usize) -> usize {
-    let (mut lo, mut hi) = (0, limit);
-    while lo < hi {
-        let mid = (lo + hi).div_ceil(2);
-        if chain_passes(spec, mid) {
-            lo = mid;
-        } else {
-            hi = mid - 1;
-        }
-    }
-    lo
-}
-
-/// `x` rounded down to two significant digits, printed plainly.
-fn floor2(x: f64) -> String {
-    if !(x.is_finite() && x > 0.0) {
-        return "0".into();
-    }
-    let scale = 10f64.powi(1 - x.log10().floor() as i32);
-    format!("{}", (x * scale).floor() / scale)
-}
-
-/// When the rule fails because a dynamic chain of the spec is too long for its keeper, the
-/// spec is at fault, not the netlist: an input error (exit 2) naming `buffers`, `block` or
-/// `sizing.keeper`, the failing chain, the longest chain that passes at this keeper and the
-/// keeper below which this design would pass. None when the failure is something else.
-pub fn length_error(spec: &Spec, design: &Design) -> Option<Error> {
-    let chains = dynamic_chains(spec);
-    let longest = chains.iter().map(|(lo, hi)| hi - lo).max()?;
-    let fits = longest_passing_chain(spec, longest);
-    let &(lo, hi) = chains.iter().find(|(lo, hi)| hi - lo > fits)?;
-    let kept = survey(design, &design.flatten());
-    // The keeper scales linearly with sizing.keeper; the paths do not depend on it.
-    let keeper_limit = kept
-        .iter()
-        .filter_map(|k| Some(k.weakest? / k.keeper * spec.sizing.keeper))
-        .fold(f64::INFINITY, f64::min);
-    let lower = if keeper_limit >= 0.02 {
-        format!("lower sizing.keeper below {}", floor2(keeper_limit))
-    } else {
-        "set sizing.keeper: 0 (no keeper)".to_string()
-    };
-    let k = spec.sizing.keeper;
-    let bits = |n: usize| format!("{n} bit{}", if n == 1 { "" } else { "s" });
-    let (n, longest) = (bits(hi - lo), bits(fits));
-    let (key, msg) = if fits == 0 {
-        (
-            "sizing.keeper",
-            format!("even a 1-bit dynamic chain fails the keeper ratio rule at sizing.keeper {k}, so no buffer placement helps: {lower}"),
-        )
-    } else if spec.architecture == Architecture::CarrySkip {
-        (
-            "block",
-            format!("the dynamic chain of the block from bit {lo} to bit {} ({n}) fails the keeper ratio rule at sizing.keeper {k}; the longest that passes is {longest}: use block: {fits} or less, or {lower}", hi - 1),
-        )
-    } else if spec.block <= fits {
-        let every = fits / spec.block * spec.block;
-        (
-            "buffers",
-            format!("the unbuffered dynamic chain from bit {lo} to bit {} ({n}) fails the keeper ratio rule at sizing.keeper {k}; the longest that passes is {longest}: add buffers (e.g. {{every: {every}}}) or {lower}", hi - 1),
-        )
-    } else {
-        (
-            "block",
-            format!("the unbuffered dynamic chain from bit {lo} to bit {} ({n}) fails the keeper ratio rule at sizing.keeper {k}; the longest that passes is {longest}: use block: {fits} or less with buffers {{every: {fits}}}, or {lower}", hi - 1),
-        )
-    };
-    Some(match &spec.source {
-        Some((label, text)) => Source { label, text }.error(key, msg),
-        None => Error::Input(format!("{key}: {msg}")),
-    })
 }

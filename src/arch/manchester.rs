@@ -8,6 +8,7 @@
 //! boundary is a domino inverter whose output discharges the next block's start node.
 
 use super::{top_module, BlockPorts};
+use crate::cells::Dir;
 use crate::cells::{CellKind, Library};
 use crate::netlist::{Design, DesignBuilder, Master, Module, NetId};
 use crate::spec::Spec;
@@ -45,9 +46,15 @@ pub fn build(spec: &Spec, lib: &Library, dynamic: bool) -> Design {
     };
     let mut carry = top.net(carry_name(0, false));
     let mut true_carry = false;
+    // With keepers: the complement of the node the next block starts from, as that block's
+    // first sum cell makes it (it gates the keeper of whoever drives the node).
+    let mut carry_r = keeper.then(|| top.net(format!("{}_r", carry_name(0, false))));
     if dynamic {
         let m = d.cell(start);
-        top.inst("xcin", m, vec![t.clk.unwrap(), t.cin, carry]);
+        let mut conns = vec![t.clk.unwrap(), t.cin];
+        conns.extend(carry_r);
+        conns.push(carry);
+        top.inst("xcin", m, conns);
     } else {
         let m = d.cell(CellKind::Inv);
         top.inst("xcin", m, vec![t.cin, carry]);
@@ -60,17 +67,42 @@ pub fn build(spec: &Spec, lib: &Library, dynamic: bool) -> Design {
             d.add_module(m)
         });
         let co = top.net(carry_name(hi, true_carry));
-        top.inst(format!("xblk{k}"), master, t.block_conns(lo, hi, carry, co));
+        let buffered = hi < w && spec.buffers.positions.contains(&hi);
+        // Dynamic with keepers: the complement of co made by co's reader (the domino inverter,
+        // the next block's first sum cell, or the cout inverter).
+        let restored = (dynamic && buffered).then(|| top.net(carry_name(hi, true)));
+        let next_r = (keeper && hi < w).then(|| {
+            let ci_name = if buffered {
+                format!("c{hi}_ns")
+            } else {
+                carry_name(hi, false)
+            };
+            top.net(format!("{ci_name}_r"))
+        });
+        let mut conns = t.block_conns(lo, hi, carry, co);
+        if let Some(r) = carry_r {
+            let co_r = match (restored, next_r) {
+                (Some(c), _) => c,
+                (None, Some(n)) => n,
+                (None, None) => t.cout,
+            };
+            conns.push(co_r);
+            conns.push(r);
+        }
+        top.inst(format!("xblk{k}"), master, conns);
         carry = co;
 
-        if hi < w && spec.buffers.positions.contains(&hi) {
+        if buffered {
             if dynamic {
-                let c = top.net(carry_name(hi, true));
+                let c = restored.expect("made above");
                 let inv = d.cell(CellKind::Inv);
                 top.inst(format!("xbuf{hi}"), inv, vec![carry, c]);
                 let ns = top.net(format!("c{hi}_ns"));
                 let st = d.cell(start);
-                top.inst(format!("xdis{hi}"), st, vec![t.clk.unwrap(), c, ns]);
+                let mut conns = vec![t.clk.unwrap(), c];
+                conns.extend(next_r);
+                conns.push(ns);
+                top.inst(format!("xdis{hi}"), st, conns);
                 carry = ns;
             } else if spec.buffers.inverting {
                 true_carry = !true_carry;
@@ -85,6 +117,7 @@ pub fn build(spec: &Spec, lib: &Library, dynamic: bool) -> Design {
                 carry = c;
             }
         }
+        carry_r = next_r;
     }
     let out = d.cell(if true_carry {
         CellKind::Buf
@@ -120,14 +153,30 @@ fn block_module(
         s,
         co,
     } = BlockPorts::new(&mut m, size, dynamic);
-
-    chain_bits(d, &mut m, clk, &a, &b, ci, &s, Some(co), true_carry, keeper);
+    // With keepers: co_r (in) is co's complement as its reader outside makes it, ci_r (out)
+    // is ci's complement as this block's first sum cell makes it.
+    let taps = keeper.then(|| {
+        let last = m.port("co_r", Dir::In);
+        let first = m.port("ci_r", Dir::Out);
+        Taps { first, last }
+    });
+    chain_bits(d, &mut m, clk, &a, &b, ci, &s, Some(co), true_carry, taps);
     m
+}
+
+/// Keeper gates of a dynamic chain with keepers: `first` is the complement of the chain's
+/// first node `ci` (the first sum cell makes it, for whoever drives `ci`), `last` the
+/// complement of its last node (made by that node's reader outside the chain).
+#[derive(Debug, Clone, Copy)]
+pub struct Taps {
+    pub first: NetId,
+    pub last: NetId,
 }
 
 /// The bits of one unbroken chain inside module `m`: per bit a PG cell, a chain cell and a
 /// sum cell, from node `ci` on. The last node is `last` if given, else a new net. Returns the
-/// last node and the propagate nets. `clk` set means dynamic style.
+/// last node and the propagate nets. `clk` set means dynamic style; `taps` set means keepers,
+/// each gated by the complement its node's sum cell makes (net `<node>_r`).
 #[allow(clippy::too_many_arguments)]
 pub fn chain_bits(
     d: &mut DesignBuilder,
@@ -139,18 +188,22 @@ pub fn chain_bits(
     s: &[NetId],
     last: Option<NetId>,
     true_carry: bool,
-    keeper: bool,
+    taps: Option<Taps>,
 ) -> (NetId, Vec<NetId>) {
     let size = a.len();
     let (pg, chain, sum) = match (clk.is_some(), true_carry) {
         (true, _) => (
             CellKind::Pg,
-            if keeper {
+            if taps.is_some() {
                 CellKind::ChainDynamicKeeper
             } else {
                 CellKind::ChainDynamic
             },
-            CellKind::SumInverted,
+            if taps.is_some() {
+                CellKind::SumInvertedTap
+            } else {
+                CellKind::SumInverted
+            },
         ),
         (false, false) => (
             CellKind::PgInverted,
@@ -162,16 +215,28 @@ pub fn chain_bits(
     let (pg, chain, sum) = (d.cell(pg), d.cell(chain), d.cell(sum));
     let mut prev = ci;
     let mut props = vec![];
+    // The complement of the node each sum cell reads (`prev`), when there are keepers.
+    let mut tap = taps.map(|t| t.first);
     for j in 0..size {
         let node = match last {
             Some(l) if j + 1 == size => l,
             _ => m.net(carry_name(j + 1, true_carry)),
         };
         let p = m.net(format!("p{j}"));
+        let next_tap = taps.map(|t| {
+            if j + 1 == size {
+                t.last
+            } else {
+                m.net(format!("{}_r", carry_name(j + 1, true_carry)))
+            }
+        });
         if let Some(clk) = clk {
             let g = m.net(format!("g{j}"));
             m.inst(format!("xpg{j}"), pg, vec![a[j], b[j], g, p]);
-            m.inst(format!("xmc{j}"), chain, vec![clk, prev, g, p, node]);
+            let mut conns = vec![clk, prev, g, p];
+            conns.extend(next_tap);
+            conns.push(node);
+            m.inst(format!("xmc{j}"), chain, conns);
         } else {
             let (gx, kx) = if true_carry {
                 (m.net(format!("gn{j}")), m.net(format!("k{j}")))
@@ -182,9 +247,12 @@ pub fn chain_bits(
             m.inst(format!("xpg{j}"), pg, vec![a[j], b[j], gx, kx, p, pn]);
             m.inst(format!("xmc{j}"), chain, vec![prev, gx, kx, p, pn, node]);
         }
-        m.inst(format!("xsum{j}"), sum, vec![p, prev, s[j]]);
+        let mut conns = vec![p, prev, s[j]];
+        conns.extend(tap);
+        m.inst(format!("xsum{j}"), sum, conns);
         props.push(p);
         prev = node;
+        tap = next_tap;
     }
     (prev, props)
 }

@@ -7,7 +7,7 @@
 //! the chain's end passes a domino inverter, and the bypass is an AO21, cout = c_ripple +
 //! BP·c_in, which equals the multiplexer (BP implies c_ripple = c_in) and stays monotonic.
 
-use super::manchester::chain_bits;
+use super::manchester::{chain_bits, Taps};
 use super::{top_module, BlockPorts};
 use crate::cells::{CellKind, Library};
 use crate::netlist::{Design, DesignBuilder, Master, Module, NetId};
@@ -56,19 +56,28 @@ fn skip_block(
         co,
     } = BlockPorts::new(&mut m, size, dynamic);
     let start = m.net("c0_n");
+    // With keepers: the first sum cell's complement of the start node gates the start's
+    // keeper; the end inverter's output (cr) gates the last node's.
+    let ripple = m.net("cr");
+    let taps = (clk.is_some() && keeper).then(|| Taps {
+        first: m.net("c0_n_r"),
+        last: ripple,
+    });
     if let Some(clk) = clk {
         let st = d.cell(if keeper {
             CellKind::DynamicStartKeeper
         } else {
             CellKind::DynamicStart
         });
-        m.inst("xstart", st, vec![clk, ci, start]);
+        let mut conns = vec![clk, ci];
+        conns.extend(taps.map(|t| t.first));
+        conns.push(start);
+        m.inst("xstart", st, conns);
     } else {
         let inv = d.cell(CellKind::Inv);
         m.inst("xstart", inv, vec![ci, start]);
     }
-    let (end, props) = chain_bits(d, &mut m, clk, &a, &b, start, &s, None, false, keeper);
-    let ripple = m.net("cr");
+    let (end, props) = chain_bits(d, &mut m, clk, &a, &b, start, &s, None, false, taps);
     let inv = d.cell(CellKind::Inv);
     m.inst("xend", inv, vec![end, ripple]);
     let bp = if props.len() == 1 {
@@ -100,8 +109,14 @@ pub fn build(spec: &Spec, lib: &Library, dynamic: bool) -> Design {
             CellKind::DynamicStart
         });
         let n = top.net("c0_n");
-        top.inst("xcin", st, vec![clk, t.cin, n]);
         let c0 = top.net("c0");
+        // With a keeper, the inverter's output c0 gates it.
+        let mut conns = vec![clk, t.cin];
+        if keeper {
+            conns.push(c0);
+        }
+        conns.push(n);
+        top.inst("xcin", st, conns);
         let inv = d.cell(CellKind::Inv);
         top.inst("xcin_inv", inv, vec![n, c0]);
         c0

@@ -5,7 +5,10 @@
 //! device and a propagate transmission gate. Which of generate/kill pulls down depends on the
 //! polarity the node holds. Dynamic chain cell (Rabaey et al., Digital Integrated Circuits,
 //! 2nd ed., ch. 11; Weste & Harris §11.2; from memory): clocked precharge PMOS, generate NMOS
-//! over a clocked evaluate footer, propagate pass NMOS, optional keeper.
+//! over a clocked evaluate footer, propagate pass NMOS, optional keeper. The keeper is a weak
+//! PMOS from the node to VDD whose gate is the node's complement as its reader already makes
+//! it (the first inverter of the sum cell, the domino inverter at a block boundary, the cout
+//! inverter): the node carries no feedback inverter of its own (pin `kb`).
 
 use super::expr::*;
 use super::{pins, Cell, CellKind, Dir::*, Expr, Role, Schematic, Sizes};
@@ -175,11 +178,22 @@ pub fn chain_static(s: &Sizes, true_carry: bool) -> Cell {
     }
 }
 
-fn precharge_and_keeper(sch: &mut Schematic, node: &str, keeper: bool) {
+/// Widths (in units) of the high-skew inverter that reads a dynamic node.
+pub const SKEW_N: f64 = 0.5;
+pub const SKEW_P: f64 = 1.5;
+
+/// Width (units) of a chain's pass device and generate device.
+pub const PASS: f64 = 2.0;
+/// Width (units) of each device of a chain start's footed pull-down: the start drives the whole
+/// segment, so its two-device stack is sized by its depth (2 × PASS) to be no weaker than one
+/// pass device (series stacks sized by depth: common practice).
+pub const START: f64 = 2.0 * PASS;
+
+fn precharge_and_keeper(sch: &mut Schematic, node: &str, keeper: bool, footer: f64) {
     sch.p("pre", node, "clk", "vdd", 0.5, Role::Precharge);
-    sch.n("f", "f", "clk", "vss", 2.0, Role::Footer);
+    sch.n("f", "f", "clk", "vss", footer, Role::Footer);
     if keeper {
-        sch.inv("kb", node, "kb", 1.0);
+        // Gate `kb`: the node's complement, made by the node's reader.
         sch.keeper("keep", node, "kb");
     }
 }
@@ -188,11 +202,22 @@ fn precharge_and_keeper(sch: &mut Schematic, node: &str, keeper: bool) {
 /// evaluate a generate discharges it through the footer, a propagate passes the previous node.
 pub fn chain_dynamic(s: &Sizes, keeper: bool) -> Cell {
     let mut sch = Schematic::new(s);
-    precharge_and_keeper(&mut sch, "co", keeper);
-    sch.n("g", "co", "g", "f", 2.0, Role::Logic);
-    sch.n("p", "ci", "p", "co", 2.0, Role::Pass);
+    precharge_and_keeper(&mut sch, "co", keeper, PASS);
+    sch.n("g", "co", "g", "f", PASS, Role::Logic);
+    sch.n("p", "ci", "p", "co", PASS, Role::Pass);
     let (clk, ci, g, p) = (v(0), v(1), v(2), v(3));
     let eval = not(or(vec![g.clone(), and(vec![p.clone(), not(ci)])]));
+    let mut list = vec![
+        ("clk", In, false),
+        ("ci", In, true),
+        ("g", In, false),
+        ("p", In, false),
+    ];
+    if keeper {
+        list.push(("kb", In, false));
+    }
+    list.push(("co", Out, true));
+    let co = list.len() - 1;
     Cell {
         kind: if keeper {
             CellKind::ChainDynamicKeeper
@@ -205,14 +230,8 @@ pub fn chain_dynamic(s: &Sizes, keeper: bool) -> Cell {
         } else {
             "dynamic Manchester carry cell"
         },
-        pins: pins(&[
-            ("clk", In, false),
-            ("ci", In, true),
-            ("g", In, false),
-            ("p", In, false),
-            ("co", Out, true),
-        ]),
-        logic: vec![(4, mux(clk, eval, Expr::Const(true)))],
+        pins: pins(&list),
+        logic: vec![(co, mux(clk, eval, Expr::Const(true)))],
         devices: sch.devices,
         care: Some(not(and(vec![g, p]))),
         clock: Some(0),
@@ -224,9 +243,15 @@ pub fn chain_dynamic(s: &Sizes, keeper: bool) -> Cell {
 /// carry-in, or the domino inverter's output at a buffered block boundary.
 pub fn dynamic_start(s: &Sizes, keeper: bool) -> Cell {
     let mut sch = Schematic::new(s);
-    precharge_and_keeper(&mut sch, "co", keeper);
-    sch.n("x", "co", "x", "f", 2.0, Role::Logic);
+    precharge_and_keeper(&mut sch, "co", keeper, START);
+    sch.n("x", "co", "x", "f", START, Role::Logic);
     let (clk, x) = (v(0), v(1));
+    let mut list = vec![("clk", In, false), ("x", In, false)];
+    if keeper {
+        list.push(("kb", In, false));
+    }
+    list.push(("co", Out, true));
+    let co = list.len() - 1;
     Cell {
         kind: if keeper {
             CellKind::DynamicStartKeeper
@@ -239,8 +264,8 @@ pub fn dynamic_start(s: &Sizes, keeper: bool) -> Cell {
         } else {
             "dynamic chain start"
         },
-        pins: pins(&[("clk", In, false), ("x", In, false), ("co", Out, true)]),
-        logic: vec![(2, mux(clk, not(x), Expr::Const(true)))],
+        pins: pins(&list),
+        logic: vec![(co, mux(clk, not(x), Expr::Const(true)))],
         devices: sch.devices,
         care: None,
         clock: Some(0),
@@ -250,10 +275,19 @@ pub fn dynamic_start(s: &Sizes, keeper: bool) -> Cell {
 
 /// Sum s = p ⊕ c from a chain node. The node sees one inverter gate only; two transmission
 /// gates steered by p pick the restored carry or its complement, and an output inverter drives
-/// the load. `true_carry`: the node holds c; otherwise ~c.
-pub fn sum(s: &Sizes, true_carry: bool) -> Cell {
+/// the load. `true_carry`: the node holds c; otherwise ~c. `tap`: the first inverter's output
+/// (the node's complement) is also a pin, `x`, to drive the node's keeper.
+pub fn sum(s: &Sizes, true_carry: bool, tap: bool) -> Cell {
     let mut sch = Schematic::new(s);
-    sch.inv("x", "ci", "x", 1.0);
+    if tap {
+        // High-skew (common practice after a dynamic node): a wide PMOS and a narrow NMOS
+        // move the switching point up, so x rises, and the keeper lets go, early in the
+        // node's fall.
+        sch.n("x", "x", "ci", "vss", SKEW_N, Role::Logic);
+        sch.p("x", "x", "ci", "vdd", SKEW_P, Role::Logic);
+    } else {
+        sch.inv("x", "ci", "x", 1.0);
+    }
     sch.inv("y", "x", "y", 1.0);
     sch.inv("q", "p", "q", 1.0);
     // sn = ~s = p ? c : ~c. With a true node c = y; with an inverted node c = x.
@@ -263,24 +297,34 @@ pub fn sum(s: &Sizes, true_carry: bool) -> Cell {
     sch.inv("s", "sn", "s", 1.0);
     let (p, ci) = (v(0), v(1));
     let f = if true_carry {
-        xor(vec![p, ci])
+        xor(vec![p, ci.clone()])
     } else {
-        not(xor(vec![p, ci]))
+        not(xor(vec![p, ci.clone()]))
     };
+    let mut list = vec![("p", In, false), ("ci", In, false), ("s", Out, false)];
+    let mut logic = vec![(2, f)];
+    if tap {
+        list.push(("x", Out, false));
+        logic.push((3, not(ci)));
+    }
     Cell {
-        kind: if true_carry {
-            CellKind::SumTrue
-        } else {
-            CellKind::SumInverted
+        kind: match (true_carry, tap) {
+            (true, _) => CellKind::SumTrue,
+            (false, false) => CellKind::SumInverted,
+            (false, true) => CellKind::SumInvertedTap,
         },
-        base: if true_carry { "sum_t" } else { "sum_i" },
-        summary: if true_carry {
-            "sum from a node holding c"
-        } else {
-            "sum from a node holding ~c"
+        base: match (true_carry, tap) {
+            (true, _) => "sum_t",
+            (false, false) => "sum_i",
+            (false, true) => "sum_ik",
         },
-        pins: pins(&[("p", In, false), ("ci", In, false), ("s", Out, false)]),
-        logic: vec![(2, f)],
+        summary: match (true_carry, tap) {
+            (true, _) => "sum from a node holding c",
+            (false, false) => "sum from a node holding ~c",
+            (false, true) => "sum from a node holding ~c, its restored carry out to the keeper",
+        },
+        pins: pins(&list),
+        logic,
         devices: sch.devices,
         care: None,
         clock: None,

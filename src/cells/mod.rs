@@ -40,6 +40,9 @@ pub enum CellKind {
     DynamicStartKeeper,
     /// Sum cell reading a node that holds the inverted carry.
     SumInverted,
+    /// The same, with its first inverter's output (the restored carry) brought out to drive
+    /// the node's keeper.
+    SumInvertedTap,
     /// Sum cell reading a node that holds the true carry (also the XOR of prefix adders).
     SumTrue,
     /// Grey cell: G = Gh + Ph·Gl (AOI21 and an inverter).
@@ -179,6 +182,19 @@ impl Cell {
             .iter()
             .position(|p| p.name == name)
             .unwrap_or_else(|| panic!("cell {} has no pin {name}", self.base))
+    }
+    /// Input pins some logic function reads (a keeper's gate is read by transistors only: it
+    /// orders no evaluation and the logic view leaves it unused).
+    pub fn read_by_logic(&self) -> Vec<bool> {
+        let mut read = vec![false; self.pins.len()];
+        let mut used = vec![];
+        for (_, f) in &self.logic {
+            f.pins(&mut used);
+        }
+        for i in used {
+            read[i] = true;
+        }
+        read
     }
     pub fn inputs(&self) -> impl Iterator<Item = usize> + '_ {
         self.pins
@@ -395,8 +411,9 @@ impl Library {
             CellKind::ChainDynamicKeeper => manchester::chain_dynamic(s, true),
             CellKind::DynamicStart => manchester::dynamic_start(s, false),
             CellKind::DynamicStartKeeper => manchester::dynamic_start(s, true),
-            CellKind::SumInverted => manchester::sum(s, false),
-            CellKind::SumTrue => manchester::sum(s, true),
+            CellKind::SumInverted => manchester::sum(s, false, false),
+            CellKind::SumInvertedTap => manchester::sum(s, false, true),
+            CellKind::SumTrue => manchester::sum(s, true, false),
             CellKind::Grey => static_cmos::grey(s),
             CellKind::Black => static_cmos::black(s),
             CellKind::And2 => static_cmos::and2(s),
@@ -420,6 +437,7 @@ pub const ALL_KINDS: &[CellKind] = &[
     CellKind::DynamicStart,
     CellKind::DynamicStartKeeper,
     CellKind::SumInverted,
+    CellKind::SumInvertedTap,
     CellKind::SumTrue,
     CellKind::Grey,
     CellKind::Black,

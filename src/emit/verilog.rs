@@ -13,6 +13,8 @@ struct PortCtx {
     dir: &'static str,
     range: String,
     name: String,
+    /// An input the logic does not read (a keeper's gate, used by the transistor view).
+    unused: bool,
 }
 
 #[derive(Serialize)]
@@ -83,6 +85,7 @@ fn join(xs: &[Expr], sep: &str, pin: &dyn Fn(usize) -> String) -> String {
 
 fn cell_module(design: &Design, c: &Cell) -> ModuleCtx {
     let pin = |i: usize| c.pins[i].name.to_string();
+    let read = c.read_by_logic();
     ModuleCtx {
         name: format!("{}_{}", design.name, c.base),
         comment: format!(
@@ -95,10 +98,12 @@ fn cell_module(design: &Design, c: &Cell) -> ModuleCtx {
         ports: c
             .pins
             .iter()
-            .map(|p| PortCtx {
+            .zip(read)
+            .map(|(p, r)| PortCtx {
                 dir: dir(p.dir),
                 range: String::new(),
                 name: p.name.into(),
+                unused: p.dir == Dir::In && !r,
             })
             .collect(),
         wires: vec![],
@@ -182,6 +187,7 @@ fn module(design: &Design, m: &Module, is_top: bool) -> ModuleCtx {
                     String::new()
                 },
                 name: p.name.clone(),
+                unused: false,
             })
             .collect(),
         wires: m

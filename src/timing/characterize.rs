@@ -265,6 +265,50 @@ fn bench(t: &Technology, model_lines: &[String]) -> Bench {
             }
         }
     }
+    // Pass-NMOS ladders as a dynamic chain has them: an inverter pulls node 0 down into N
+    // pass devices (gates at VDD); every node is precharged to VDD by a PMOS that the same
+    // rising input turns off, and read by an inverter.
+    for n in LADDERS {
+        let node = |j: usize| format!("plad{n}_{j}");
+        b.inv(t, &format!("plad{n}_drv"), "in", &node(0));
+        let w_n = b.w_n;
+        for j in 1..=n {
+            b.dev(
+                t,
+                &format!("plad{n}_p{j}"),
+                &node(j - 1),
+                "vdd",
+                &node(j),
+                false,
+                w_n,
+            );
+            b.dev(
+                t,
+                &format!("plad{n}_pre{j}"),
+                &node(j),
+                "in",
+                "vdd",
+                true,
+                w_n,
+            );
+            b.inv(
+                t,
+                &format!("plad{n}_rd{j}"),
+                &node(j),
+                &format!("{}_y", node(j)),
+            );
+        }
+        for j in 1..=n {
+            b.delay(
+                &format!("t_{}", node(j)),
+                "in",
+                "rise",
+                &node(j),
+                "fall",
+                vdd,
+            );
+        }
+    }
     // Charge: gate (N from 0 up, P from VDD down) and drain of an off device.
     let sources = [
         ("qgn", "in", false, true),
@@ -292,6 +336,24 @@ fn bench(t: &Technology, model_lines: &[String]) -> Bench {
         ));
         b.meas.push(q.to_string());
     }
+    // Off-state leakage: CHARGE_DEVICES NMOS of W_n in parallel, gate and source at 0, drain
+    // at VDD through a source the current is read from.
+    b.lines.push(format!("vlk lk_d 0 {}", trim_num(vdd)));
+    b.dev(
+        t,
+        "lk",
+        "lk_d",
+        "vss",
+        "vss",
+        false,
+        b.w_n * CHARGE_DEVICES as f64,
+    );
+    b.meas.push(format!(
+        "meas tran ilk avg i(vlk) from={:.4e} to={:.4e}",
+        T0 - 0.05e-9,
+        T1 - 0.2e-9
+    ));
+    b.meas.push("ilk".to_string());
     // Logical effort: for each fan-out h a chain of inverters in which every stage drives
     // the next and h - 1 copies of it, so each timed stage sees the input edge of a stage
     // like itself; the third stage is timed. h = 4 is the FO4 chain.
@@ -544,6 +606,12 @@ fn fit_all(
         p_inv: r4(le.intercept / le.slope),
         r_tg_ladder_fall_kohm_um: None,
         r_tg_ladder_rise_kohm_um: None,
+        r_pass_ladder_fall_kohm_um: None,
+        pass_ladder_visible: None,
+        // A to nA per µm of width.
+        i_off_n_na_um: Some(r4(
+            need("ilk")?.abs() / (CHARGE_DEVICES as f64 * b.w_n) * 1e9
+        )),
         at: At {
             corner: t.corner.clone(),
             temp: t.temp,
@@ -582,37 +650,7 @@ fn fit_all(
                 .collect::<Result<_>>()?;
             data.push((caps, meas));
         }
-        let cost = |r_l: f64| -> f64 {
-            data.iter()
-                .map(|(caps, meas)| {
-                    let model = super::engine::ladder_delays(r_drv, r_single, r_l, caps, t_in, k);
-                    (2..meas.len() + 1)
-                        .map(|j| (model[j] - meas[j - 1]).powi(2))
-                        .sum::<f64>()
-                })
-                .sum()
-        };
-        let (mut lo, mut hi) = (0.2 * r_single, 8.0 * r_single);
-        let phi = 0.618_033_988_7;
-        for _ in 0..80 {
-            let a = hi - phi * (hi - lo);
-            let c = lo + phi * (hi - lo);
-            if cost(a) < cost(c) {
-                hi = c;
-            } else {
-                lo = a;
-            }
-        }
-        let r_l = 0.5 * (lo + hi);
-        let worst = data
-            .iter()
-            .flat_map(|(caps, meas)| {
-                let model = super::engine::ladder_delays(r_drv, r_single, r_l, caps, t_in, k);
-                (2..meas.len() + 1)
-                    .map(|j| (model[j] - meas[j - 1]).abs())
-                    .collect::<Vec<_>>()
-            })
-            .fold(0.0, f64::max);
+        let (r_l, _, worst) = fit_ladder(&data, r_drv, r_single, t_in, k, false);
         let v = r4(r_l * wn);
         fits.insert(
             format!("tg_ladder_{edge}"),
@@ -627,6 +665,41 @@ fn fit_all(
         } else {
             timing.r_tg_ladder_fall_kohm_um = Some(v);
         }
+    }
+    {
+        // The pass-NMOS ladder, falling: node capacitances as the circuit has them.
+        let (wn, wp) = (b.w_n, b.w_p);
+        let pass = wn * timing.c_diff_n_ff_um;
+        let pre = wn * timing.c_diff_p_ff_um;
+        let reader = wn * timing.c_gate_n_ff_um + wp * timing.c_gate_p_ff_um;
+        let driver = wn * timing.c_diff_n_ff_um + wp * timing.c_diff_p_ff_um;
+        let r_drv = timing.r_n_fall_kohm_um[0] / wn;
+        let r_single = timing.r_pass_n_fall_kohm_um / wn;
+        let k = super::engine::slope_share(&timing);
+        let t_in = t.slew * 1e12 * 0.8;
+        let mut data = vec![];
+        for n in LADDERS {
+            let mut caps = vec![driver + pass];
+            for j in 1..=n {
+                caps.push(if j < n { 2.0 * pass } else { pass } + pre + reader);
+            }
+            let meas: Vec<f64> = (1..=n)
+                .map(|j| need(&format!("t_plad{n}_{j}")).map(|x| x * 1e12))
+                .collect::<Result<_>>()?;
+            data.push((caps, meas));
+        }
+        let (r_l, visible, worst) = fit_ladder(&data, r_drv, r_single, t_in, k, true);
+        let v = r4(r_l * wn);
+        fits.insert(
+            "pass_ladder_f".into(),
+            Fit {
+                slope: v,
+                intercept: 0.0,
+                worst,
+            },
+        );
+        timing.r_pass_ladder_fall_kohm_um = Some(v);
+        timing.pass_ladder_visible = Some(visible);
     }
     timing
         .check()
@@ -752,6 +825,27 @@ fn render_yaml(t: &Technology, tm: &Timing, fits: &BTreeMap<String, Fit>) -> Str
         );
         let _ = writeln!(w, "  r_tg_ladder_fall_kohm_um: {}", num(f));
         let _ = writeln!(w, "  r_tg_ladder_rise_kohm_um: {}", num(r));
+    }
+    if let Some(f) = tm.r_pass_ladder_fall_kohm_um {
+        let _ = writeln!(
+            w,
+            "  # a pass NMOS fed through another one (inside a precharged chain), passing a 0"
+        );
+        let _ = writeln!(w, "  r_pass_ladder_fall_kohm_um: {}", num(f));
+        if let Some(vis) = tm.pass_ladder_visible {
+            let _ = writeln!(
+                w,
+                "  pass_ladder_visible: {}   # share of the next device's downstream a node sees",
+                num(vis)
+            );
+        }
+    }
+    if let Some(i) = tm.i_off_n_na_um {
+        let _ = writeln!(
+            w,
+            "  i_off_n_na_um: {}   # NMOS off (gate and source at 0, drain at VDD), nA per um",
+            num(i)
+        );
     }
     let _ = writeln!(w, "  c_gate_n_ff_um: {}", num(tm.c_gate_n_ff_um));
     let _ = writeln!(w, "  c_gate_p_ff_um: {}", num(tm.c_gate_p_ff_um));
@@ -883,4 +977,60 @@ pub fn run(o: &Options) -> Result<Characterized> {
     let r = characterize(&t)?;
     crate::write_file(&o.out, &r.yaml)?;
     Ok(r)
+}
+
+/// Fit the resistance R_L of the gates beyond the first in a ladder: the engine's own ladder
+/// model ([`super::engine::ladder_delays`]: driver `r_drv`, first gate `r_single`, the rest at
+/// R_L, node capacitances in `data`) against the measured arrival at every node beyond the
+/// first, by golden-section search on the squared error. With `with_visible` the share of
+/// the next gate's downstream a node sees is fitted too, over 0, 0.05, .., 1 (R_L by
+/// golden section at each). Returns R_L (kΩ), that share (1 without) and the worst
+/// residual (ps).
+fn fit_ladder(
+    data: &[(Vec<f64>, Vec<f64>)],
+    r_drv: f64,
+    r_single: f64,
+    t_in: f64,
+    k: f64,
+    with_visible: bool,
+) -> (f64, f64, f64) {
+    let residuals = |r_l: f64, vis: f64| -> Vec<f64> {
+        data.iter()
+            .flat_map(|(caps, meas)| {
+                let model = super::engine::ladder_delays(r_drv, r_single, r_l, vis, caps, t_in, k);
+                (2..meas.len() + 1)
+                    .map(|j| model[j] - meas[j - 1])
+                    .collect::<Vec<_>>()
+            })
+            .collect()
+    };
+    let cost = |r_l: f64, vis: f64| residuals(r_l, vis).iter().map(|e| e * e).sum::<f64>();
+    let golden = |vis: f64| -> f64 {
+        let (mut lo, mut hi) = (0.2 * r_single, 8.0 * r_single);
+        let phi = 0.618_033_988_7;
+        for _ in 0..80 {
+            let a = hi - phi * (hi - lo);
+            let c = lo + phi * (hi - lo);
+            if cost(a, vis) < cost(c, vis) {
+                hi = c;
+            } else {
+                lo = a;
+            }
+        }
+        0.5 * (lo + hi)
+    };
+    let shares: Vec<f64> = if with_visible {
+        (0..=20).map(|i| i as f64 / 20.0).collect()
+    } else {
+        vec![1.0]
+    };
+    let (r_l, vis) = shares
+        .iter()
+        .map(|&vis| (golden(vis), vis))
+        .min_by(|x, y| cost(x.0, x.1).total_cmp(&cost(y.0, y.1)))
+        .expect("at least one share");
+    let worst = residuals(r_l, vis)
+        .iter()
+        .fold(0.0f64, |m, e| m.max(e.abs()));
+    (r_l, vis, worst)
 }

@@ -71,39 +71,48 @@ pub fn d2m(m1: f64, m2: f64) -> f64 {
 /// The engine's delay of every node of an unbranched ladder: a driver of resistance `r_drv`
 /// (a logic device whose input moves in `t_in`) into node 0, then a gate of `r_first` (node 0
 /// to 1) and gates of `r_rest` (each further one); `caps` holds the node capacitances 0..=N,
-/// every node switching. It is the model [`Graph::solve`] and [`node_delay`] apply to any
-/// tree, written out for a ladder: `characterize` fits `r_rest` with it.
+/// every node switching; each node sees the share `visible` of what lies one gate further
+/// ([`Graph::solve`]'s per-target view; 1 for transmission gates). It is the model
+/// [`Graph::solve`] and [`node_delay`] apply to any tree, written out for a ladder:
+/// `characterize` fits `r_rest` (and `visible`) with it.
 pub fn ladder_delays(
     r_drv: f64,
     r_first: f64,
     r_rest: f64,
+    visible: f64,
     caps: &[f64],
     t_in: f64,
     k: f64,
 ) -> Vec<f64> {
     let n = caps.len();
-    let r = |i: usize| match i {
-        0 => r_drv,
-        1 => r_first,
-        _ => r_rest,
-    };
-    let below: Vec<f64> = (0..n).map(|i| caps[i..].iter().sum()).collect();
-    let mut m1 = vec![0.0; n];
-    let mut acc = 0.0;
-    for i in 0..n {
-        acc += r(i) * below[i];
-        m1[i] = acc;
-    }
-    let below_m: Vec<f64> = (0..n)
-        .map(|i| (i..n).map(|j| caps[j] * m1[j]).sum())
+    let order: Vec<u32> = (0..n as u32).collect();
+    let pred: Vec<(u32, u32)> = (0..n)
+        .map(|i| (if i == 0 { NONE } else { i as u32 - 1 }, 0))
         .collect();
-    let logic = LN2 * r_drv * below[0];
-    let mut m2 = 0.0;
+    let alpha: Vec<f64> = (0..n).map(|i| if i == 0 { 1.0 } else { visible }).collect();
+    let mut rpath = vec![0.0; n];
+    let mut acc = 0.0;
+    for (i, r) in rpath.iter_mut().enumerate() {
+        acc += match i {
+            0 => r_drv,
+            1 => r_first,
+            _ => r_rest,
+        };
+        *r = acc;
+    }
+    let (mut d, mut a, mut b) = (vec![0.0; n], vec![0.0; n], vec![0.0; n]);
+    let mut m1 = vec![0.0; n];
+    visible_sums(
+        &order, &pred, &alpha, &rpath, caps, &mut d, &mut a, &mut b, &mut m1,
+    );
+    let logic = LN2 * r_drv * d[0];
+    let cm: Vec<f64> = caps.iter().zip(&m1).map(|(c, t)| c * t).collect();
+    let mut m2 = vec![0.0; n];
+    visible_sums(
+        &order, &pred, &alpha, &rpath, &cm, &mut d, &mut a, &mut b, &mut m2,
+    );
     (0..n)
-        .map(|i| {
-            m2 += r(i) * below_m[i];
-            node_delay(d2m(m1[i], m2), logic, t_in, k)
-        })
+        .map(|i| node_delay(d2m(m1[i], m2[i]), logic, t_in, k))
         .collect()
 }
 
@@ -125,6 +134,11 @@ pub fn slope_share(tm: &Timing) -> f64 {
 /// Largest slow-down a fight may cause (a node that barely wins is reported this much slower
 /// than without the opposing path).
 pub const FIGHT_MAX: f64 = 5.0;
+
+/// A node whose drive path is this weak against its keeper (R_path / R_keeper) stays put: as a
+/// divider it settles at R_path / (R_path + R_keeper) of the swing from the driven rail, which
+/// reaches its reader's threshold (mid-supply) when the two are equal.
+pub const STALL_RATIO: f64 = 1.0;
 
 const NONE: u32 = u32::MAX;
 
@@ -191,6 +205,12 @@ pub struct Graph {
     /// The other way round: for every node, the (stage, bit) places it holds in those keys,
     /// so a simulation keeps every stage's key up to date as nodes change.
     pub key_refs: Vec<Vec<(u32, u8)>>,
+    /// The length every resistance was characterised at (the technology's minimum), µm: a
+    /// longer device (a keeper) is proportionally weaker.
+    pub l_min: f64,
+    /// Time every keeper on a drive path as fighting it at once, not only the node's own (the
+    /// keeper check's pessimistic model; estimates use the node's own keeper).
+    pub all_keepers: bool,
 }
 
 impl Graph {
@@ -273,7 +293,9 @@ impl Graph {
                 Mos::N => (tm.c_gate_n_ff_um, tm.c_diff_n_ff_um),
                 Mos::P => (tm.c_gate_p_ff_um, tm.c_diff_p_ff_um),
             };
-            cap_ff[d.g as usize] += cg * d.w;
+            // Gate capacitance grows with the channel's area (characterised at the minimum
+            // length), diffusion with the width alone.
+            cap_ff[d.g as usize] += cg * d.w * d.l / spec.technology.l_min;
             cap_ff[d.a as usize] += cd * d.w;
             cap_ff[d.b as usize] += cd * d.w;
         }
@@ -390,6 +412,8 @@ impl Graph {
             tm: tm.clone(),
             key_nodes,
             key_refs,
+            l_min: spec.technology.l_min,
+            all_keepers: false,
         })
     }
 
@@ -414,6 +438,10 @@ impl Graph {
     /// Resistance (kΩ) of a conducting device (or a whole transmission gate when `tg`)
     /// carrying the node towards `v`, as a stack of `k` like devices.
     fn r_kohm(&self, d: &Dev, v: bool, tg: bool, k: usize) -> f64 {
+        self.r_kohm_w(d, v, tg, k) * (d.l / self.l_min).max(1.0)
+    }
+
+    fn r_kohm_w(&self, d: &Dev, v: bool, tg: bool, k: usize) -> f64 {
         let t = &self.tm;
         let k = k.clamp(1, 3) - 1;
         if tg {
@@ -459,6 +487,36 @@ impl Graph {
             t.r_tg_ladder_fall_kohm_um.unwrap_or(t.r_tg_fall_kohm_um)
         };
         per / n
+    }
+
+    /// Resistance (kΩ) of a lone pass NMOS inside a precharged ladder (fed through another
+    /// one) passing a 0; the single-device value where the technology has no ladder value.
+    fn r_pass_ladder(&self, d: &Dev) -> f64 {
+        let t = &self.tm;
+        t.r_pass_ladder_fall_kohm_um
+            .unwrap_or(t.r_pass_n_fall_kohm_um)
+            / d.w
+            * (d.l / self.l_min).max(1.0)
+    }
+
+    /// Share of the downstream beyond device `d` that the node feeding it sees while it
+    /// crosses: a lone pass NMOS passing a 0 into precharged nodes conducts only once its
+    /// source has fallen by a threshold, so what lies beyond it is partly hidden (the
+    /// technology's fitted `pass_ladder_visible`); every other device shows all of it.
+    fn visibility(&self, d: &Dev, v: bool) -> f64 {
+        if !v && d.role == Role::Pass && d.mos == Mos::N && d.partner == NONE {
+            self.tm.pass_ladder_visible.unwrap_or(1.0)
+        } else {
+            1.0
+        }
+    }
+
+    /// Is device `d`, fed through `parent`, a lone pass NMOS inside a pass ladder passing a 0?
+    fn pass_ladder(&self, d: &Dev, parent: Option<&Dev>, v: bool) -> bool {
+        !v && d.role == Role::Pass
+            && d.mos == Mos::N
+            && d.partner == NONE
+            && parent.is_some_and(|dp| dp.role == Role::Pass && dp.partner == NONE)
     }
 
     pub fn n_nodes(&self) -> usize {
@@ -537,6 +595,18 @@ pub struct Scratch {
     downm: Vec<f64>,
     m2: Vec<f64>,
     tlogic: Vec<f64>,
+    /// Share of a child's downstream that its parent's crossing sees through the device
+    /// between them (1, or the technology's pass-ladder value for a lone pass NMOS).
+    alpha_in: Vec<f64>,
+    /// Per-target sums (see [`visible_sums`]): the weighted downstream, then the two root-first
+    /// accumulations.
+    vis_d: Vec<f64>,
+    vis_a: Vec<f64>,
+    vis_b: Vec<f64>,
+    /// With [`Graph::all_keepers`]: conductance (1/kΩ) of the keepers on each node that hold
+    /// it against the drive, and each node's fight ratio over all of them.
+    gk: Vec<f64>,
+    kratio: Vec<f64>,
     up: Vec<u32>,
     below: Vec<u32>,
     children: Vec<u32>,
@@ -641,6 +711,12 @@ impl Graph {
             &mut sc.downm,
             &mut sc.m2,
             &mut sc.tlogic,
+            &mut sc.alpha_in,
+            &mut sc.vis_d,
+            &mut sc.vis_a,
+            &mut sc.vis_b,
+            &mut sc.gk,
+            &mut sc.kratio,
         ] {
             refill(v, m, 0.0);
         }
@@ -659,6 +735,7 @@ impl Graph {
                     sc.down[li] += self.cap_ff[x as usize];
                 }
                 let (p, di) = sc.pred[vi][li];
+                sc.alpha_in[li] = self.visibility(&self.devs[di as usize], v);
                 if p != NONE {
                     let pl = p as usize;
                     sc.down[pl] += sc.down[li];
@@ -673,11 +750,11 @@ impl Graph {
                 let (p, di) = sc.pred[vi][li];
                 let d = &self.devs[di as usize];
                 let logic = self.is_stack_dev(di, val);
-                let (up_parent, r_parent, t_parent) = if p == NONE {
-                    (0, 0.0, 0.0)
+                let (up_parent, r_parent) = if p == NONE {
+                    (0, 0.0)
                 } else {
                     let pl = p as usize;
-                    (sc.up[pl], sc.rpath[pl], sc.tau[pl])
+                    (sc.up[pl], sc.rpath[pl])
                 };
                 sc.up[li] = if logic { up_parent + 1 } else { 0 };
                 let below = if sc.children[li] == 1 {
@@ -691,45 +768,111 @@ impl Graph {
                     1
                 };
                 let tg = d.partner != NONE && self.on(&self.devs[d.partner as usize], val);
-                // A transmission gate fed through another one is inside a ladder.
-                let in_ladder = tg && p != NONE && {
-                    let dp = &self.devs[sc.pred[vi][p as usize].1 as usize];
-                    dp.partner != NONE && self.on(&self.devs[dp.partner as usize], val)
-                };
+                // A transmission gate fed through another one is inside a ladder; so is a
+                // lone pass NMOS passing a 0 fed through another one.
+                let parent_dev =
+                    (p != NONE).then(|| &self.devs[sc.pred[vi][p as usize].1 as usize]);
+                let in_ladder = tg
+                    && parent_dev.is_some_and(|dp| {
+                        dp.partner != NONE && self.on(&self.devs[dp.partner as usize], val)
+                    });
+                let in_pass_ladder = !tg && self.pass_ladder(d, parent_dev, v);
                 let r = if in_ladder {
                     self.r_tg_ladder(d, v)
+                } else if in_pass_ladder {
+                    self.r_pass_ladder(d)
                 } else {
                     self.r_kohm(d, v, tg, k)
                 };
                 sc.rpath[li] = r_parent + r;
                 sc.rdev[li] = r;
+            }
+            // Elmore delay with every node's own view of what lies ahead (kΩ × fF = ps):
+            // m1_j = Σ_k R_common(j, k) · C_k · w_j(k), w = 1 on and behind the path to j.
+            for &li in order.iter() {
+                let l = li as usize;
+                let x = st.nodes[l];
+                sc.downm[l] = if win(l, sc) == Some(v) && val[x as usize] != v {
+                    self.cap_ff[x as usize]
+                } else {
+                    0.0
+                };
+            }
+            visible_sums(
+                &order,
+                &sc.pred[vi],
+                &sc.alpha_in,
+                &sc.rpath,
+                &sc.downm,
+                &mut sc.vis_d,
+                &mut sc.vis_a,
+                &mut sc.vis_b,
+                &mut sc.tau,
+            );
+            // The logic devices' share with the same view.
+            for &li in order.iter() {
+                let l = li as usize;
+                let (p, di) = sc.pred[vi][l];
                 let tl_parent = if p == NONE {
                     0.0
                 } else {
                     sc.tlogic[p as usize]
                 };
-                sc.tlogic[li] = tl_parent + if logic { r * sc.down[li] } else { 0.0 };
-                // kΩ × fF = ps.
-                sc.tau[li] = t_parent + r * sc.down[li];
+                sc.tlogic[l] = tl_parent;
+                if self.is_stack_dev(di, val) {
+                    sc.tlogic[l] += sc.rdev[l] * sc.vis_d[l];
+                }
             }
-            {
-                // Second moment: m2_i = Σ_k R_ik · C_k · m1_k, leaves first then root first.
-                for &li in order.iter().rev() {
-                    let li = li as usize;
-                    let x = st.nodes[li];
-                    if win(li, sc) == Some(v) && val[x as usize] != v {
-                        sc.downm[li] += self.cap_ff[x as usize] * sc.tau[li];
+            // Second moment: m2_j = Σ_k R_common(j, k) · C_k · m1_k · w_j(k).
+            for &li in order.iter() {
+                let l = li as usize;
+                sc.downm[l] *= sc.tau[l];
+            }
+            visible_sums(
+                &order,
+                &sc.pred[vi],
+                &sc.alpha_in,
+                &sc.rpath,
+                &sc.downm,
+                &mut sc.vis_d,
+                &mut sc.vis_a,
+                &mut sc.vis_b,
+                &mut sc.m2,
+            );
+            // Every keeper on the path at once (the keeper check's model): a keeper on node k
+            // pushes its current through the drive path shared with node j, seen as far as
+            // the capacitance is (the devices ahead conduct only partly), so j's level is
+            // lifted by Σ_k G_k · R_common(j, k) · w_j(k), in units of the swing.
+            let mut keepers = false;
+            if self.all_keepers {
+                sc.gk[..m].fill(0.0);
+                for &di in &st.devs {
+                    let d = &self.devs[di as usize];
+                    if d.role != Role::Keeper || !self.on(d, val) {
+                        continue;
                     }
-                    let p = sc.pred[vi][li].0;
-                    if p != NONE {
-                        sc.downm[p as usize] += sc.downm[li];
+                    for (x, y) in [(d.a, d.b), (d.b, d.a)] {
+                        if self.source_value(x, val) == Some(!v)
+                            && self.kind[y as usize] == NodeKind::Inner
+                        {
+                            sc.gk[self.local[y as usize] as usize] +=
+                                1.0 / self.r_kohm(d, !v, false, 1);
+                            keepers = true;
+                        }
                     }
                 }
-                for &li in order.iter() {
-                    let li = li as usize;
-                    let p = sc.pred[vi][li].0;
-                    let mp = if p == NONE { 0.0 } else { sc.m2[p as usize] };
-                    sc.m2[li] = mp + sc.rdev[li] * sc.downm[li];
+                if keepers {
+                    visible_sums(
+                        &order,
+                        &sc.pred[vi],
+                        &sc.alpha_in,
+                        &sc.rpath,
+                        &sc.gk,
+                        &mut sc.vis_d,
+                        &mut sc.vis_a,
+                        &mut sc.vis_b,
+                        &mut sc.kratio,
+                    );
                 }
             }
             for &li in order.iter() {
@@ -741,7 +884,18 @@ impl Graph {
                 let opp = sc.dist[1 - vi][l];
                 let mut factor = 1.0;
                 if opp.r.is_finite() {
-                    let ratio = sc.rpath[l] / opp.r;
+                    // The node against the opposing path that holds it (its keeper): a
+                    // divider of the two resistances.
+                    let ratio = if keepers && opp.weak {
+                        sc.kratio[l]
+                    } else {
+                        sc.rpath[l] / opp.r
+                    };
+                    if opp.weak && ratio >= STALL_RATIO && val[x as usize] != v {
+                        // The keeper holds the node on its side of the reader's threshold:
+                        // the drive stalls and the node does not switch.
+                        continue;
+                    }
                     factor = if ratio < 1.0 - 1.0 / FIGHT_MAX {
                         1.0 / (1.0 - ratio)
                     } else {
@@ -774,6 +928,49 @@ impl Graph {
     fn is_stack_dev(&self, di: u32, val: &[bool]) -> bool {
         let d = &self.devs[di as usize];
         d.role != Role::Pass && !(d.partner != NONE && self.on(&self.devs[d.partner as usize], val))
+    }
+}
+
+/// Per-target sums over an RC tree (`order` root first, `pred` parents, `rpath` path
+/// resistance): out_j = Σ_k R_common(j, k) · vals_k · w_j(k), where w_j(k) = 1 for k on the
+/// path to j or hanging off it, and the product of the `alpha_in` of the devices between j and
+/// k for k beyond j. With every alpha 1 it is the plain Elmore sum Σ_{i on path} R_i · (vals
+/// below i). Computed in two passes: the weighted downstream D_k = vals_k + Σ_c alpha_c D_c,
+/// then out_j = A_j − B_j with A_j = A_p + rpath_j · D_j and B_j = B_p + rpath_p · alpha_j · D_j.
+#[allow(clippy::too_many_arguments)]
+fn visible_sums(
+    order: &[u32],
+    pred: &[(u32, u32)],
+    alpha_in: &[f64],
+    rpath: &[f64],
+    vals: &[f64],
+    d: &mut [f64],
+    a: &mut [f64],
+    b: &mut [f64],
+    out: &mut [f64],
+) {
+    for &li in order.iter() {
+        d[li as usize] = vals[li as usize];
+    }
+    for &li in order.iter().rev() {
+        let l = li as usize;
+        let p = pred[l].0;
+        if p != NONE {
+            d[p as usize] += alpha_in[l] * d[l];
+        }
+    }
+    for &li in order.iter() {
+        let l = li as usize;
+        let p = pred[l].0;
+        let (ap, bp, rp) = if p == NONE {
+            (0.0, 0.0, 0.0)
+        } else {
+            let p = p as usize;
+            (a[p], b[p], rpath[p])
+        };
+        a[l] = ap + rpath[l] * d[l];
+        b[l] = bp + rp * alpha_in[l] * d[l];
+        out[l] = a[l] - b[l];
     }
 }
 
@@ -1298,8 +1495,11 @@ fn slowest_taus(g: &Graph, si: usize) -> Vec<(u32, (f64, f64, f64))> {
                         let dp = &g.devs[pred[p as usize].1 as usize];
                         dp.partner != NONE
                     };
+                    let parent = (p != NONE).then(|| &g.devs[pred[p as usize].1 as usize]);
                     let r = if in_ladder {
                         g.r_tg_ladder(e, v)
+                    } else if g.pass_ladder(e, parent, v) {
+                        g.r_pass_ladder(e)
                     } else {
                         g.r_kohm(e, v, tg, 1)
                     };

@@ -8,6 +8,7 @@
 
 pub mod characterize;
 pub mod engine;
+pub mod keeper;
 pub mod search;
 
 use crate::tech::Technology;
@@ -57,6 +58,20 @@ pub struct Timing {
     pub r_tg_ladder_fall_kohm_um: Option<f64>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub r_tg_ladder_rise_kohm_um: Option<f64>,
+    /// Pass NMOS inside a precharged ladder (fed through another pass device) passing a 0,
+    /// per µm of width, kΩ·µm: fitted on inverter-driven, precharged ladders of 4 and 8.
+    /// Absent in older files: the single-device value stands in.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub r_pass_ladder_fall_kohm_um: Option<f64>,
+    /// Share of the capacitance one pass NMOS further down such a ladder that a node's
+    /// crossing sees (the devices ahead conduct only once their source has fallen by a
+    /// threshold), 0..1, fitted with `r_pass_ladder_fall_kohm_um`. Absent: 1 (all of it).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub pass_ladder_visible: Option<f64>,
+    /// Off-state leakage of an NMOS (gate and source at 0, drain at VDD), nA per µm of width,
+    /// for the keeper's holding rule. Absent in older files: the rule is not checked.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub i_off_n_na_um: Option<f64>,
     /// The conditions these values hold at (the file's `conditions:` record).
     #[serde(skip)]
     pub at: At,
@@ -102,6 +117,17 @@ impl Timing {
         }
         if let Some(v) = self.r_tg_ladder_rise_kohm_um {
             named.push(("r_tg_ladder_rise_kohm_um", v));
+        }
+        if let Some(v) = self.r_pass_ladder_fall_kohm_um {
+            named.push(("r_pass_ladder_fall_kohm_um", v));
+        }
+        if let Some(v) = self.pass_ladder_visible {
+            if !(0.0..=1.0).contains(&v) {
+                return Err((
+                    "pass_ladder_visible".into(),
+                    format!("must be between 0 and 1, got {v}"),
+                ));
+            }
         }
         for (i, v) in self.r_n_fall_kohm_um.iter().enumerate() {
             named.push((
@@ -178,8 +204,18 @@ pub const BUILTIN_FILES: &[(&str, &str, &str)] = &[
     ),
     (
         "gf180mcu-3v3",
+        "ff",
+        include_str!("../../configs/technologies/gf180mcu-3v3-ff-125.yaml"),
+    ),
+    (
+        "gf180mcu-3v3",
         "ss",
         include_str!("../../configs/technologies/gf180mcu-3v3-ss.yaml"),
+    ),
+    (
+        "gf180mcu-3v3",
+        "ss",
+        include_str!("../../configs/technologies/gf180mcu-3v3-ss-125.yaml"),
     ),
     (
         "gf180mcu-3v3",
@@ -203,8 +239,18 @@ pub const BUILTIN_FILES: &[(&str, &str, &str)] = &[
     ),
     (
         "sky130-1v8",
+        "ff",
+        include_str!("../../configs/technologies/sky130-1v8-ff-125.yaml"),
+    ),
+    (
+        "sky130-1v8",
         "ss",
         include_str!("../../configs/technologies/sky130-1v8-ss.yaml"),
+    ),
+    (
+        "sky130-1v8",
+        "ss",
+        include_str!("../../configs/technologies/sky130-1v8-ss-125.yaml"),
     ),
     (
         "sky130-1v8",

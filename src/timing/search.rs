@@ -176,6 +176,15 @@ impl<'g> Timer<'g> {
         })
     }
 
+    /// The last transition of a node in the latest timed pair: (time ps, value).
+    pub fn last_event(&self, x: u32) -> Option<(f64, bool)> {
+        let e = self.sim.last[x as usize];
+        (e != u32::MAX).then(|| {
+            let ev = &self.sim.events[e as usize];
+            (ev.time_ps, ev.value)
+        })
+    }
+
     /// Output values after the latest timed pair, in port order.
     pub fn output_values(&self) -> Vec<bool> {
         self.g
