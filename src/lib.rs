@@ -14,6 +14,7 @@ pub mod error;
 pub mod models;
 pub mod netlist;
 pub mod output;
+pub mod passes;
 pub mod ratio;
 pub mod sim;
 pub mod spec;

@@ -106,6 +106,21 @@ pub struct Buffers {
     pub inverting: bool,
     /// Prefix networks: buffer every node net with more loads than this.
     pub fanout: Option<usize>,
+    /// `buffers: auto`: the positions were chosen by the timing engine (`passes::buffers`).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub auto: Option<AutoBuffers>,
+}
+
+/// How `buffers: auto` chose, for the reports.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct AutoBuffers {
+    pub rule: &'static str,
+    /// The model's cin → cout with the chosen buffers, and with none, ps.
+    pub cin_cout_ps: f64,
+    pub unbuffered_ps: f64,
+    /// Dynamic style: the longest chain the keeper check lets through, where it is shorter
+    /// than the word.
+    pub longest_segment: Option<usize>,
 }
 
 /// Device sizes in µm, resolved from the technology defaults and `sizing` overrides.
@@ -1047,7 +1062,7 @@ fn validate(raw: RawSpec, src: &Source, base: &Path, opts: &LoadOptions) -> Resu
         }
     }
 
-    Ok(Spec {
+    let mut spec = Spec {
         name: raw.name,
         width,
         architecture,
@@ -1066,7 +1081,14 @@ fn validate(raw: RawSpec, src: &Source, base: &Path, opts: &LoadOptions) -> Resu
             step,
         },
         source: Some((src.label.to_string(), src.text.to_string())),
-    })
+    };
+    if spec.buffers.auto.is_some() {
+        let (positions, how) =
+            crate::passes::buffers::choose(&spec).map_err(|m| src.error("buffers", m))?;
+        spec.buffers.positions = positions;
+        spec.buffers.auto = Some(how);
+    }
+    Ok(spec)
 }
 
 fn parse_buffers(
@@ -1081,15 +1103,42 @@ fn parse_buffers(
         positions: vec![],
         inverting: true,
         fanout: None,
+        auto: None,
     };
     let v = match v {
         None => return Ok(none),
         Some(serde_yaml::Value::String(s)) if s == "none" => return Ok(none),
         Some(serde_yaml::Value::String(s)) if s == "auto" => {
-            return Err(src.error(
-                "buffers",
-                "`auto` needs the timing model, which is not built yet; use none, {every: K}, {at: [..]} or, for prefix networks, {fanout: F}",
-            ))
+            if arch != Architecture::Manchester {
+                return Err(src.error(
+                    "buffers",
+                    format!(
+                        "`auto` places restoring buffers on Manchester chains; {} takes {}",
+                        arch.as_str(),
+                        if arch.is_prefix() {
+                            "none or {fanout: F}"
+                        } else {
+                            "none"
+                        }
+                    ),
+                ));
+            }
+            if width <= block {
+                return Err(src.error(
+                    "buffers",
+                    format!("`auto` needs a block boundary inside the {width}-bit word (block is {block})"),
+                ));
+            }
+            // Chosen once the rest of the spec is resolved (see the end of `parse`).
+            return Ok(Buffers {
+                auto: Some(AutoBuffers {
+                    rule: "",
+                    cin_cout_ps: 0.0,
+                    unbuffered_ps: 0.0,
+                    longest_segment: None,
+                }),
+                ..none
+            });
         }
         Some(v @ serde_yaml::Value::Mapping(_)) => v,
         Some(_) => {
@@ -1221,6 +1270,7 @@ fn parse_buffers(
         positions,
         inverting: raw.inverting.unwrap_or(true),
         fanout: None,
+        auto: None,
     })
 }
 

@@ -40,6 +40,9 @@ fn values(t: &Timing) -> Vec<(String, f64)> {
         v.push((format!("r_n_fall[{k}]"), t.r_n_fall_kohm_um[k]));
         v.push((format!("r_p_rise[{k}]"), t.r_p_rise_kohm_um[k]));
     }
+    if let Some(x) = t.r_pass_ladder_fall_kohm_um {
+        v.push(("r_pass_ladder_fall".into(), x));
+    }
     v
 }
 
@@ -194,6 +197,58 @@ fn checked_in_files_load_and_built_ins_carry_their_timing() {
         }
     }
     assert_eq!(seen, 11);
+    // The keeper check's corners at 125 degC: built in, carried by the built-in technology
+    // at exactly those conditions.
+    for name in ["gf180mcu-3v3", "sky130-1v8"] {
+        for corner in ["ss", "ff"] {
+            let file = files_dir().join(format!("{name}-{corner}-125.yaml"));
+            let tm = checked_in(&format!("{name}-{corner}-125.yaml"));
+            assert_eq!((tm.at.corner.as_str(), tm.at.temp), (corner, 125.0), "{}", file.display());
+            let mut b = tech::builtin(name, &opts).unwrap();
+            b.apply_conditions(&Conditions {
+                corner: Some(corner.into()),
+                temp: Some(125.0),
+                vdd: None,
+            })
+            .unwrap();
+            assert_eq!(b.timing.as_ref(), Some(&tm), "{name} {corner} 125 degC");
+        }
+    }
+}
+
+/// The precharged pass ladder and the leakage in every checked-in file, against the physics
+/// of the trade (common practice): a pass NMOS inside a precharged chain, whose source is
+/// itself still falling, is no stronger than one driven from a rail; a node's crossing sees
+/// part of what lies ahead (0 < share <= 1); off current grows with temperature (the 125 degC
+/// files leak more than the 27 degC ones of the same corner) and is far below on current.
+#[test]
+fn pass_ladders_and_leakage_agree_with_the_trade() {
+    let mut n = 0;
+    for entry in std::fs::read_dir(files_dir()).unwrap() {
+        let path = entry.unwrap().path();
+        if path.extension().and_then(|e| e.to_str()) != Some("yaml") {
+            continue;
+        }
+        let file = path.file_name().unwrap().to_str().unwrap().to_string();
+        let tm = checked_in(&file);
+        let r_l = tm.r_pass_ladder_fall_kohm_um.expect("pass ladder fitted");
+        assert!(r_l >= 0.95 * tm.r_pass_n_fall_kohm_um, "{file}: {r_l} vs {}", tm.r_pass_n_fall_kohm_um);
+        let vis = tm.pass_ladder_visible.expect("share fitted");
+        assert!(vis > 0.0 && vis <= 1.0, "{file}: {vis}");
+        let i_off = tm.i_off_n_na_um.expect("leakage measured");
+        // On current per µm, about 0.75·VDD / R (mA per µm from V / kΩ·µm), in nA.
+        let i_on = 0.75 * tm.at.vdd / tm.r_n_fall_kohm_um[0] * 1e6;
+        assert!(i_off > 0.0 && i_off < 1e-3 * i_on, "{file}: off {i_off} nA/um vs on {i_on}");
+        n += 1;
+    }
+    assert_eq!(n, 15);
+    for pdk in ["gf180mcu-3v3", "sky130-1v8"] {
+        for corner in ["ss", "ff"] {
+            let cold = checked_in(&format!("{pdk}-{corner}.yaml")).i_off_n_na_um.unwrap();
+            let hot = checked_in(&format!("{pdk}-{corner}-125.yaml")).i_off_n_na_um.unwrap();
+            assert!(hot > 10.0 * cold, "{pdk} {corner}: {hot} at 125 degC vs {cold} at 27");
+        }
+    }
 }
 
 /// Checks against the outside world on the checked-in characterisations.

@@ -88,6 +88,10 @@ struct Summary<'a> {
     counts: &'a Counts,
     /// The timing engine's estimate (`carrywright estimate --json`), or why there is none.
     timing: serde_json::Value,
+    /// The keeper check (dynamic designs with keepers): the slow corner, every segment's
+    /// discharge front there, the limit, and each keeper's holding margin at the leaky corner.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    keepers: Option<serde_json::Value>,
     verilog_testbench: serde_json::Value,
     spice_deck: serde_json::Value,
     vectors_note: &'static str,
@@ -164,6 +168,9 @@ pub fn json(
             Ok(e) => rounded(e)?,
             Err(why) => serde_json::json!({ "none": why }),
         },
+        keepers: crate::timing::keeper::check(spec, design)?
+            .map(|r| rounded(&r))
+            .transpose()?,
         verilog_testbench: rounded(serde_json::json!({
             "exhaustive": spec.width <= TB_EXHAUSTIVE_MAX,
             "directed_vectors": n_directed,
