@@ -203,7 +203,12 @@ fn checked_in_files_load_and_built_ins_carry_their_timing() {
         for corner in ["ss", "ff"] {
             let file = files_dir().join(format!("{name}-{corner}-125.yaml"));
             let tm = checked_in(&format!("{name}-{corner}-125.yaml"));
-            assert_eq!((tm.at.corner.as_str(), tm.at.temp), (corner, 125.0), "{}", file.display());
+            assert_eq!(
+                (tm.at.corner.as_str(), tm.at.temp),
+                (corner, 125.0),
+                "{}",
+                file.display()
+            );
             let mut b = tech::builtin(name, &opts).unwrap();
             b.apply_conditions(&Conditions {
                 corner: Some(corner.into()),
@@ -232,21 +237,35 @@ fn pass_ladders_and_leakage_agree_with_the_trade() {
         let file = path.file_name().unwrap().to_str().unwrap().to_string();
         let tm = checked_in(&file);
         let r_l = tm.r_pass_ladder_fall_kohm_um.expect("pass ladder fitted");
-        assert!(r_l >= 0.95 * tm.r_pass_n_fall_kohm_um, "{file}: {r_l} vs {}", tm.r_pass_n_fall_kohm_um);
+        assert!(
+            r_l >= 0.95 * tm.r_pass_n_fall_kohm_um,
+            "{file}: {r_l} vs {}",
+            tm.r_pass_n_fall_kohm_um
+        );
         let vis = tm.pass_ladder_visible.expect("share fitted");
         assert!(vis > 0.0 && vis <= 1.0, "{file}: {vis}");
         let i_off = tm.i_off_n_na_um.expect("leakage measured");
         // On current per µm, about 0.75·VDD / R (mA per µm from V / kΩ·µm), in nA.
         let i_on = 0.75 * tm.at.vdd / tm.r_n_fall_kohm_um[0] * 1e6;
-        assert!(i_off > 0.0 && i_off < 1e-3 * i_on, "{file}: off {i_off} nA/um vs on {i_on}");
+        assert!(
+            i_off > 0.0 && i_off < 1e-3 * i_on,
+            "{file}: off {i_off} nA/um vs on {i_on}"
+        );
         n += 1;
     }
     assert_eq!(n, 15);
     for pdk in ["gf180mcu-3v3", "sky130-1v8"] {
         for corner in ["ss", "ff"] {
-            let cold = checked_in(&format!("{pdk}-{corner}.yaml")).i_off_n_na_um.unwrap();
-            let hot = checked_in(&format!("{pdk}-{corner}-125.yaml")).i_off_n_na_um.unwrap();
-            assert!(hot > 10.0 * cold, "{pdk} {corner}: {hot} at 125 degC vs {cold} at 27");
+            let cold = checked_in(&format!("{pdk}-{corner}.yaml"))
+                .i_off_n_na_um
+                .unwrap();
+            let hot = checked_in(&format!("{pdk}-{corner}-125.yaml"))
+                .i_off_n_na_um
+                .unwrap();
+            assert!(
+                hot > 10.0 * cold,
+                "{pdk} {corner}: {hot} at 125 degC vs {cold} at 27"
+            );
         }
     }
 }

@@ -44,10 +44,18 @@ fn arrivals(g: &Graph) -> Result<Vec<f64>> {
     let m = crate::emit::vectors::mask(g.width);
     let mut arr = vec![f64::NAN; g.n_nodes()];
     let ins: Vec<(In, In)> = if g.clk.is_some() {
-        let all = In { a: m, b: 0, cin: true };
+        let all = In {
+            a: m,
+            b: 0,
+            cin: true,
+        };
         vec![(all, all)]
     } else {
-        let lo = In { a: m, b: 0, cin: false };
+        let lo = In {
+            a: m,
+            b: 0,
+            cin: false,
+        };
         let hi = In { cin: true, ..lo };
         vec![(lo, hi), (hi, lo)]
     };
@@ -86,7 +94,10 @@ fn timed(spec: &Spec, at: &[usize]) -> Result<(Vec<f64>, f64)> {
             .ok_or_else(|| Error::Check(format!("buffers: auto: no buffer at bit {p}")))?;
         Ok(arr[x as usize])
     };
-    let ins = at.iter().map(|&p| at_input(p)).collect::<Result<Vec<_>>>()?;
+    let ins = at
+        .iter()
+        .map(|&p| at_input(p))
+        .collect::<Result<Vec<_>>>()?;
     let cout = *g.outputs.last().expect("cout");
     Ok((ins, arr[cout as usize]))
 }
