@@ -28,14 +28,15 @@ fn fit_quadratic(xs: &[f64], ys: &[f64]) -> (f64, f64, f64) {
     // Gauss-Jordan elimination.
     for i in 0..3 {
         let p = m[i][i];
-        for j in 0..4 {
-            m[i][j] /= p;
+        for v in m[i].iter_mut() {
+            *v /= p;
         }
-        for k in 0..3 {
+        let pivot = m[i];
+        for (k, row) in m.iter_mut().enumerate() {
             if k != i {
-                let f = m[k][i];
-                for j in 0..4 {
-                    m[k][j] -= f * m[i][j];
+                let f = row[i];
+                for (v, pv) in row.iter_mut().zip(pivot) {
+                    *v -= f * pv;
                 }
             }
         }
