@@ -392,9 +392,37 @@ fn buffers_every_and_at_together() {
     );
 }
 
+/// `buffers: auto` on a Manchester chain: generated with the positions the engine chose,
+/// reported in NAME.json; on an architecture without restoring buffers it is refused.
 #[test]
-fn buffers_auto_is_not_built_yet() {
-    refuse(&base_plus("buffers: auto\n"), "buffers", 5, &["auto"]);
+fn buffers_auto_places_buffers_or_is_refused() {
+    let sb = Sandbox::with_spec(
+        "name: t16\nwidth: 16\narchitecture: manchester\nblock: 4\nbuffers: auto\n",
+    );
+    let run = sb.run(&["generate", "spec.yaml", "-o", "out"]);
+    assert_eq!(run.code, Some(0), "{}", run.describe());
+    let json: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(sb.dir.path().join("out/t16.json")).unwrap())
+            .unwrap();
+    let b = &json["buffers"];
+    assert!(!b["positions"].as_array().unwrap().is_empty(), "{b}");
+    assert!(
+        b["auto"]["rule"]
+            .as_str()
+            .unwrap()
+            .contains("dynamic programming"),
+        "{b}"
+    );
+    assert!(
+        b["auto"]["cin_cout_ps"].as_f64().unwrap() < b["auto"]["unbuffered_ps"].as_f64().unwrap(),
+        "{b}"
+    );
+    refuse(
+        "name: t8\nwidth: 8\narchitecture: ripple\nbuffers: auto\n",
+        "buffers",
+        4,
+        &["auto", "Manchester"],
+    );
 }
 
 // ---------------------------------------------------------------------------------------
