@@ -115,9 +115,10 @@ pub struct Buffers {
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct AutoBuffers {
     pub rule: &'static str,
-    /// The model's cin → cout with the chosen buffers, and with none, ps.
+    /// The model's cin → cout with the chosen buffers, and with none (None: the unbuffered
+    /// chain never completes in the model, its keepers hold it), ps.
     pub cin_cout_ps: f64,
-    pub unbuffered_ps: f64,
+    pub unbuffered_ps: Option<f64>,
     /// Dynamic style: the longest chain the keeper check lets through, where it is shorter
     /// than the word.
     pub longest_segment: Option<usize>,
@@ -1134,7 +1135,7 @@ fn parse_buffers(
                 auto: Some(AutoBuffers {
                     rule: "",
                     cin_cout_ps: 0.0,
-                    unbuffered_ps: 0.0,
+                    unbuffered_ps: None,
                     longest_segment: None,
                 }),
                 ..none

@@ -39,11 +39,22 @@ pub fn table(spec: &Spec, design: &Design) -> String {
         row(&mut out, "block sizes", itertools::join(sizes, "-"));
     }
     if !spec.buffers.positions.is_empty() {
-        row(
-            &mut out,
-            "buffers at bits",
-            itertools::join(&spec.buffers.positions, ","),
-        );
+        let mut at = itertools::join(&spec.buffers.positions, ",");
+        if let Some(a) = &spec.buffers.auto {
+            at.push_str(&format!(
+                " (buffers: auto; the model's cin -> cout {:.1} ps, {} with none{})",
+                a.cin_cout_ps,
+                match a.unbuffered_ps {
+                    Some(x) => format!("{x:.1} ps"),
+                    None => "no completion".to_string(),
+                },
+                match a.longest_segment {
+                    Some(n) => format!("; the keeper check allows {n}-bit segments"),
+                    None => String::new(),
+                }
+            ));
+        }
+        row(&mut out, "buffers at bits", at);
     }
     if let Some(p) = &design.prefix {
         row(

@@ -229,7 +229,7 @@ pub fn choose(spec: &Spec) -> std::result::Result<(Vec<usize>, AutoBuffers), Str
         AutoBuffers {
             rule: "dynamic programming over block boundaries on the timing engine's segment delays (cin to cout, every bit propagating)",
             cin_cout_ps: (ps * 10.0).round() / 10.0,
-            unbuffered_ps: (c.only * 10.0).round() / 10.0,
+            unbuffered_ps: c.only.is_finite().then(|| (c.only * 10.0).round() / 10.0),
             longest_segment: (max_len < spec.width).then_some(max_len),
         },
     ))

@@ -109,7 +109,8 @@ fn corner_timing(spec: &Spec, corner: &str) -> Option<(Timing, String, Spec)> {
     }
     let tm = spec.technology.timing.clone()?;
     let label = format!(
-        "{} (the technology lists no {corner} corner)",
+        "{}'s own conditions ({}; it lists no {corner} corner)",
+        t.name,
         label_of(&tm)
     );
     Some((tm, label, s))
