@@ -118,7 +118,7 @@ fn auto_positions_build_and_respect_the_keeper_check() {
         assert!(!pos.is_empty(), "{style} {width}: {pos:?}");
         assert!(pos.iter().all(|p| p % 4 == 0 && *p > 0 && *p < width));
         assert!(
-            how.cin_cout_ps < how.unbuffered_ps || how.unbuffered_ps.is_nan(),
+            how.unbuffered_ps.is_none_or(|u| how.cin_cout_ps < u),
             "{how:?}"
         );
         let d = carrywright::build(&s).unwrap();
