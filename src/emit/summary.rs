@@ -92,6 +92,13 @@ struct Summary<'a> {
     /// discharge front there, the limit, and each keeper's holding margin at the leaky corner.
     #[serde(skip_serializing_if = "Option::is_none")]
     keepers: Option<serde_json::Value>,
+    /// Every cell's devices with their sizes and roles (each cell is one or more stages).
+    cell_sizes: serde_json::Value,
+    /// Every ratioed node (a keeper against the pull-down paths it fights): the keeper's W/L,
+    /// the weakest conducting path's series W/L and their ratio (a report; the keeper check
+    /// decides).
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    ratios: Vec<serde_json::Value>,
     verilog_testbench: serde_json::Value,
     spice_deck: serde_json::Value,
     vectors_note: &'static str,
@@ -171,6 +178,35 @@ pub fn json(
         keepers: crate::timing::keeper::check(spec, design)?
             .map(|r| rounded(&r))
             .transpose()?,
+        cell_sizes: rounded(
+            design
+                .cells
+                .values()
+                .map(|c| {
+                    serde_json::json!({
+                        "cell": c.base,
+                        "devices": c.devices.iter().map(|d| serde_json::json!({
+                            "name": d.name,
+                            "type": d.mos,
+                            "w_um": d.w,
+                            "l_um": d.l,
+                            "role": d.role,
+                        })).collect::<Vec<_>>(),
+                    })
+                })
+                .collect::<Vec<_>>(),
+        )?,
+        ratios: crate::ratio::survey(design, &design.flatten())
+            .iter()
+            .map(|k| {
+                rounded(serde_json::json!({
+                    "node": k.node,
+                    "keeper_wl": k.keeper,
+                    "weakest_path_wl": k.weakest,
+                    "path_over_keeper": k.weakest.map(|w| w / k.keeper),
+                }))
+            })
+            .collect::<Result<Vec<_>>>()?,
         verilog_testbench: rounded(serde_json::json!({
             "exhaustive": spec.width <= TB_EXHAUSTIVE_MAX,
             "directed_vectors": n_directed,
