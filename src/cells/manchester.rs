@@ -13,16 +13,32 @@
 use super::expr::*;
 use super::{pins, Cell, CellKind, Dir::*, Expr, Role, Schematic, Sizes};
 
+/// The transmission gate's controls no later than a chain cell's generate and kill controls
+/// (two gate delays from a and b): transmission-gate XOR and XNOR (common practice; Weste &
+/// Harris, from memory), p = a ? ~b : b and pn = a ? b : ~b, steered by a and its inverse,
+/// passing b and its inverse, about one and a half gate delays from a and b. Derived from g
+/// and k instead (pn = nand(~k, ~g), p = ~pn), p would come two stages after them and the
+/// gate would still pass while generate or kill already drives the node: a fight and a
+/// glitch at every change.
+fn balanced_p(sch: &mut Schematic) {
+    sch.inv("an", "a", "an", 1.0);
+    sch.inv("bn", "b", "bn", 1.0);
+    sch.tg("p1", "bn", "p", "a", "an", 1.0);
+    sch.tg("p0", "b", "p", "an", "a", 1.0);
+    sch.tg("q1", "b", "pn", "a", "an", 1.0);
+    sch.tg("q0", "bn", "pn", "an", "a", 1.0);
+}
+
 /// Propagate/generate/kill for a chain that holds the inverted carry: outputs g (pull the
-/// node down), kn = ~kill (its low pulls the node up), p and pn (transmission gate controls).
+/// node down), kn = ~kill (its low pulls the node up), p and pn (transmission gate controls),
+/// all four two gate delays from a and b.
 pub fn pg_inverted(s: &Sizes) -> Cell {
     let mut sch = Schematic::new(s);
     sch.nand2("gn", "a", "b", "gn");
     sch.inv("g", "gn", "g", 1.0);
     sch.nor2("k", "a", "b", "k");
     sch.inv("kn", "k", "kn", 1.0);
-    sch.nand2("pn", "kn", "gn", "pn");
-    sch.inv("p", "pn", "p", 1.0);
+    balanced_p(&mut sch);
     let (a, b) = (v(0), v(1));
     Cell {
         kind: CellKind::PgInverted,
@@ -45,19 +61,18 @@ pub fn pg_inverted(s: &Sizes) -> Cell {
         devices: sch.devices,
         care: None,
         clock: None,
-        stages: 4,
+        stages: 2,
     }
 }
 
 /// Propagate/generate/kill for a chain that holds the true carry: outputs gn = ~generate
-/// (its low pulls the node up), k (pulls the node down), p and pn.
+/// (its low pulls the node up), k (pulls the node down), p and pn. gn and k are one gate
+/// from a and b, p and pn two (one single gate cannot make a ⊕ b from a and b alone).
 pub fn pg_true(s: &Sizes) -> Cell {
     let mut sch = Schematic::new(s);
     sch.nand2("gn", "a", "b", "gn");
     sch.nor2("k", "a", "b", "k");
-    sch.inv("kn", "k", "kn", 1.0);
-    sch.nand2("pn", "kn", "gn", "pn");
-    sch.inv("p", "pn", "p", 1.0);
+    balanced_p(&mut sch);
     let (a, b) = (v(0), v(1));
     Cell {
         kind: CellKind::PgTrue,
@@ -80,7 +95,7 @@ pub fn pg_true(s: &Sizes) -> Cell {
         devices: sch.devices,
         care: None,
         clock: None,
-        stages: 4,
+        stages: 2,
     }
 }
 
