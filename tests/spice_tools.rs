@@ -204,7 +204,7 @@ fn pg_cell_controls_settle_together_gf180() {
     let Some(models) = common::model_dir() else {
         return;
     };
-    let (dir, _g, s) = common::generate(
+    let (dir, _g, _s) = common::generate(
         "name: pg16\nwidth: 16\narchitecture: manchester\nblock: 4\nbuffers: {every: 4}\ntechnology: gf180mcu-3v3\n",
         Some(models.clone()),
     );
