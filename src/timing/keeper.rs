@@ -371,7 +371,7 @@ pub fn refusal(spec: &Spec, why: &str) -> Result<crate::error::Error> {
         let every = fits / spec.block * spec.block;
         (
             "buffers",
-            format!("the unbuffered dynamic chain from bit {lo} to bit {} ({n}) fails the keeper check at sizing.keeper {k} ({why}); the longest that passes is {longest}: add buffers (e.g. {{every: {every}}}) {lower}", hi - 1),
+            format!("the unbuffered dynamic chain from bit {lo} to bit {} ({n}) fails the keeper check at sizing.keeper {k} ({why}); the longest that passes is {longest}: add buffers (e.g. {{every: {every}}} or auto) {lower}", hi - 1),
         )
     } else {
         (
