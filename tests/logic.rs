@@ -154,6 +154,15 @@ fn structural_check_catches_bad_wiring() {
     assert!(err.contains("dangling"), "{err}");
 }
 
+/// The length a keeper refusal promises ("the longest that passes is N bits").
+fn longest_in(m: &str) -> usize {
+    m.split("the longest that passes is ")
+        .nth(1)
+        .and_then(|r| r.split(' ').next())
+        .and_then(|n| n.parse().ok())
+        .unwrap_or_else(|| panic!("no length in {m}"))
+}
+
 /// The keeper check (src/timing/keeper.rs): a dynamic chain whose discharge front its
 /// keepers stall at the slow corner is a spec problem: exit 2, one line naming the key to
 /// change and the longest chain that passes, found by the check itself. The longest it
@@ -177,12 +186,7 @@ fn keeper_check_refuses_a_stalled_chain_and_names_the_longest_that_passes() {
         "{m}"
     );
     assert!(m.contains("stalls at"), "{m}");
-    let fits: usize = m
-        .split("the longest that passes is ")
-        .nth(1)
-        .and_then(|r| r.split(' ').next())
-        .and_then(|n| n.parse().ok())
-        .unwrap_or_else(|| panic!("no length in {m}"));
+    let fits = longest_in(&m);
     assert!((2..40).contains(&fits), "{m}");
     carrywright::build(&spec(fits, fits, "")).unwrap();
     let over = carrywright::build(&spec(fits + 1, fits + 1, "")).unwrap_err();
@@ -229,12 +233,7 @@ fn keeper_check_suggestion_for_a_strong_keeper_builds() {
     assert_eq!(err.exit_code(), 2, "{err}");
     let m = err.to_string();
     assert!(m.starts_with("test:5:1: block: "), "{m}");
-    let fits: usize = m
-        .split("the longest that passes is ")
-        .nth(1)
-        .and_then(|r| r.split(' ').next())
-        .and_then(|n| n.parse().ok())
-        .unwrap_or_else(|| panic!("no length in {m}"));
+    let fits = longest_in(&m);
     assert!((1..8).contains(&fits), "{m}");
     assert!(
         m.contains(&format!(
