@@ -192,6 +192,9 @@ fn run(cli: Cli) -> Result<ExitCode> {
                         s.technology.name
                     )),
                 }
+                if let Some(k) = carrywright::timing::keeper::check(&s, &design)? {
+                    out.line(describe_keepers(&k));
+                }
                 if let Some(path) = &svg {
                     out.line(format!("  wrote {}", shown_path(path)));
                 }
@@ -372,6 +375,34 @@ fn describe_timing(e: &carrywright::timing::engine::Estimate) -> String {
         format!("{:.1} um2 (sum of W*L)", e.gate_area_um2),
     ));
     rows.join("\n")
+}
+
+/// `describe`'s keeper row: the slow corner, the slowest front against its limit, and the
+/// smallest holding margin.
+fn describe_keepers(k: &carrywright::timing::keeper::Report) -> String {
+    let slowest = k
+        .fronts
+        .iter()
+        .filter_map(|f| f.duration_ps())
+        .fold(0.0, f64::max);
+    let mut v = format!(
+        "passes at {}: slowest discharge front {:.2} ns in {} segments (limit {:.2} ns)",
+        k.slow_corner,
+        slowest * 1e-3,
+        k.fronts.len(),
+        k.limit_ps * 1e-3
+    );
+    let margin = k
+        .holds
+        .iter()
+        .map(|h| h.keeper_ua / h.leakage_ua)
+        .fold(f64::INFINITY, f64::min);
+    if let (Some(c), true) = (&k.leaky_corner, margin.is_finite()) {
+        v.push_str(&format!(
+            "; keepers hold {margin:.0}x their node's leakage at {c}"
+        ));
+    }
+    format!("  {:<22} {v}", "keeper check")
 }
 
 /// `generate`: every spec is loaded, validated, built and checked in memory before anything

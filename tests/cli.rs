@@ -1520,3 +1520,29 @@ fn control_character_is_located_on_its_line() {
     );
     assert!(err.starts_with("error: spec.yaml:5:12: "), "{err}");
 }
+
+/// `describe` of a dynamic design with keepers reports the keeper check: where it timed the
+/// fronts, the slowest against its limit, and the holding margin; a static design has no
+/// such row.
+#[test]
+fn describe_reports_the_keeper_check() {
+    let sb = Sandbox::with_spec("name: d16\nwidth: 16\narchitecture: manchester\nstyle: dynamic\nblock: 4\nbuffers: {every: 4}\n");
+    let run = sb.run(&["describe", "spec.yaml"]);
+    assert_eq!(run.code, Some(0), "{}", run.describe());
+    let row = run
+        .stdout
+        .lines()
+        .find(|l| l.trim_start().starts_with("keeper check"))
+        .unwrap_or_else(|| panic!("no keeper row\n{}", run.describe()));
+    assert!(
+        row.contains("passes at") && row.contains("4 segments"),
+        "{row}"
+    );
+    assert!(
+        row.contains("their node's leakage") || row.contains("(limit"),
+        "{row}"
+    );
+    let st = Sandbox::with_spec(BASE);
+    let run = st.run(&["describe", "spec.yaml"]);
+    assert!(!run.stdout.contains("keeper check"), "{}", run.describe());
+}

@@ -196,7 +196,10 @@ fn keeper_check_refuses_a_stalled_chain_and_names_the_longest_that_passes() {
         .unwrap_err()
         .to_string();
     let every = fits / 4 * 4;
-    assert!(m4.contains(&format!("(e.g. {{every: {every}}} or auto)")), "{m4}");
+    assert!(
+        m4.contains(&format!("(e.g. {{every: {every}}} or auto)")),
+        "{m4}"
+    );
     carrywright::build(&spec(40, 4, &format!("buffers: {{every: {every}}}\n"))).unwrap();
     // A block longer than what fits: the key is `block`, with the line of the key.
     let mb = carrywright::build(&spec(
