@@ -260,7 +260,7 @@ fn run(cli: Cli) -> Result<ExitCode> {
                     out.line(format!("    {:<10} {:>12}", k, n));
                 }
                 out.line(format!(
-                    "  {:<12} {:>12}   one driver per net, no floating input, ratio rule",
+                    "  {:<12} {:>12}   one driver per net, no floating input, keeper check",
                     "structure", "ok"
                 ));
             }

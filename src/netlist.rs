@@ -315,7 +315,7 @@ pub struct Flat {
 }
 
 /// A leaf cell's node names mapped to global node ids, for the transistor-level views
-/// (the ratio rule, the timing engine): pins to their nets, `vdd` / `vss` to the rails, and
+/// (the keeper survey, the timing engine): pins to their nets, `vdd` / `vss` to the rails, and
 /// each cell-internal node to a new id named `PATH.NODE`, appended to `names` on first use.
 pub struct LeafNodes<'a> {
     path: &'a str,

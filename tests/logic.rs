@@ -1,6 +1,6 @@
 //! The internal checks must pass every correct design and catch broken ones: the
 //! bit-parallel logic check against native integer addition, and the structural checks
-//! (one driver per net, no unused net, the keeper ratio rule).
+//! (one driver per net, no unused net) and the keeper check.
 
 use carrywright::cells::{CellKind, Expr};
 use carrywright::netlist::Master;
