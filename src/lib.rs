@@ -33,18 +33,23 @@ pub const GENERATE_EXHAUSTIVE_MAX: usize = 8;
 
 /// Build the netlist and run its structural checks.
 pub fn build(spec: &Spec) -> Result<Design> {
+    build_checked(spec).map(|(design, _)| design)
+}
+
+/// [`build`], also returning the keeper check's report (dynamic designs with keepers) so
+/// the views and `describe` need not run it again.
+pub fn build_checked(spec: &Spec) -> Result<(Design, Option<timing::keeper::Report>)> {
     let design = arch::build(spec);
     check_sizes(spec, &design)?;
     check_name_is_free(spec, &design)?;
     design.check()?;
     // Keepers that fail (a front that stalls or does not fit the evaluate phase at the slow
     // corner, a node they cannot hold against leakage) are a spec problem: exit 2.
-    if let Some(report) = timing::keeper::check(spec, &design)? {
-        if let Some(why) = &report.failure {
-            return Err(timing::keeper::refusal(spec, why)?);
-        }
+    let keepers = timing::keeper::check(spec, &design)?;
+    if let Some(why) = keepers.as_ref().and_then(|r| r.failure.as_ref()) {
+        return Err(timing::keeper::refusal(spec, why)?);
     }
-    Ok(design)
+    Ok((design, keepers))
 }
 
 /// Every device is at least the technology's smallest width and length, and of a size a
@@ -125,7 +130,7 @@ pub fn generate(spec: &Spec) -> Result<Generated> {
     if let Some(why) = &spec.technology.models_missing {
         return Err(Error::Input(why.clone()));
     }
-    let design = build(spec)?;
+    let (design, keepers) = build_checked(spec)?;
     let check = sim::check_or_fail(
         &design,
         spec.testbench.seed,
@@ -146,6 +151,7 @@ pub fn generate(spec: &Spec) -> Result<Generated> {
         &design,
         &counts,
         timing.as_ref().map_err(String::as_str),
+        keepers.as_ref(),
     )?;
     let (estimate, estimate_failed) = match timing {
         Ok(e) => (Some(e), None),

@@ -170,7 +170,7 @@ fn run(cli: Cli) -> Result<ExitCode> {
             model_dir,
         } => {
             let s = load_spec(&spec, &LoadOptions { model_dir })?;
-            let design = carrywright::build(&s)?;
+            let (design, keepers) = carrywright::build_checked(&s)?;
             // The drawing is written first, so a failure prints nothing on stdout.
             if let Some(path) = &svg {
                 let text = emit::report::svg(&s, &design)?;
@@ -192,8 +192,8 @@ fn run(cli: Cli) -> Result<ExitCode> {
                         s.technology.name
                     )),
                 }
-                if let Some(k) = carrywright::timing::keeper::check(&s, &design)? {
-                    out.line(describe_keepers(&k));
+                if let Some(k) = &keepers {
+                    out.line(describe_keepers(k));
                 }
                 if let Some(path) = &svg {
                     out.line(format!("  wrote {}", shown_path(path)));

@@ -910,6 +910,7 @@ fn validate(raw: RawSpec, src: &Source, base: &Path, opts: &LoadOptions) -> Resu
     }
 
     let buffers = parse_buffers(raw.buffers.as_ref(), src, width, block, architecture, style)?;
+    let auto_buffers = matches!(&raw.buffers, Some(serde_yaml::Value::String(s)) if s == "auto");
 
     let technology = match &raw.technology {
         None => tech::builtin("generic", opts)?,
@@ -1083,7 +1084,7 @@ fn validate(raw: RawSpec, src: &Source, base: &Path, opts: &LoadOptions) -> Resu
         },
         source: Some((src.label.to_string(), src.text.to_string())),
     };
-    if spec.buffers.auto.is_some() {
+    if auto_buffers {
         let (positions, how) =
             crate::passes::buffers::choose(&spec).map_err(|m| src.error("buffers", m))?;
         spec.buffers.positions = positions;
@@ -1131,15 +1132,7 @@ fn parse_buffers(
                 ));
             }
             // Chosen once the rest of the spec is resolved (see the end of `parse`).
-            return Ok(Buffers {
-                auto: Some(AutoBuffers {
-                    rule: "",
-                    cin_cout_ps: 0.0,
-                    unbuffered_ps: None,
-                    longest_segment: None,
-                }),
-                ..none
-            });
+            return Ok(none);
         }
         Some(v @ serde_yaml::Value::Mapping(_)) => v,
         Some(_) => {

@@ -154,6 +154,7 @@ pub fn render_all(
     design: &Design,
     counts: &summary::Counts,
     timing: std::result::Result<&Estimate, &str>,
+    keepers: Option<&crate::timing::keeper::Report>,
 ) -> Result<Vec<(String, String)>> {
     let estimate = timing.ok();
     // Only the vectors the deck uses are materialised; the Verilog testbench draws the other
@@ -175,7 +176,7 @@ pub fn render_all(
         (format!("{n}_tb.sp"), bench),
         (
             format!("{n}.json"),
-            summary::json(spec, design, counts, &plan, &deck, timing)?,
+            summary::json(spec, design, counts, &plan, &deck, timing, keepers)?,
         ),
     ])
 }

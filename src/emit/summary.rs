@@ -116,6 +116,7 @@ pub fn json(
     plan: &[Labeled],
     deck: &DeckPlan,
     timing: std::result::Result<&Estimate, &str>,
+    keepers: Option<&crate::timing::keeper::Report>,
 ) -> Result<String> {
     let chain = matches!(
         spec.architecture,
@@ -175,9 +176,7 @@ pub fn json(
             Ok(e) => rounded(e)?,
             Err(why) => serde_json::json!({ "none": why }),
         },
-        keepers: crate::timing::keeper::check(spec, design)?
-            .map(|r| rounded(&r))
-            .transpose()?,
+        keepers: keepers.map(rounded).transpose()?,
         cell_sizes: rounded(
             design
                 .cells

@@ -125,6 +125,15 @@ fn label_of(tm: &Timing) -> String {
     )
 }
 
+/// The node a keeper holds (its channel end that is not the supply).
+fn kept_node(g: &Graph, d: &super::engine::Dev) -> u32 {
+    if g.kind[d.a as usize] == NodeKind::Inner {
+        d.a
+    } else {
+        d.b
+    }
+}
+
 /// Does this design have keepers?
 pub fn has_keepers(design: &Design) -> bool {
     design
@@ -156,11 +165,7 @@ pub fn check(spec: &Spec, design: &Design) -> Result<Option<Report>> {
     // Keeper-held nodes, grouped by stage (one stage: one unbroken segment).
     let mut by_stage: Vec<(u32, Vec<u32>)> = vec![];
     for d in g.devs.iter().filter(|d| d.role == Role::Keeper) {
-        let node = if g.kind[d.a as usize] == NodeKind::Inner {
-            d.a
-        } else {
-            d.b
-        };
+        let node = kept_node(&g, d);
         let st = g.stage_of[node as usize];
         match by_stage.iter_mut().find(|(s, _)| *s == st) {
             Some((_, v)) => v.push(node),
@@ -241,11 +246,7 @@ pub fn check(spec: &Spec, design: &Design) -> Result<Option<Report>> {
             leaky_corner = Some(label.clone());
             let lg = Graph::new(&lspec, design, &ltm)?;
             for d in lg.devs.iter().filter(|d| d.role == Role::Keeper) {
-                let node = if lg.kind[d.a as usize] == NodeKind::Inner {
-                    d.a
-                } else {
-                    d.b
-                };
+                let node = kept_node(&lg, d);
                 let r_kohm = ltm.r_p_rise_kohm_um[0] / d.w * (d.l / lg.l_min).max(1.0);
                 // mA from V / kΩ; µA below.
                 let keeper_ua = 0.75 * lspec.technology.vdd / r_kohm * 1e3;
