@@ -124,6 +124,20 @@ pub struct AutoBuffers {
     pub longest_segment: Option<usize>,
 }
 
+/// How `block: auto` chose, for the reports (the block model's worst arrivals, ps).
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct AutoBlocks {
+    pub rule: &'static str,
+    /// The model's worst arrival (any sum or cout) with the chosen sizes.
+    pub worst_ps: f64,
+    /// The best uniform block size in the same model, and its worst arrival.
+    pub best_uniform_block: usize,
+    pub best_uniform_ps: f64,
+    /// Dynamic carry-skip: the longest chain the keeper check lets through, where that
+    /// limited the sizes.
+    pub longest_block: Option<usize>,
+}
+
 /// Device sizes in µm, resolved from the technology defaults and `sizing` overrides.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct Sizing {
@@ -157,16 +171,43 @@ pub struct Spec {
     pub architecture: Architecture,
     pub style: Style,
     pub block: usize,
-    /// Carry-select: the block sizes, least significant first (uniform or square-root).
+    /// Explicit block sizes, least significant first: carry-select (uniform or square-root)
+    /// and `block: auto` (carry-skip, carry-select).
     pub block_sizes: Option<Vec<usize>>,
-    /// How `block` was chosen when the spec said `sqrt`.
+    /// How `block` was chosen when the spec said `sqrt` or `auto`.
     pub block_rule: Option<&'static str>,
+    /// `block: auto`: what the timing engine's block model found (`passes::blocks`).
+    pub block_auto: Option<AutoBlocks>,
     pub buffers: Buffers,
     pub technology: Technology,
     pub sizing: Sizing,
     pub testbench: Testbench,
     /// The spec's label and text, to locate keys in errors found after validation.
     pub source: Option<(String, String)>,
+}
+
+impl Spec {
+    /// Bit ranges [lo, hi) of the blocks, least significant first: the explicit sizes
+    /// (carry-select, `block: auto`) or uniform blocks of `block` bits, the last one shorter
+    /// when `block` does not divide the width.
+    pub fn block_ranges(&self) -> Vec<(usize, usize)> {
+        match &self.block_sizes {
+            Some(sizes) => ranges_of(sizes),
+            None => crate::arch::manchester::blocks(self.width, self.block),
+        }
+    }
+}
+
+/// Bit ranges [lo, hi) of consecutive blocks of the given sizes.
+pub fn ranges_of(sizes: &[usize]) -> Vec<(usize, usize)> {
+    let mut lo = 0;
+    sizes
+        .iter()
+        .map(|&s| {
+            lo += s;
+            (lo - s, lo)
+        })
+        .collect()
 }
 
 pub const MAX_WIDTH: usize = 128;
@@ -901,10 +942,28 @@ fn validate(raw: RawSpec, src: &Source, base: &Path, opts: &LoadOptions) -> Resu
             }
             b as usize
         }
+        Some(serde_yaml::Value::String(t)) if t == "auto" => match architecture {
+            // Chosen once the rest of the spec is known (`passes::blocks`); until then the
+            // closed-form size stands in.
+            Architecture::CarrySkip => {
+                ((width as f64 / 2.0).sqrt().round() as usize).clamp(1, width)
+            }
+            Architecture::CarrySelect => width.min(4),
+            other => {
+                return Err(src.error(
+                    "block",
+                    format!(
+                        "`auto` chooses block sizes for carry-skip and carry-select, not {}",
+                        other.as_str()
+                    ),
+                ))
+            }
+        },
         Some(_) => {
-            return Err(src.error("block", "expected a positive integer or `sqrt`"));
+            return Err(src.error("block", "expected a positive integer, `sqrt` or `auto`"));
         }
     };
+    let auto_blocks = matches!(&raw.block, Some(serde_yaml::Value::String(t)) if t == "auto");
     if architecture == Architecture::CarrySelect && block_sizes.is_none() {
         block_sizes = Some(crate::arch::select::sizes(width, block, false));
     }
@@ -1072,6 +1131,7 @@ fn validate(raw: RawSpec, src: &Source, base: &Path, opts: &LoadOptions) -> Resu
         block,
         block_sizes,
         block_rule,
+        block_auto: None,
         buffers,
         technology,
         sizing,
@@ -1084,6 +1144,17 @@ fn validate(raw: RawSpec, src: &Source, base: &Path, opts: &LoadOptions) -> Resu
         },
         source: Some((src.label.to_string(), src.text.to_string())),
     };
+    if auto_blocks {
+        let (sizes, how) =
+            crate::passes::blocks::choose(&spec).map_err(|m| src.error("block", m))?;
+        spec.block = match architecture {
+            Architecture::CarrySelect => sizes[0],
+            _ => sizes.iter().copied().max().unwrap_or(width),
+        };
+        spec.block_sizes = Some(sizes);
+        spec.block_rule = Some(how.rule);
+        spec.block_auto = Some(how);
+    }
     if auto_buffers {
         let (positions, how) =
             crate::passes::buffers::choose(&spec).map_err(|m| src.error("buffers", m))?;

@@ -425,6 +425,47 @@ fn buffers_auto_places_buffers_or_is_refused() {
     );
 }
 
+/// `block: auto` on carry-skip: generated with the sizes the engine chose (the blocks in
+/// NAME.json sum to the width, `block_auto` says how and against which uniform block) and
+/// printed by `describe`; refused (exit 2, key and line) where blocks have no sizes to choose.
+#[test]
+fn block_auto_chooses_sizes_or_is_refused() {
+    let sb = Sandbox::with_spec("name: t24\nwidth: 24\narchitecture: carry-skip\nblock: auto\n");
+    let run = sb.run(&["generate", "spec.yaml", "-o", "out"]);
+    assert_eq!(run.code, Some(0), "{}", run.describe());
+    let json: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(sb.dir.path().join("out/t24.json")).unwrap())
+            .unwrap();
+    let bits: u64 = json["blocks"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|b| b["bits"].as_u64().unwrap())
+        .sum();
+    assert_eq!(bits, 24, "{}", json["blocks"]);
+    let a = &json["block_auto"];
+    assert!(
+        a["rule"].as_str().unwrap().contains("dynamic programming"),
+        "{a}"
+    );
+    assert!(
+        a["worst_ps"].as_f64().unwrap() <= a["best_uniform_ps"].as_f64().unwrap(),
+        "{a}"
+    );
+    let d = sb.run(&["describe", "spec.yaml"]);
+    assert!(
+        d.stdout.contains("block sizes") && d.stdout.contains("best uniform block"),
+        "{}",
+        d.stdout
+    );
+    refuse(
+        "name: t8\nwidth: 8\narchitecture: ripple\nblock: auto\n",
+        "block",
+        4,
+        &["auto", "carry-skip"],
+    );
+}
+
 // ---------------------------------------------------------------------------------------
 // Refused specs: architecture and style
 // ---------------------------------------------------------------------------------------

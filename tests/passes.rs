@@ -167,3 +167,120 @@ fn auto_is_refused_where_it_does_not_apply() {
         "{hot}"
     );
 }
+
+// ---- block: auto (passes::blocks) ----
+
+use carrywright::passes::blocks;
+
+fn adder(width: usize, arch: &str, style: &str, block: &str, tech: &str) -> String {
+    format!("name: add{width}\nwidth: {width}\narchitecture: {arch}\nstyle: {style}\nblock: {block}\ntechnology: {tech}\ntestbench: {{load: 20f}}\n")
+}
+
+/// Every composition of `w` into parts of at most `max_k`.
+fn compositions(w: usize, max_k: usize) -> Vec<Vec<usize>> {
+    if w == 0 {
+        return vec![vec![]];
+    }
+    let mut out = vec![];
+    for k in 1..=max_k.min(w) {
+        for mut rest in compositions(w - k, max_k) {
+            rest.insert(0, k);
+            out.push(rest);
+        }
+    }
+    out
+}
+
+/// The dynamic programme is exact for its block model: on the engine's own tables, no
+/// composition of the word (all 2^(w-1) of them, w = 10 and 12) has a smaller worst arrival
+/// than the one it returns, and that arrival is the model's figure for its sizes.
+#[test]
+fn block_dp_is_exact_for_the_block_model() {
+    for (arch, style, w) in [
+        ("carry-skip", "static", 10usize),
+        ("carry-skip", "dynamic", 12),
+        ("carry-select", "static", 12),
+    ] {
+        let s = parse(&adder(w, arch, style, "2", "gf180mcu-3v3")).unwrap();
+        let c = blocks::costs(&s, w).unwrap();
+        let (sizes, t) = blocks::best_sizes(&c, w).unwrap();
+        assert_eq!(sizes.iter().sum::<usize>(), w);
+        assert!((blocks::model_worst(&c, &sizes).unwrap() - t).abs() < 1e-6);
+        let brute = compositions(w, w)
+            .iter()
+            .filter_map(|v| blocks::model_worst(&c, v))
+            .fold(f64::INFINITY, f64::min);
+        assert!(
+            (brute - t).abs() < 1e-6,
+            "{arch} {style} {w}: DP {t} ps, every composition {brute} ps"
+        );
+    }
+}
+
+/// Variable blocks beat uniform ones: single-level carry-skip with blocks small at both ends
+/// and larger in the middle (Oklobdzija & Barnes, ARITH-7, 1985; Guyot, Hochet & Muller,
+/// IEEE Trans. Computers C-36(10), 1987), carry-select with growing blocks (Rabaey et al.,
+/// ch. 11; from memory). Checked with the full worst-path estimate (not the block model)
+/// against every uniform block size and, for carry-select, square-root blocks.
+#[test]
+fn block_auto_beats_every_uniform_block_in_the_engine() {
+    let worst = |yaml: &str| {
+        let s = parse(yaml).unwrap();
+        let d = carrywright::build(&s).unwrap();
+        (
+            carrywright::timing::search::estimate(&s, &d)
+                .unwrap()
+                .worst_ps,
+            s,
+        )
+    };
+    for (arch, style, w, tech) in [
+        ("carry-skip", "static", 32usize, "gf180mcu-3v3"),
+        ("carry-skip", "static", 64, "gf180mcu-3v3"),
+        ("carry-skip", "dynamic", 32, "gf180mcu-3v3"),
+        ("carry-skip", "static", 32, "sky130-1v8"),
+        ("carry-select", "static", 32, "gf180mcu-3v3"),
+        ("carry-select", "static", 64, "gf180mcu-3v3"),
+    ] {
+        let (auto, s) = worst(&adder(w, arch, style, "auto", tech));
+        let sizes = s.block_sizes.clone().unwrap();
+        assert_eq!(sizes.iter().sum::<usize>(), w);
+        let mut others: Vec<(String, f64)> = (2..=8)
+            .map(|k| {
+                (
+                    k.to_string(),
+                    worst(&adder(w, arch, style, &k.to_string(), tech)).0,
+                )
+            })
+            .collect();
+        if arch == "carry-select" {
+            others.push(("sqrt".into(), worst(&adder(w, arch, style, "sqrt", tech)).0));
+        }
+        for (b, t) in &others {
+            assert!(
+                auto < *t,
+                "{arch} {style} {w} {tech}: auto {sizes:?} {auto} ps, block {b} {t} ps"
+            );
+        }
+        let big = *sizes.iter().max().unwrap();
+        if arch == "carry-skip" {
+            assert!(
+                sizes[0] < big && sizes[sizes.len() - 1] < big,
+                "{arch} {w}: {sizes:?} is not small at the ends"
+            );
+        } else {
+            // Carry-select: the last block is the largest.
+            assert_eq!(sizes[sizes.len() - 1], big, "{w}: {sizes:?}");
+        }
+        let a = s.block_auto.as_ref().unwrap();
+        assert!(a.worst_ps <= a.best_uniform_ps, "{a:?}");
+    }
+}
+
+/// `block: auto` only where blocks have sizes to choose.
+#[test]
+fn block_auto_is_refused_where_it_does_not_apply() {
+    let e = parse(&adder(16, "manchester", "static", "auto", "generic")).unwrap_err();
+    let m = e.to_string();
+    assert!(m.contains("block") && m.contains("carry-skip"), "{m}");
+}

@@ -123,7 +123,7 @@ pub fn build(spec: &Spec, lib: &Library, dynamic: bool) -> Design {
     } else {
         t.cin
     };
-    let blocks = super::manchester::blocks(spec.width, spec.block);
+    let blocks = spec.block_ranges();
     for (k, &(lo, hi)) in blocks.iter().enumerate() {
         let size = hi - lo;
         let master = *made.entry(size).or_insert_with(|| {

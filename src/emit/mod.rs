@@ -123,7 +123,10 @@ pub fn title(spec: &Spec) -> String {
                 ));
             }
         }
-        A::CarrySkip => t.push_str(&format!(", block {}{rule}", spec.block)),
+        A::CarrySkip => match &spec.block_sizes {
+            Some(sizes) => t.push_str(&format!(", blocks {}{rule}", itertools::join(sizes, "-"))),
+            None => t.push_str(&format!(", block {}{rule}", spec.block)),
+        },
         A::CarrySelect => t.push_str(&format!(
             ", blocks {}{rule}",
             itertools::join(spec.block_sizes.as_deref().unwrap_or(&[]), "-")

@@ -28,7 +28,9 @@ pub fn table(spec: &Spec, design: &Design) -> String {
             c.topological_depth_stages
         ),
     );
-    if let Some(rule) = spec.block_rule {
+    if let Some(a) = &spec.block_auto {
+        row(&mut out, "block chosen", a.rule.to_string());
+    } else if let Some(rule) = spec.block_rule {
         row(
             &mut out,
             "block chosen",
@@ -36,7 +38,20 @@ pub fn table(spec: &Spec, design: &Design) -> String {
         );
     }
     if let Some(sizes) = &spec.block_sizes {
-        row(&mut out, "block sizes", itertools::join(sizes, "-"));
+        let mut t = itertools::join(sizes, "-");
+        if let Some(a) = &spec.block_auto {
+            t.push_str(&format!(
+                " (the block model's worst {:.1} ps; the best uniform block, {}, {:.1} ps{})",
+                a.worst_ps,
+                a.best_uniform_block,
+                a.best_uniform_ps,
+                match a.longest_block {
+                    Some(n) => format!("; the keeper check allows {n}-bit blocks"),
+                    None => String::new(),
+                }
+            ));
+        }
+        row(&mut out, "block sizes", t);
     }
     if !spec.buffers.positions.is_empty() {
         let mut at = itertools::join(&spec.buffers.positions, ",");
@@ -712,19 +727,7 @@ fn chain_drawing(spec: &Spec, s: &mut Svg) {
     let dynamic = spec.style == Style::Dynamic;
     let ranges: Vec<(usize, usize)> = match arch {
         A::Ripple => (0..n).map(|i| (i, i + 1)).collect(),
-        A::CarrySelect => {
-            let mut lo = 0;
-            spec.block_sizes
-                .clone()
-                .unwrap_or_default()
-                .iter()
-                .map(|sz| {
-                    lo += sz;
-                    (lo - sz, lo)
-                })
-                .collect()
-        }
-        _ => crate::arch::manchester::blocks(n, spec.block),
+        _ => spec.block_ranges(),
     };
     let buffered = |p: usize| arch == A::Manchester && spec.buffers.positions.contains(&p);
     let inverting = dynamic || spec.buffers.inverting;

@@ -389,8 +389,9 @@ pub fn default_period(spec: &Spec) -> f64 {
             0.025 * ns * longest * longest + 0.15 * ns * (cuts.len() - 1) as f64 + 1.0 * ns
         }
         Architecture::CarrySkip => {
-            let m = spec.block as f64;
-            0.025 * ns * m * m + 0.3 * ns * (w / m).ceil() + 1.0 * ns
+            let r = spec.block_ranges();
+            let m = r.iter().map(|(l, h)| h - l).max().unwrap_or(spec.width) as f64;
+            0.025 * ns * m * m + 0.3 * ns * r.len() as f64 + 1.0 * ns
         }
         Architecture::CarrySelect => {
             let sizes = spec.block_sizes.clone().unwrap_or_default();

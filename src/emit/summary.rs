@@ -5,7 +5,6 @@ use super::spice::DeckPlan;
 use super::vectors::Labeled;
 use super::verilog::TB_EXHAUSTIVE_MAX;
 use super::VERSION;
-use crate::arch::manchester::blocks;
 use crate::error::{Error, Result};
 use crate::netlist::{Design, Master};
 use crate::spec::{Architecture, Spec, Style};
@@ -78,6 +77,8 @@ struct Summary<'a> {
     #[serde(skip_serializing_if = "Option::is_none")]
     block_rule: Option<&'static str>,
     #[serde(skip_serializing_if = "Option::is_none")]
+    block_auto: Option<&'a crate::spec::AutoBlocks>,
+    #[serde(skip_serializing_if = "Option::is_none")]
     blocks_note: Option<&'static str>,
     blocks: Vec<BlockOut>,
     #[serde(skip_serializing_if = "Option::is_none")]
@@ -136,18 +137,13 @@ pub fn json(
         style: spec.style,
         block: (spec.architecture != Architecture::Ripple).then_some(spec.block),
         block_rule: spec.block_rule,
+        block_auto: spec.block_auto.as_ref(),
         blocks_note: None,
-        blocks: if chain || spec.architecture == Architecture::Lookahead {
-            blocks(spec.width, spec.block)
-        } else if let Some(sizes) = &spec.block_sizes {
-            let mut lo = 0;
-            sizes
-                .iter()
-                .map(|s| {
-                    lo += s;
-                    (lo - s, lo)
-                })
-                .collect()
+        blocks: if chain
+            || spec.architecture == Architecture::Lookahead
+            || spec.block_sizes.is_some()
+        {
+            spec.block_ranges()
         } else {
             vec![]
         }

@@ -2,4 +2,5 @@
 //! spec as the user wrote it (other keys resolved) and returns what the builders need;
 //! builders stay free of timing, and views never re-derive the choice.
 
+pub mod blocks;
 pub mod buffers;

@@ -297,7 +297,7 @@ pub fn dynamic_chains(spec: &Spec) -> Vec<(usize, usize)> {
             cuts.push(spec.width);
             cuts.windows(2).map(|w| (w[0], w[1])).collect()
         }
-        Architecture::CarrySkip => crate::arch::manchester::blocks(spec.width, spec.block),
+        Architecture::CarrySkip => spec.block_ranges(),
         _ => vec![],
     }
 }
