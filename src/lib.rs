@@ -45,6 +45,19 @@ pub fn build_checked(spec: &Spec) -> Result<(Design, Option<timing::keeper::Repo
     design.check()?;
     // Keepers that fail (a front that stalls or does not fit the evaluate phase at the slow
     // corner, a node they cannot hold against leakage) are a spec problem: exit 2.
+    if let (Some(limit), Some(_)) = (spec.sizing.input_cap, &spec.technology.timing) {
+        let (c, input) = passes::sizing::largest_input_cap(spec, &design)?;
+        if c > limit * 1e15 + 1e-9 {
+            let msg = format!(
+                "input {input} presents {c:.2} fF in the timing engine's model, above the limit {:.2} fF: lower unit_n or the role multipliers, or use sizing: {{mode: auto}}",
+                limit * 1e15
+            );
+            return Err(match &spec.source {
+                Some((label, text)) => spec::Source { label, text }.error("sizing.input_cap", msg),
+                None => Error::Input(format!("sizing.input_cap: {msg}")),
+            });
+        }
+    }
     let keepers = timing::keeper::check(spec, &design)?;
     if let Some(why) = keepers.as_ref().and_then(|r| r.failure.as_ref()) {
         return Err(timing::keeper::refusal(spec, why)?);
@@ -54,7 +67,7 @@ pub fn build_checked(spec: &Spec) -> Result<(Design, Option<timing::keeper::Repo
 
 /// Every device is at least the technology's smallest width and length, and of a size a
 /// process can draw (bad `sizing` values are input errors, exit 2).
-fn check_sizes(spec: &Spec, design: &Design) -> Result<()> {
+pub fn check_sizes(spec: &Spec, design: &Design) -> Result<()> {
     let t = &spec.technology;
     for cell in design.cells.values() {
         for d in &cell.devices {

@@ -111,6 +111,26 @@ pub struct Buffers {
     pub auto: Option<AutoBuffers>,
 }
 
+impl Sizing {
+    /// The default sizes on a unit width and P/N ratio: keeper 0.1, buffers 2×, every role
+    /// multiplier 1, no input limit.
+    pub fn with_unit(unit_n: f64, pn_ratio: f64) -> Sizing {
+        Sizing {
+            unit_n,
+            pn_ratio,
+            keeper: 0.1,
+            buffer: 2.0,
+            pass: 1.0,
+            generate: 1.0,
+            precharge: 1.0,
+            output: 1.0,
+            carry: 1.0,
+            input_cap: None,
+            auto: None,
+        }
+    }
+}
+
 /// How `buffers: auto` chose, for the reports.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct AutoBuffers {
@@ -149,6 +169,38 @@ pub struct Sizing {
     pub keeper: f64,
     /// Drive multiplier of carry-path buffers and drivers.
     pub buffer: f64,
+    /// Role multipliers on the cells' own widths: carry-path pass devices (and dynamic chain
+    /// starts), generate/kill devices (and footers) of chain cells, precharge devices, and
+    /// the output inverter of every sum.
+    pub pass: f64,
+    pub generate: f64,
+    pub precharge: f64,
+    pub output: f64,
+    /// Prefix cells (grey, black) as a whole and the full adder's carry half.
+    pub carry: f64,
+    /// The most capacitance any one input (a, b, cin) may present, farads.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub input_cap: Option<f64>,
+    /// `sizing: auto`: what the search chose (`passes::sizing`).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub auto: Option<AutoSizing>,
+}
+
+/// How `sizing: auto` chose, for the reports.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct AutoSizing {
+    pub rule: &'static str,
+    /// The engine's worst path and total device width with the default sizes and with the
+    /// chosen ones.
+    pub default_worst_ps: f64,
+    pub worst_ps: f64,
+    pub default_width_um: f64,
+    pub width_um: f64,
+    /// The limits the search kept: total width (µm) and the largest input capacitance (fF).
+    pub width_limit_um: f64,
+    pub input_cap_limit_ff: f64,
+    /// Designs the search estimated.
+    pub evaluated: usize,
 }
 
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
@@ -230,7 +282,7 @@ struct RawSpec {
     #[serde(default)]
     conditions: Option<tech::RawConditions>,
     #[serde(default)]
-    sizing: Option<RawSizing>,
+    sizing: Option<SizingKey>,
     #[serde(default)]
     testbench: Option<RawTestbench>,
 }
@@ -238,10 +290,50 @@ struct RawSpec {
 #[derive(Deserialize, Default)]
 #[serde(deny_unknown_fields)]
 struct RawSizing {
+    mode: Option<String>,
     unit_n: Option<Written>,
     pn_ratio: Option<Written>,
     keeper: Option<Written>,
     buffer: Option<Written>,
+    pass: Option<Written>,
+    generate: Option<Written>,
+    precharge: Option<Written>,
+    output: Option<Written>,
+    carry: Option<Written>,
+    input_cap: Option<Written>,
+}
+
+/// `sizing:` as written: `auto`, or a mapping of sizes.
+enum SizingKey {
+    Auto,
+    Sizes(Box<RawSizing>),
+}
+
+impl<'de> Deserialize<'de> for SizingKey {
+    fn deserialize<D: serde::Deserializer<'de>>(d: D) -> std::result::Result<Self, D::Error> {
+        struct V;
+        impl<'de> serde::de::Visitor<'de> for V {
+            type Value = SizingKey;
+            fn expecting(&self, f: &mut std::fmt::Formatter) -> std::fmt::Result {
+                f.write_str("auto or a mapping of sizes")
+            }
+            fn visit_str<E: serde::de::Error>(self, v: &str) -> std::result::Result<SizingKey, E> {
+                if v == "auto" {
+                    Ok(SizingKey::Auto)
+                } else {
+                    Err(E::invalid_value(serde::de::Unexpected::Str(v), &self))
+                }
+            }
+            fn visit_map<M: serde::de::MapAccess<'de>>(
+                self,
+                m: M,
+            ) -> std::result::Result<SizingKey, M::Error> {
+                RawSizing::deserialize(serde::de::value::MapAccessDeserializer::new(m))
+                    .map(|r| SizingKey::Sizes(Box::new(r)))
+            }
+        }
+        d.deserialize_any(V)
+    }
 }
 
 /// A number or quantity as written in the spec. Kept as text so that a value the machine
@@ -1016,18 +1108,48 @@ fn validate(raw: RawSpec, src: &Source, base: &Path, opts: &LoadOptions) -> Resu
             .map_err(|(k, m)| src.error(&format!("conditions.{k}"), m))?;
     }
 
-    let rs = raw.sizing.unwrap_or_default();
+    let rs: RawSizing = match raw.sizing {
+        None => RawSizing::default(),
+        Some(SizingKey::Auto) => RawSizing {
+            mode: Some("auto".into()),
+            ..RawSizing::default()
+        },
+        Some(SizingKey::Sizes(r)) => *r,
+    };
+    let auto_sizing = match rs.mode.as_deref() {
+        None | Some("manual") => false,
+        Some("auto") => true,
+        Some(other) => {
+            return Err(src.error(
+                "sizing.mode",
+                format!("expected auto or manual, got `{}`", printable(other)),
+            ))
+        }
+    };
     let number = |key: &str, v: &Option<Written>, default: f64| -> Result<f64> {
         match v {
             None => Ok(default),
             Some(w) => read_number(&w.0).map_err(|m| src.error(&format!("sizing.{key}"), m)),
         }
     };
+    let d = Sizing::with_unit(technology.unit_n, technology.pn_ratio);
     let sizing = Sizing {
-        unit_n: number("unit_n", &rs.unit_n, technology.unit_n)?,
-        pn_ratio: number("pn_ratio", &rs.pn_ratio, technology.pn_ratio)?,
-        keeper: number("keeper", &rs.keeper, 0.1)?,
-        buffer: number("buffer", &rs.buffer, 2.0)?,
+        unit_n: number("unit_n", &rs.unit_n, d.unit_n)?,
+        pn_ratio: number("pn_ratio", &rs.pn_ratio, d.pn_ratio)?,
+        keeper: number("keeper", &rs.keeper, d.keeper)?,
+        buffer: number("buffer", &rs.buffer, d.buffer)?,
+        pass: number("pass", &rs.pass, d.pass)?,
+        generate: number("generate", &rs.generate, d.generate)?,
+        precharge: number("precharge", &rs.precharge, d.precharge)?,
+        output: number("output", &rs.output, d.output)?,
+        carry: number("carry", &rs.carry, d.carry)?,
+        input_cap: match &rs.input_cap {
+            None => None,
+            Some(w) => {
+                Some(parse_quantity_text(&w.0, 'F').map_err(|m| src.error("sizing.input_cap", m))?)
+            }
+        },
+        auto: None,
     };
     let in_range = |key: &str, v: f64, lo: f64, hi: f64| -> Result<()> {
         if !v.is_finite() || v < lo || v > hi {
@@ -1046,6 +1168,32 @@ fn validate(raw: RawSpec, src: &Source, base: &Path, opts: &LoadOptions) -> Resu
         in_range("keeper", sizing.keeper, 0.02, 0.9)?;
     }
     in_range("buffer", sizing.buffer, 1.0, 32.0)?;
+    for (key, v) in [
+        ("pass", sizing.pass),
+        ("generate", sizing.generate),
+        ("precharge", sizing.precharge),
+        ("output", sizing.output),
+        ("carry", sizing.carry),
+    ] {
+        in_range(key, v, 0.25, 16.0)?;
+    }
+    if let Some(c) = sizing.input_cap {
+        if !(c > 0.0 && c <= 1e-9) {
+            return Err(src.error(
+                "sizing.input_cap",
+                format!(
+                    "must be above 0 and at most 1n (farads), got {}",
+                    short_num(c)
+                ),
+            ));
+        }
+    }
+    if rs.precharge.is_some() && style == Style::Static {
+        return Err(src.error(
+            "sizing.precharge",
+            "precharge devices belong to dynamic chains; this spec is static",
+        ));
+    }
     if rs.keeper.is_some() && style == Style::Static {
         return Err(src.error(
             "sizing.keeper",
@@ -1160,6 +1308,9 @@ fn validate(raw: RawSpec, src: &Source, base: &Path, opts: &LoadOptions) -> Resu
             crate::passes::buffers::choose(&spec).map_err(|m| src.error("buffers", m))?;
         spec.buffers.positions = positions;
         spec.buffers.auto = Some(how);
+    }
+    if auto_sizing {
+        spec.sizing = crate::passes::sizing::choose(&spec).map_err(|m| src.error("sizing", m))?;
     }
     Ok(spec)
 }

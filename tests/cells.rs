@@ -8,12 +8,7 @@ use carrywright::tech;
 
 fn library() -> Library {
     let t = tech::builtin("generic", &Default::default()).unwrap();
-    let sizing = Sizing {
-        unit_n: t.unit_n,
-        pn_ratio: t.pn_ratio,
-        keeper: 0.1,
-        buffer: 2.0,
-    };
+    let sizing = Sizing::with_unit(t.unit_n, t.pn_ratio);
     Library::new(Sizes::new(&t, &sizing))
 }
 
@@ -54,4 +49,47 @@ fn a_miswired_schematic_is_caught() {
         }
     }
     assert!(switch::verify(&cell).is_err());
+}
+
+/// Each role multiplier scales its role's devices and nothing else: `pass` the carry-path
+/// pass devices, `output` the sum's output inverter, `carry` a prefix cell as a whole.
+#[test]
+fn role_multipliers_scale_their_devices_only() {
+    let t = tech::builtin("generic", &Default::default()).unwrap();
+    let base = Sizing::with_unit(t.unit_n, t.pn_ratio);
+    let widths = |s: &Sizing, k: CellKind| -> Vec<(String, f64)> {
+        Library::new(Sizes::new(&t, s))
+            .cell(k)
+            .devices
+            .iter()
+            .map(|d| (d.name.clone(), d.w))
+            .collect()
+    };
+    let cases: [(&str, fn(&mut Sizing), CellKind, fn(&str) -> bool); 3] = [
+        (
+            "pass",
+            |s| s.pass = 2.0,
+            CellKind::ChainDynamic,
+            |n| n == "mn_p",
+        ),
+        (
+            "output",
+            |s| s.output = 2.0,
+            CellKind::SumInverted,
+            |n| n.ends_with("_s"),
+        ),
+        ("carry", |s| s.carry = 2.0, CellKind::Grey, |_| true),
+    ];
+    for (name, set, kind, scaled) in cases {
+        let mut s = base.clone();
+        set(&mut s);
+        let (w0, w1) = (widths(&base, kind), widths(&s, kind));
+        let mut changed = 0;
+        for ((n, a), (_, b)) in w0.iter().zip(&w1) {
+            let want = if scaled(n) { 2.0 * a } else { *a };
+            assert!((b - want).abs() < 1e-3, "{name}: {n} {a} -> {b}");
+            changed += usize::from(scaled(n));
+        }
+        assert!(changed > 0, "{name}: no device scaled");
+    }
 }

@@ -284,3 +284,80 @@ fn block_auto_is_refused_where_it_does_not_apply() {
     let m = e.to_string();
     assert!(m.contains("block") && m.contains("carry-skip"), "{m}");
 }
+
+// ---- sizing: auto (passes::sizing) ----
+
+fn sized(width: usize, arch: &str, style: &str, extra: &str, sizing: &str) -> String {
+    format!("name: sz{width}\nwidth: {width}\narchitecture: {arch}\nstyle: {style}\n{extra}technology: gf180mcu-3v3\nsizing: {sizing}\ntestbench: {{load: 50f}}\n")
+}
+
+fn estimate_of(s: &Spec) -> carrywright::timing::search::Estimate {
+    let d = carrywright::build(s).unwrap();
+    carrywright::timing::search::estimate(s, &d).unwrap()
+}
+
+fn largest_input(e: &carrywright::timing::search::Estimate) -> f64 {
+    e.input_cap_ff
+        .0
+        .iter()
+        .filter(|(n, _)| n != "clk")
+        .filter_map(|(_, c)| *c)
+        .fold(0.0, f64::max)
+}
+
+/// `sizing: auto` keeps its promises, checked with the full estimate (not the search's own
+/// figures): a faster worst path than the default sizes at no more total width and no
+/// larger input, for a 50 fF load, at 32 bits in both Manchester styles and for ripple; and
+/// with `input_cap` set, no input above it. (Method: logical-effort sizing trades input
+/// load for speed, Sutherland, Sproull & Harris 1999; the limits are the issue's.)
+#[test]
+fn sizing_auto_is_faster_within_its_limits() {
+    let every4 = "block: 4\nbuffers: {every: 4}\n";
+    for (arch, style, extra) in [
+        ("manchester", "static", every4),
+        ("manchester", "dynamic", every4),
+        ("ripple", "static", ""),
+    ] {
+        let d = parse(&sized(32, arch, style, extra, "{}")).unwrap();
+        let a = parse(&sized(32, arch, style, extra, "auto")).unwrap();
+        let (ed, ea) = (estimate_of(&d), estimate_of(&a));
+        assert!(
+            ea.worst_ps < 0.95 * ed.worst_ps,
+            "{arch} {style}: auto {} ps, default {} ps",
+            ea.worst_ps,
+            ed.worst_ps
+        );
+        assert!(
+            ea.total_width_um <= ed.total_width_um + 0.01,
+            "{arch} {style}: width"
+        );
+        assert!(
+            largest_input(&ea) <= largest_input(&ed) + 0.01,
+            "{arch} {style}: input"
+        );
+        let r = a.sizing.auto.as_ref().unwrap();
+        assert!((r.worst_ps - ea.worst_ps).abs() < 0.05, "{r:?}");
+        assert!((r.default_worst_ps - ed.worst_ps).abs() < 0.05, "{r:?}");
+    }
+    // An input limit below the default's largest input (24.7 fF for the PG cell's inputs
+    // here) is kept.
+    let a = parse(&sized(
+        16,
+        "manchester",
+        "static",
+        every4,
+        "{mode: auto, input_cap: 15f}",
+    ))
+    .unwrap();
+    let ea = estimate_of(&a);
+    assert!(largest_input(&ea) <= 15.0 + 0.01, "{}", largest_input(&ea));
+}
+
+/// Manual sizes are checked against `sizing.input_cap` too: exit 2 naming the key.
+#[test]
+fn input_cap_refuses_manual_sizes_that_load_the_inputs_more() {
+    let s = parse(&sized(8, "ripple", "static", "", "{input_cap: 5f}")).unwrap();
+    let e = carrywright::build(&s).unwrap_err();
+    assert_eq!(e.exit_code(), 2, "{e}");
+    assert!(e.to_string().contains("sizing.input_cap"), "{e}");
+}

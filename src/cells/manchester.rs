@@ -145,13 +145,13 @@ pub fn chain_static(s: &Sizes, true_carry: bool) -> Cell {
     let mut sch = Schematic::new(s);
     let (g_pin, k_pin) = if true_carry { ("gn", "k") } else { ("g", "kn") };
     if true_carry {
-        sch.p("g", "co", "gn", "vdd", 1.0, Role::Logic);
-        sch.n("k", "co", "k", "vss", 1.0, Role::Logic);
+        sch.p("g", "co", "gn", "vdd", s.generate, Role::Logic);
+        sch.n("k", "co", "k", "vss", s.generate, Role::Logic);
     } else {
-        sch.n("g", "co", "g", "vss", 1.0, Role::Logic);
-        sch.p("k", "co", "kn", "vdd", 1.0, Role::Logic);
+        sch.n("g", "co", "g", "vss", s.generate, Role::Logic);
+        sch.p("k", "co", "kn", "vdd", s.generate, Role::Logic);
     }
-    sch.tg("p", "ci", "co", "p", "pn", 1.0);
+    sch.tg("p", "ci", "co", "p", "pn", s.pass);
     let (ci, gx, kx, p, pn) = (v(0), v(1), v(2), v(3), v(4));
     // Where the gate passes (either device on) the node follows ci; otherwise the
     // generate/kill device sets it. Both forms reduce to ~(gx·kx) on their legal inputs.
@@ -205,7 +205,8 @@ pub const PASS: f64 = 2.0;
 pub const START: f64 = 2.0 * PASS;
 
 fn precharge_and_keeper(sch: &mut Schematic, node: &str, keeper: bool, footer: f64) {
-    sch.p("pre", node, "clk", "vdd", 0.5, Role::Precharge);
+    let pre = 0.5 * sch.sizes.precharge;
+    sch.p("pre", node, "clk", "vdd", pre, Role::Precharge);
     sch.n("f", "f", "clk", "vss", footer, Role::Footer);
     if keeper {
         // Gate `kb`: the node's complement, made by the node's reader.
@@ -217,9 +218,9 @@ fn precharge_and_keeper(sch: &mut Schematic, node: &str, keeper: bool, footer: f
 /// evaluate a generate discharges it through the footer, a propagate passes the previous node.
 pub fn chain_dynamic(s: &Sizes, keeper: bool) -> Cell {
     let mut sch = Schematic::new(s);
-    precharge_and_keeper(&mut sch, "co", keeper, PASS);
-    sch.n("g", "co", "g", "f", PASS, Role::Logic);
-    sch.n("p", "ci", "p", "co", PASS, Role::Pass);
+    precharge_and_keeper(&mut sch, "co", keeper, PASS * s.generate);
+    sch.n("g", "co", "g", "f", PASS * s.generate, Role::Logic);
+    sch.n("p", "ci", "p", "co", PASS * s.pass, Role::Pass);
     let (clk, ci, g, p) = (v(0), v(1), v(2), v(3));
     let eval = not(or(vec![g.clone(), and(vec![p.clone(), not(ci)])]));
     let mut list = vec![
@@ -258,8 +259,8 @@ pub fn chain_dynamic(s: &Sizes, keeper: bool) -> Cell {
 /// carry-in, or the domino inverter's output at a buffered block boundary.
 pub fn dynamic_start(s: &Sizes, keeper: bool) -> Cell {
     let mut sch = Schematic::new(s);
-    precharge_and_keeper(&mut sch, "co", keeper, START);
-    sch.n("x", "co", "x", "f", START, Role::Logic);
+    precharge_and_keeper(&mut sch, "co", keeper, START * s.pass);
+    sch.n("x", "co", "x", "f", START * s.pass, Role::Logic);
     let (clk, x) = (v(0), v(1));
     let mut list = vec![("clk", In, false), ("x", In, false)];
     if keeper {
@@ -309,7 +310,7 @@ pub fn sum(s: &Sizes, true_carry: bool, tap: bool) -> Cell {
     let (when_p, when_q) = if true_carry { ("y", "x") } else { ("x", "y") };
     sch.tg("a", when_p, "sn", "p", "q", 1.0);
     sch.tg("b", when_q, "sn", "q", "p", 1.0);
-    sch.inv("s", "sn", "s", 1.0);
+    sch.inv("s", "sn", "s", s.output);
     let (p, ci) = (v(0), v(1));
     let f = if true_carry {
         xor(vec![p, ci.clone()])

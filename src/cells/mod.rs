@@ -216,6 +216,15 @@ pub struct Sizes {
     /// Keeper width and length (strength = keeper fraction of a unit NMOS); None: no keeper.
     pub keeper: Option<(f64, f64)>,
     pub buffer: f64,
+    /// Role multipliers (`sizing.pass`, `.generate`, `.precharge`, `.output`): carry-path
+    /// pass devices and chain starts; generate/kill devices and footers of chain cells;
+    /// precharge devices; the output inverter of every sum.
+    pub pass: f64,
+    pub generate: f64,
+    pub precharge: f64,
+    pub output: f64,
+    /// Prefix cells (grey, black) as a whole and the full adder's carry half.
+    pub carry: f64,
 }
 
 impl Sizes {
@@ -242,6 +251,11 @@ impl Sizes {
             p: round3(sizing.unit_n * sizing.pn_ratio),
             keeper,
             buffer: sizing.buffer,
+            pass: sizing.pass,
+            generate: sizing.generate,
+            precharge: sizing.precharge,
+            output: sizing.output,
+            carry: sizing.carry,
         }
     }
 }
@@ -254,13 +268,19 @@ fn round3(x: f64) -> f64 {
 pub struct Schematic<'a> {
     pub sizes: &'a Sizes,
     pub devices: Vec<Device>,
+    /// Every width below is multiplied by this (a cell sized as a whole by its role).
+    pub scale: f64,
 }
 
 impl<'a> Schematic<'a> {
     pub fn new(sizes: &'a Sizes) -> Self {
+        Self::scaled(sizes, 1.0)
+    }
+    pub fn scaled(sizes: &'a Sizes, scale: f64) -> Self {
         Schematic {
             sizes,
             devices: vec![],
+            scale,
         }
     }
     #[allow(clippy::too_many_arguments)]
@@ -285,7 +305,7 @@ impl<'a> Schematic<'a> {
             d: d.into(),
             g: g.into(),
             s: s.into(),
-            w: round3(w),
+            w: round3(w * self.scale),
             l,
             role,
         });

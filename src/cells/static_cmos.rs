@@ -44,16 +44,16 @@ pub fn buf(s: &Sizes) -> Cell {
 pub fn mirror_full_adder(s: &Sizes) -> Cell {
     let mut sch = Schematic::new(s);
     // Carry core: con = ~(a·b + ci·(a + b)).
-    sch.n("c_ci", "con", "ci", "cn1", 2.0, Role::Logic);
-    sch.n("c_a1", "cn1", "a", "vss", 2.0, Role::Logic);
-    sch.n("c_b1", "cn1", "b", "vss", 2.0, Role::Logic);
-    sch.n("c_a2", "con", "a", "cn2", 2.0, Role::Logic);
-    sch.n("c_b2", "cn2", "b", "vss", 2.0, Role::Logic);
-    sch.p("c_ci", "con", "ci", "cp1", 2.0, Role::Logic);
-    sch.p("c_a1", "cp1", "a", "vdd", 2.0, Role::Logic);
-    sch.p("c_b1", "cp1", "b", "vdd", 2.0, Role::Logic);
-    sch.p("c_a2", "con", "a", "cp2", 2.0, Role::Logic);
-    sch.p("c_b2", "cp2", "b", "vdd", 2.0, Role::Logic);
+    sch.n("c_ci", "con", "ci", "cn1", 2.0 * s.carry, Role::Logic);
+    sch.n("c_a1", "cn1", "a", "vss", 2.0 * s.carry, Role::Logic);
+    sch.n("c_b1", "cn1", "b", "vss", 2.0 * s.carry, Role::Logic);
+    sch.n("c_a2", "con", "a", "cn2", 2.0 * s.carry, Role::Logic);
+    sch.n("c_b2", "cn2", "b", "vss", 2.0 * s.carry, Role::Logic);
+    sch.p("c_ci", "con", "ci", "cp1", 2.0 * s.carry, Role::Logic);
+    sch.p("c_a1", "cp1", "a", "vdd", 2.0 * s.carry, Role::Logic);
+    sch.p("c_b1", "cp1", "b", "vdd", 2.0 * s.carry, Role::Logic);
+    sch.p("c_a2", "con", "a", "cp2", 2.0 * s.carry, Role::Logic);
+    sch.p("c_b2", "cp2", "b", "vdd", 2.0 * s.carry, Role::Logic);
     // Sum core: sn = ~(a·b·ci + con·(a + b + ci)).
     sch.n("s_co", "sn", "con", "sn1", 2.0, Role::Logic);
     sch.n("s_a1", "sn1", "a", "vss", 2.0, Role::Logic);
@@ -70,8 +70,8 @@ pub fn mirror_full_adder(s: &Sizes) -> Cell {
     sch.p("s_b2", "sp2", "b", "sp3", 3.0, Role::Logic);
     sch.p("s_c2", "sp3", "ci", "vdd", 3.0, Role::Logic);
     // Output inverters restore true polarity.
-    sch.inv("co", "con", "co", 1.0);
-    sch.inv("s", "sn", "s", 1.0);
+    sch.inv("co", "con", "co", s.carry);
+    sch.inv("s", "sn", "s", s.output);
     let (a, b, ci) = (v(0), v(1), v(2));
     Cell {
         kind: CellKind::FullAdder,
@@ -104,7 +104,7 @@ pub fn mirror_full_adder(s: &Sizes) -> Cell {
 /// Grey cell of a prefix network: G = Gh + Ph·Gl, an AOI21 and an inverter. Also the carry
 /// operator of lookahead and of the carry-skip bypass in dynamic style.
 pub fn grey(s: &Sizes) -> Cell {
-    let mut sch = Schematic::new(s);
+    let mut sch = Schematic::scaled(s, s.carry);
     sch.aoi21("gn", "gh", "ph", "gl", "gn");
     sch.inv("g", "gn", "g", 1.0);
     let (gh, ph, gl) = (v(0), v(1), v(2));
@@ -128,7 +128,7 @@ pub fn grey(s: &Sizes) -> Cell {
 
 /// Black cell of a prefix network: G = Gh + Ph·Gl and P = Ph·Pl.
 pub fn black(s: &Sizes) -> Cell {
-    let mut sch = Schematic::new(s);
+    let mut sch = Schematic::scaled(s, s.carry);
     sch.aoi21("gn", "gh", "ph", "gl", "gn");
     sch.inv("g", "gn", "g", 1.0);
     sch.nand2("pn", "ph", "pl", "pn");

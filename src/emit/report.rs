@@ -71,6 +71,24 @@ pub fn table(spec: &Spec, design: &Design) -> String {
         }
         row(&mut out, "buffers at bits", at);
     }
+    if let Some(a) = &spec.sizing.auto {
+        let z = &spec.sizing;
+        let mut knobs = format!(
+            "unit_n {} um, pass {}, generate {}, output {}, buffer {}, carry {}",
+            z.unit_n, z.pass, z.generate, z.output, z.buffer, z.carry
+        );
+        if spec.style == Style::Dynamic {
+            knobs.push_str(&format!(", precharge {}", z.precharge));
+        }
+        row(
+            &mut out,
+            "sizing: auto",
+            format!(
+                "{knobs}; the engine's worst path {:.1} ps against {:.1} ps for the starting sizes, total width {:.1} um (limit {:.1}), largest input at most {:.2} fF; {} estimates",
+                a.worst_ps, a.default_worst_ps, a.width_um, a.width_limit_um, a.input_cap_limit_ff, a.evaluated
+            ),
+        );
+    }
     if let Some(p) = &design.prefix {
         row(
             &mut out,

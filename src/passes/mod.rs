@@ -4,3 +4,4 @@
 
 pub mod blocks;
 pub mod buffers;
+pub mod sizing;
