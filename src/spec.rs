@@ -109,6 +109,20 @@ pub struct Buffers {
     /// `buffers: auto`: the positions were chosen by the timing engine (`passes::buffers`).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub auto: Option<AutoBuffers>,
+    /// `buffers: auto` on a prefix network: the fan-out threshold the engine chose.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub auto_fanout: Option<AutoFanout>,
+}
+
+/// How `buffers: auto` chose a prefix network's fan-out buffers, for the reports.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct AutoFanout {
+    pub rule: &'static str,
+    /// The engine's worst path with the chosen threshold and with no fan-out buffers (ps).
+    pub worst_ps: f64,
+    pub unbuffered_ps: f64,
+    /// Every threshold tried and its worst path: (fanout, ps); 0 stands for none.
+    pub tried: Vec<(usize, f64)>,
 }
 
 impl Sizing {
@@ -1303,7 +1317,12 @@ fn validate(raw: RawSpec, src: &Source, base: &Path, opts: &LoadOptions) -> Resu
         spec.block_rule = Some(how.rule);
         spec.block_auto = Some(how);
     }
-    if auto_buffers {
+    if auto_buffers && architecture.is_prefix() {
+        let (fanout, how) =
+            crate::passes::buffers::choose_fanout(&spec).map_err(|m| src.error("buffers", m))?;
+        spec.buffers.fanout = fanout;
+        spec.buffers.auto_fanout = Some(how);
+    } else if auto_buffers {
         let (positions, how) =
             crate::passes::buffers::choose(&spec).map_err(|m| src.error("buffers", m))?;
         spec.buffers.positions = positions;
@@ -1328,22 +1347,23 @@ fn parse_buffers(
         inverting: true,
         fanout: None,
         auto: None,
+        auto_fanout: None,
     };
     let v = match v {
         None => return Ok(none),
         Some(serde_yaml::Value::String(s)) if s == "none" => return Ok(none),
+        Some(serde_yaml::Value::String(s)) if s == "auto" && arch.is_prefix() => {
+            // Chosen once the rest of the spec is resolved (see the end of `parse`).
+            return Ok(none);
+        }
         Some(serde_yaml::Value::String(s)) if s == "auto" => {
             if arch != Architecture::Manchester {
                 return Err(src.error(
                     "buffers",
                     format!(
-                        "`auto` places restoring buffers on Manchester chains; {} takes {}",
+                        "`auto` places restoring buffers on Manchester chains and fan-out buffers in prefix networks; {} takes {}",
                         arch.as_str(),
-                        if arch.is_prefix() {
-                            "none or {fanout: F}"
-                        } else {
-                            "none"
-                        }
+                        "none"
                     ),
                 ));
             }
@@ -1487,6 +1507,7 @@ fn parse_buffers(
         inverting: raw.inverting.unwrap_or(true),
         fanout: None,
         auto: None,
+        auto_fanout: None,
     })
 }
 

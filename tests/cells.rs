@@ -65,7 +65,8 @@ fn role_multipliers_scale_their_devices_only() {
             .map(|d| (d.name.clone(), d.w))
             .collect()
     };
-    let cases: [(&str, fn(&mut Sizing), CellKind, fn(&str) -> bool); 3] = [
+    type Case = (&'static str, fn(&mut Sizing), CellKind, fn(&str) -> bool);
+    let cases: [Case; 3] = [
         (
             "pass",
             |s| s.pass = 2.0,

@@ -361,3 +361,33 @@ fn input_cap_refuses_manual_sizes_that_load_the_inputs_more() {
     assert_eq!(e.exit_code(), 2, "{e}");
     assert!(e.to_string().contains("sizing.input_cap"), "{e}");
 }
+
+/// `buffers: auto` on a prefix network: Sklansky's high-fan-out nets (N/2 + 1 loads,
+/// Harris 2003) cost more than buffer stages, so the engine buffers them and the worst path
+/// drops; the chosen threshold is the best of those tried and the figures match the estimate.
+#[test]
+fn prefix_buffers_auto_buffers_the_high_fanout_nets() {
+    let yaml = |b: &str| {
+        format!("name: sk64\nwidth: 64\narchitecture: sklansky\ntechnology: gf180mcu-3v3\nbuffers: {b}\ntestbench: {{load: 50f}}\n")
+    };
+    let a = parse(&yaml("auto")).unwrap();
+    let n = parse(&yaml("none")).unwrap();
+    let how = a.buffers.auto_fanout.clone().unwrap();
+    let f = a.buffers.fanout.expect("Sklansky 64 gets fan-out buffers");
+    let (ea, en) = (estimate_of(&a), estimate_of(&n));
+    assert!(
+        ea.worst_ps < 0.9 * en.worst_ps,
+        "auto {} ps, none {} ps",
+        ea.worst_ps,
+        en.worst_ps
+    );
+    assert!(
+        (how.worst_ps - ea.worst_ps).abs() < 0.05 && (how.unbuffered_ps - en.worst_ps).abs() < 0.05
+    );
+    assert!(how.tried.iter().any(|t| t.0 == f));
+    assert!(
+        how.tried.iter().all(|t| t.1 >= how.worst_ps),
+        "{:?}",
+        how.tried
+    );
+}

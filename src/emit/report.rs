@@ -108,6 +108,21 @@ pub fn table(spec: &Spec, design: &Design) -> String {
         if p.fanout_buffers > 0 {
             row(&mut out, "fan-out buffers", p.fanout_buffers.to_string());
         }
+        if let Some(a) = &spec.buffers.auto_fanout {
+            row(
+                &mut out,
+                "buffers: auto",
+                format!(
+                    "{}; the engine's worst path {:.1} ps, {:.1} ps with no fan-out buffers",
+                    match spec.buffers.fanout {
+                        Some(f) => format!("buffers above {f} loads"),
+                        None => "no fan-out buffers".to_string(),
+                    },
+                    a.worst_ps,
+                    a.unbuffered_ps
+                ),
+            );
+        }
         if let Some(l) = p.lookahead_levels {
             row(&mut out, "lookahead levels", l.to_string());
         }

@@ -18,7 +18,7 @@
 //! `tests/passes.rs` checks the DP against it on the engine's own costs.
 
 use crate::error::{Error, Result};
-use crate::spec::{AutoBuffers, Spec, Style};
+use crate::spec::{AutoBuffers, AutoFanout, Spec, Style};
 use crate::timing::engine::Graph;
 use crate::timing::search::{In, Pair, Timer};
 
@@ -231,6 +231,55 @@ pub fn choose(spec: &Spec) -> std::result::Result<(Vec<usize>, AutoBuffers), Str
             cin_cout_ps: (ps * 10.0).round() / 10.0,
             unbuffered_ps: c.only.is_finite().then(|| (c.only * 10.0).round() / 10.0),
             longest_segment: (max_len < spec.width).then_some(max_len),
+        },
+    ))
+}
+
+/// `buffers: auto` on a prefix network: the fan-out threshold F (every net with more than F
+/// loads gets a tree of buffers, each driving at most F) with the least worst path in the
+/// engine's full estimate, over F = 2, 3, 4, 6, 8, 12, ... below the network's largest net
+/// fan-out and no buffers at all; a larger F (fewer buffers) within 0.5 ps wins. All prefix
+/// cell inputs present about the same capacitance, so a threshold on loads is a threshold on
+/// the net's capacitance: a net gets buffers where its load costs more, in the model, than a
+/// buffer stage does. `Err` is a one-line reason for the `buffers` key.
+pub fn choose_fanout(spec: &Spec) -> std::result::Result<(Option<usize>, AutoFanout), String> {
+    if spec.technology.timing.is_none() {
+        return Err(format!(
+            "`auto` needs the timing engine, and {}",
+            crate::timing::engine::no_timing(spec)
+        ));
+    }
+    let worst = |f: Option<usize>| -> std::result::Result<(f64, usize), String> {
+        let mut s = spec.clone();
+        s.buffers.fanout = f;
+        let d = crate::arch::build(&s);
+        let fan = d.prefix.as_ref().map(|p| p.max_net_fanout).unwrap_or(0);
+        let e = crate::timing::search::estimate(&s, &d)
+            .map_err(|e| format!("`auto` could not time the network: {e}"))?;
+        Ok((e.worst_ps, fan))
+    };
+    let (none_ps, max_fan) = worst(None)?;
+    let mut tried = vec![(0, none_ps)];
+    let (mut best, mut best_ps) = (None, none_ps);
+    let mut candidates: Vec<usize> = vec![2, 3, 4, 6, 8, 12, 16, 24, 32, 48];
+    candidates.retain(|&f| f < max_fan);
+    // Largest first, so that a tie keeps the fewer buffers.
+    for &f in candidates.iter().rev() {
+        let (ps, _) = worst(Some(f))?;
+        tried.push((f, ps));
+        if ps < best_ps - 0.5 {
+            best = Some(f);
+            best_ps = ps;
+        }
+    }
+    tried.sort_by_key(|t| t.0);
+    Ok((
+        best,
+        AutoFanout {
+            rule: "auto: the fan-out threshold with the least worst path in the timing engine (every net with more loads gets a buffer tree)",
+            worst_ps: best_ps,
+            unbuffered_ps: none_ps,
+            tried,
         },
     ))
 }
