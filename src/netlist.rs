@@ -39,6 +39,10 @@ pub struct Instance {
     pub master: Master,
     /// One net per pin of the master, in pin order (ports' bits flattened for modules).
     pub conns: Vec<NetId>,
+    /// The bit column the instance sits in, in its module's coordinates (a block's cells
+    /// from 0, the top's from bit 0): wire lengths are measured in bit pitches between
+    /// columns.
+    pub col: u32,
 }
 
 #[derive(Debug, Clone, PartialEq, Default)]
@@ -98,10 +102,21 @@ impl Module {
         bits
     }
     pub fn inst(&mut self, name: impl Into<String>, master: Master, conns: Vec<NetId>) {
+        self.inst_at(0, name, master, conns);
+    }
+    /// An instance placed in bit column `col` of this module.
+    pub fn inst_at(
+        &mut self,
+        col: usize,
+        name: impl Into<String>,
+        master: Master,
+        conns: Vec<NetId>,
+    ) {
         self.instances.push(Instance {
             name: name.into(),
             master,
             conns,
+            col: col as u32,
         });
     }
     pub fn net_name(&self, id: NetId) -> &str {
@@ -212,21 +227,28 @@ impl Design {
         let ports: Vec<u32> = self.modules[top]
             .pin_dirs()
             .iter()
-            .map(|(id, _)| flat.new_net(self.modules[top].net_name(*id).to_string()))
+            .map(|(id, _)| {
+                let g = flat.new_net(self.modules[top].net_name(*id).to_string());
+                flat.owner.push((top, *id));
+                g
+            })
             .collect();
         flat.top_ports = ports.clone();
-        self.flatten_into(top, &ports, "", &mut flat);
+        self.flatten_into(top, &ports, "", 0, &mut flat);
         flat
     }
-    fn flatten_into(&self, m: usize, port_nets: &[u32], prefix: &str, flat: &mut Flat) {
+    fn flatten_into(&self, m: usize, port_nets: &[u32], prefix: &str, col: u32, flat: &mut Flat) {
         let module = &self.modules[m];
         let mut map: HashMap<NetId, u32> = HashMap::new();
         for ((id, _), &g) in module.pin_dirs().iter().zip(port_nets) {
             map.insert(*id, g);
         }
         for (i, net) in module.nets.iter().enumerate() {
-            map.entry(NetId(i as u32))
-                .or_insert_with(|| flat.new_net(format!("{prefix}{}", net.name)));
+            map.entry(NetId(i as u32)).or_insert_with(|| {
+                let g = flat.new_net(format!("{prefix}{}", net.name));
+                flat.owner.push((m, NetId(i as u32)));
+                g
+            });
         }
         for inst in &module.instances {
             let conns: Vec<u32> = inst.conns.iter().map(|c| map[c]).collect();
@@ -236,10 +258,27 @@ impl Design {
                     path: format!("{prefix}{}", inst.name),
                     kind,
                     nets: conns,
+                    col: col + inst.col,
                 }),
-                Master::Module(c) => self.flatten_into(c, &conns, &path, flat),
+                Master::Module(c) => self.flatten_into(c, &conns, &path, col + inst.col, flat),
             }
         }
+    }
+
+    /// Wire length of every net, in bit pitches, by the module that owns it (a module's own
+    /// nets; the top's ports too): the distance between the farthest bit columns of the leaf
+    /// cells the net reaches. A module's nets have the same length in each of its instances,
+    /// so every net's wire is counted once, in its owner.
+    pub fn wire_spans(&self) -> BTreeMap<(usize, NetId), u32> {
+        let flat = self.flatten();
+        let spans = flat.wire_spans();
+        let mut out = BTreeMap::new();
+        for (g, &(m, id)) in flat.owner.iter().enumerate() {
+            if spans[g] > 0 {
+                out.entry((m, id)).or_insert(spans[g]);
+            }
+        }
+        out
     }
 
     /// Structural checks of every module and of the flattened design (no combinational loop).
@@ -304,11 +343,15 @@ pub struct Leaf {
     pub path: String,
     pub kind: CellKind,
     pub nets: Vec<u32>,
+    /// Absolute bit column.
+    pub col: u32,
 }
 
 #[derive(Debug, Clone, Default)]
 pub struct Flat {
     pub names: Vec<String>,
+    /// The module net each global net of `names` was made for (module index, net).
+    pub owner: Vec<(usize, NetId)>,
     pub leaves: Vec<Leaf>,
     /// Global nets of the top module's port bits, in port order.
     pub top_ports: Vec<u32>,
@@ -354,6 +397,25 @@ impl Flat {
         }
     }
 
+    /// Every net's wire length in bit pitches: the distance between the farthest bit
+    /// columns of the leaves on it (0 for a net inside one column). Indexed like `owner`.
+    pub fn wire_spans(&self) -> Vec<u32> {
+        let n = self.owner.len();
+        let mut lo = vec![u32::MAX; n];
+        let mut hi = vec![0u32; n];
+        for l in &self.leaves {
+            for &g in &l.nets {
+                let g = g as usize;
+                if g < n {
+                    lo[g] = lo[g].min(l.col);
+                    hi[g] = hi[g].max(l.col);
+                }
+            }
+        }
+        (0..n)
+            .map(|g| if lo[g] == u32::MAX { 0 } else { hi[g] - lo[g] })
+            .collect()
+    }
     fn new_net(&mut self, name: String) -> u32 {
         self.names.push(name);
         (self.names.len() - 1) as u32

@@ -247,6 +247,7 @@ pub struct Spec {
     pub buffers: Buffers,
     pub technology: Technology,
     pub sizing: Sizing,
+    pub parasitics: Parasitics,
     pub testbench: Testbench,
     /// The spec's label and text, to locate keys in errors found after validation.
     pub source: Option<(String, String)>,
@@ -298,6 +299,8 @@ struct RawSpec {
     #[serde(default)]
     sizing: Option<SizingKey>,
     #[serde(default)]
+    parasitics: Option<RawParasitics>,
+    #[serde(default)]
     testbench: Option<RawTestbench>,
 }
 
@@ -315,6 +318,20 @@ struct RawSizing {
     output: Option<Written>,
     carry: Option<Written>,
     input_cap: Option<Written>,
+}
+
+#[derive(Deserialize, Default)]
+#[serde(deny_unknown_fields)]
+struct RawParasitics {
+    wire_per_bit: Option<Written>,
+}
+
+/// Parasitics the netlist carries beyond its devices.
+#[derive(Debug, Clone, Default, PartialEq, serde::Serialize)]
+pub struct Parasitics {
+    /// Wire capacitance per bit pitch (farads): every net gets this times its length in bit
+    /// pitches (`netlist::Design::wire_spans`), in the SPICE view and in the timing engine.
+    pub wire_per_bit: f64,
 }
 
 /// `sizing:` as written: `auto`, or a mapping of sizes.
@@ -1215,6 +1232,27 @@ fn validate(raw: RawSpec, src: &Source, base: &Path, opts: &LoadOptions) -> Resu
         ));
     }
 
+    let rp = raw.parasitics.unwrap_or_default();
+    let parasitics = Parasitics {
+        wire_per_bit: match &rp.wire_per_bit {
+            None => 0.0,
+            Some(w) => {
+                let c = parse_quantity_text(&w.0, 'F')
+                    .map_err(|m| src.error("parasitics.wire_per_bit", m))?;
+                if !(c == 0.0 || (1e-18..=100e-15).contains(&c)) {
+                    return Err(src.error(
+                        "parasitics.wire_per_bit",
+                        format!(
+                            "must be 0 or between 0.001f and 100f (farads), got {}",
+                            short_num(c)
+                        ),
+                    ));
+                }
+                c
+            }
+        },
+    };
+
     let rt = raw.testbench.unwrap_or_default();
     let random = rt.random.unwrap_or(64);
     if !(0..=1_000_000).contains(&random) {
@@ -1297,6 +1335,7 @@ fn validate(raw: RawSpec, src: &Source, base: &Path, opts: &LoadOptions) -> Resu
         buffers,
         technology,
         sizing,
+        parasitics,
         testbench: Testbench {
             random: random as usize,
             seed: rt.seed.unwrap_or(1),

@@ -274,3 +274,48 @@ fn pg_cell_controls_settle_together_gf180() {
         }
     }
 }
+
+/// Wire capacitance (`parasitics.wire_per_bit`) in the deck: ngspice measures the same
+/// direction and size of the slow-down the engine predicts for a 16-bit Kogge-Stone with
+/// 1 fF per bit pitch (each worst path within 15 % of its estimate, the engine's accuracy
+/// target; ngspice with the GF180MCU models is the reference).
+#[test]
+fn wire_capacitance_slows_the_deck_as_estimated_gf180() {
+    if !common::tools(&["ngspice"]) {
+        return;
+    }
+    let Some(models) = common::model_dir() else {
+        return;
+    };
+    let mut sims = vec![];
+    for wire in ["0", "1f"] {
+        let yaml = format!("name: kw16\nwidth: 16\narchitecture: kogge-stone\ntechnology: gf180mcu-3v3\nparasitics: {{wire_per_bit: {wire}}}\ntestbench: {{random: 0, seed: 5, load: 20f}}\n");
+        let s = carrywright::spec::parse(
+            &yaml,
+            "t",
+            std::path::Path::new("."),
+            &carrywright::spec::LoadOptions {
+                model_dir: Some(models.clone()),
+            },
+        )
+        .unwrap();
+        let d = carrywright::build(&s).unwrap();
+        let est = carrywright::timing::search::estimate(&s, &d)
+            .unwrap()
+            .worst_ps
+            * 1e-12;
+        let r = simulate(&yaml, Some(models.clone()));
+        let sim = measured(&r, "tworst");
+        assert!(
+            (est - sim).abs() / sim < 0.15,
+            "wire {wire}: estimate {est}, ngspice {sim}"
+        );
+        sims.push(sim);
+    }
+    assert!(
+        sims[1] > 1.03 * sims[0],
+        "ngspice: {} s without wires, {} s with",
+        sims[0],
+        sims[1]
+    );
+}

@@ -54,10 +54,10 @@ pub fn build(spec: &Spec, lib: &Library, dynamic: bool) -> Design {
         let mut conns = vec![t.clk.unwrap(), t.cin];
         conns.extend(carry_r);
         conns.push(carry);
-        top.inst("xcin", m, conns);
+        top.inst_at(0, "xcin", m, conns);
     } else {
         let m = d.cell(CellKind::Inv);
-        top.inst("xcin", m, vec![t.cin, carry]);
+        top.inst_at(0, "xcin", m, vec![t.cin, carry]);
     }
 
     for (k, &(lo, hi)) in blocks(w, spec.block).iter().enumerate() {
@@ -89,31 +89,31 @@ pub fn build(spec: &Spec, lib: &Library, dynamic: bool) -> Design {
             conns.push(co_r);
             conns.push(r);
         }
-        top.inst(format!("xblk{k}"), master, conns);
+        top.inst_at(lo, format!("xblk{k}"), master, conns);
         carry = co;
 
         if buffered {
             if dynamic {
                 let c = restored.expect("made above");
                 let inv = d.cell(CellKind::Inv);
-                top.inst(format!("xbuf{hi}"), inv, vec![carry, c]);
+                top.inst_at(hi - 1, format!("xbuf{hi}"), inv, vec![carry, c]);
                 let ns = top.net(format!("c{hi}_ns"));
                 let st = d.cell(start);
                 let mut conns = vec![t.clk.unwrap(), c];
                 conns.extend(next_r);
                 conns.push(ns);
-                top.inst(format!("xdis{hi}"), st, conns);
+                top.inst_at(hi, format!("xdis{hi}"), st, conns);
                 carry = ns;
             } else if spec.buffers.inverting {
                 true_carry = !true_carry;
                 let c = top.net(carry_name(hi, true_carry));
                 let inv = d.cell(CellKind::Inv);
-                top.inst(format!("xbuf{hi}"), inv, vec![carry, c]);
+                top.inst_at(hi - 1, format!("xbuf{hi}"), inv, vec![carry, c]);
                 carry = c;
             } else {
                 let c = top.net(format!("{}b", carry_name(hi, true_carry)));
                 let buf = d.cell(CellKind::Buf);
-                top.inst(format!("xbuf{hi}"), buf, vec![carry, c]);
+                top.inst_at(hi - 1, format!("xbuf{hi}"), buf, vec![carry, c]);
                 carry = c;
             }
         }
@@ -124,7 +124,7 @@ pub fn build(spec: &Spec, lib: &Library, dynamic: bool) -> Design {
     } else {
         CellKind::Inv
     });
-    top.inst("xcout", out, vec![carry, t.cout]);
+    top.inst_at(w - 1, "xcout", out, vec![carry, t.cout]);
     d.finish(top, dynamic)
 }
 
@@ -232,11 +232,11 @@ pub fn chain_bits(
         });
         if let Some(clk) = clk {
             let g = m.net(format!("g{j}"));
-            m.inst(format!("xpg{j}"), pg, vec![a[j], b[j], g, p]);
+            m.inst_at(j, format!("xpg{j}"), pg, vec![a[j], b[j], g, p]);
             let mut conns = vec![clk, prev, g, p];
             conns.extend(next_tap);
             conns.push(node);
-            m.inst(format!("xmc{j}"), chain, conns);
+            m.inst_at(j, format!("xmc{j}"), chain, conns);
         } else {
             let (gx, kx) = if true_carry {
                 (m.net(format!("gn{j}")), m.net(format!("k{j}")))
@@ -244,12 +244,12 @@ pub fn chain_bits(
                 (m.net(format!("g{j}")), m.net(format!("kn{j}")))
             };
             let pn = m.net(format!("pn{j}"));
-            m.inst(format!("xpg{j}"), pg, vec![a[j], b[j], gx, kx, p, pn]);
-            m.inst(format!("xmc{j}"), chain, vec![prev, gx, kx, p, pn, node]);
+            m.inst_at(j, format!("xpg{j}"), pg, vec![a[j], b[j], gx, kx, p, pn]);
+            m.inst_at(j, format!("xmc{j}"), chain, vec![prev, gx, kx, p, pn, node]);
         }
         let mut conns = vec![p, prev, s[j]];
         conns.extend(tap);
-        m.inst(format!("xsum{j}"), sum, conns);
+        m.inst_at(j, format!("xsum{j}"), sum, conns);
         props.push(p);
         prev = node;
         tap = next_tap;

@@ -450,14 +450,14 @@ pub fn build(spec: &Spec, lib: &Library) -> (Design, Report) {
     let mut pnet: Vec<Option<NetId>> = vec![None; graph.nodes.len()];
     for i in 0..w {
         let (g, p) = (top.net(format!("g{i}")), top.net(format!("p{i}")));
-        top.inst(format!("xpg{i}"), pg, vec![t.a[i], t.b[i], g, p]);
+        top.inst_at(i, format!("xpg{i}"), pg, vec![t.a[i], t.b[i], g, p]);
         gnet[i] = Some(g);
         pnet[i] = Some(p);
     }
     let p0 = pnet[0].unwrap();
     // Fold cin into column 0: g0' = g0 + p0·cin.
     let folded = if w == 1 { t.cout } else { top.net("g0_0") };
-    top.inst("xfold", grey, vec![gnet[0].unwrap(), p0, t.cin, folded]);
+    top.inst_at(0, "xfold", grey, vec![gnet[0].unwrap(), p0, t.cin, folded]);
     gnet[0] = Some(folded);
     pnet[0] = None;
     for c in &graph.cells {
@@ -473,11 +473,17 @@ pub fn build(spec: &Spec, lib: &Library) -> (Design, Report) {
             gnet[c.lo_in].unwrap(),
         );
         if c.grey {
-            top.inst(format!("xg{}_{}", o.hi, o.lo), grey, vec![gh, ph, gl, g]);
+            top.inst_at(
+                o.hi,
+                format!("xg{}_{}", o.hi, o.lo),
+                grey,
+                vec![gh, ph, gl, g],
+            );
         } else {
             let p = top.net(format!("p{}_{}", o.hi, o.lo));
             let pl = pnet[c.lo_in].unwrap();
-            top.inst(
+            top.inst_at(
+                o.hi,
                 format!("xb{}_{}", o.hi, o.lo),
                 black,
                 vec![gh, ph, gl, pl, g, p],
@@ -486,10 +492,11 @@ pub fn build(spec: &Spec, lib: &Library) -> (Design, Report) {
         }
         gnet[c.out] = Some(g);
     }
-    top.inst("xs0", sum, vec![p0, t.cin, t.s[0]]);
+    top.inst_at(0, "xs0", sum, vec![p0, t.cin, t.s[0]]);
     for i in 1..w {
         let carry = gnet[graph.current[i - 1]].unwrap();
-        top.inst(
+        top.inst_at(
+            i,
             format!("xs{i}"),
             sum,
             vec![pnet[i].unwrap_or(p0), carry, t.s[i]],
@@ -545,7 +552,13 @@ fn insert_fanout_buffers(d: &mut DesignBuilder, top: &mut Module, f: usize) -> u
                 for &(ii, pi) in chunk {
                     top.instances[ii].conns[pi] = b;
                 }
-                top.inst(format!("xf{}_{}", name, added + k), buf, vec![net, b]);
+                // Placed among its loads (the mean of their columns).
+                let col = chunk
+                    .iter()
+                    .map(|&(ii, _)| top.instances[ii].col as usize)
+                    .sum::<usize>()
+                    / chunk.len();
+                top.inst_at(col, format!("xf{}_{}", name, added + k), buf, vec![net, b]);
             }
             added += list.len().div_ceil(f);
         }

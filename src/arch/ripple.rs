@@ -23,7 +23,8 @@ pub fn chain(
         } else {
             top.net(format!("c{}", i + 1))
         };
-        top.inst(
+        top.inst_at(
+            i,
             format!("xfa{i}"),
             fa,
             vec![t.a[i], t.b[i], carry, t.s[i], next],

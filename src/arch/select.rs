@@ -21,14 +21,15 @@ fn select_block(d: &mut DesignBuilder, name: &str, size: usize) -> Module {
     );
     // Bit 0 of both copies from one PG cell: (s, carry) = (p, g) for cin 0, (pn, kn) for cin 1.
     let (g, kn, p, pn) = (m.net("c1_0"), m.net("c1_1"), m.net("s0_0"), m.net("s0_1"));
-    m.inst("xpg0", pg, vec![a[0], b[0], g, kn, p, pn]);
+    m.inst_at(0, "xpg0", pg, vec![a[0], b[0], g, kn, p, pn]);
     let mut sums = [vec![p], vec![pn]];
     let mut carries = [g, kn];
     for j in 1..size {
         for (copy, carry) in carries.iter_mut().enumerate() {
             let sj = m.net(format!("s{j}_{copy}"));
             let cj = m.net(format!("c{}_{copy}", j + 1));
-            m.inst(
+            m.inst_at(
+                j,
                 format!("xfa{j}_{copy}"),
                 fa,
                 vec![a[j], b[j], *carry, sj, cj],
@@ -38,13 +39,14 @@ fn select_block(d: &mut DesignBuilder, name: &str, size: usize) -> Module {
         }
     }
     for j in 0..size {
-        m.inst(
+        m.inst_at(
+            j,
             format!("xmux{j}"),
             mux,
             vec![sums[0][j], sums[1][j], ci, s[j]],
         );
     }
-    m.inst("xmuxc", mux, vec![carries[0], carries[1], ci, co]);
+    m.inst_at(size - 1, "xmuxc", mux, vec![carries[0], carries[1], ci, co]);
     m
 }
 
@@ -93,7 +95,12 @@ pub fn build(spec: &Spec, lib: &Library) -> Design {
                 let m = select_block(&mut d, &spec.name, size);
                 d.add_module(m)
             });
-            top.inst(format!("xblk{k}"), master, t.block_conns(lo, hi, carry, co));
+            top.inst_at(
+                lo,
+                format!("xblk{k}"),
+                master,
+                t.block_conns(lo, hi, carry, co),
+            );
             carry = co;
         }
         lo = hi;

@@ -15,25 +15,32 @@ use crate::spec::Spec;
 use std::collections::BTreeMap;
 
 /// AND of all nets through a balanced tree of two-input ANDs; returns the output net.
+/// Input k sits in bit column k; each AND sits in the higher column of its pair.
 pub fn and_tree(d: &mut DesignBuilder, m: &mut Module, nets: &[NetId], prefix: &str) -> NetId {
     let and2 = d.cell(CellKind::And2);
-    let mut level: Vec<NetId> = nets.to_vec();
+    let mut level: Vec<(NetId, usize)> = nets.iter().copied().zip(0..).collect();
     let mut n = 0;
     while level.len() > 1 {
         let mut next = vec![];
         for pair in level.chunks(2) {
             if pair.len() == 2 {
                 let y = m.net(format!("{prefix}{n}"));
-                m.inst(format!("x{prefix}{n}"), and2, vec![pair[0], pair[1], y]);
+                let col = pair[1].1;
+                m.inst_at(
+                    col,
+                    format!("x{prefix}{n}"),
+                    and2,
+                    vec![pair[0].0, pair[1].0, y],
+                );
                 n += 1;
-                next.push(y);
+                next.push((y, col));
             } else {
                 next.push(pair[0]);
             }
         }
         level = next;
     }
-    level[0]
+    level[0].0
 }
 
 fn skip_block(
@@ -72,14 +79,14 @@ fn skip_block(
         let mut conns = vec![clk, ci];
         conns.extend(taps.map(|t| t.first));
         conns.push(start);
-        m.inst("xstart", st, conns);
+        m.inst_at(0, "xstart", st, conns);
     } else {
         let inv = d.cell(CellKind::Inv);
-        m.inst("xstart", inv, vec![ci, start]);
+        m.inst_at(0, "xstart", inv, vec![ci, start]);
     }
     let (end, props) = chain_bits(d, &mut m, clk, &a, &b, start, &s, None, false, taps);
     let inv = d.cell(CellKind::Inv);
-    m.inst("xend", inv, vec![end, ripple]);
+    m.inst_at(size - 1, "xend", inv, vec![end, ripple]);
     let bp = if props.len() == 1 {
         props[0]
     } else {
@@ -87,10 +94,10 @@ fn skip_block(
     };
     if dynamic {
         let grey = d.cell(CellKind::Grey);
-        m.inst("xskip", grey, vec![ripple, bp, ci, co]);
+        m.inst_at(size - 1, "xskip", grey, vec![ripple, bp, ci, co]);
     } else {
         let mux = d.cell(CellKind::Mux2);
-        m.inst("xskip", mux, vec![ripple, ci, bp, co]);
+        m.inst_at(size - 1, "xskip", mux, vec![ripple, ci, bp, co]);
     }
     m
 }
@@ -116,9 +123,9 @@ pub fn build(spec: &Spec, lib: &Library, dynamic: bool) -> Design {
             conns.push(c0);
         }
         conns.push(n);
-        top.inst("xcin", st, conns);
+        top.inst_at(0, "xcin", st, conns);
         let inv = d.cell(CellKind::Inv);
-        top.inst("xcin_inv", inv, vec![n, c0]);
+        top.inst_at(0, "xcin_inv", inv, vec![n, c0]);
         c0
     } else {
         t.cin
@@ -135,7 +142,12 @@ pub fn build(spec: &Spec, lib: &Library, dynamic: bool) -> Design {
         } else {
             top.net(format!("c{hi}"))
         };
-        top.inst(format!("xblk{k}"), master, t.block_conns(lo, hi, carry, co));
+        top.inst_at(
+            lo,
+            format!("xblk{k}"),
+            master,
+            t.block_conns(lo, hi, carry, co),
+        );
         carry = co;
     }
     d.finish(top, dynamic)

@@ -33,6 +33,8 @@ struct ModuleCtx {
     comment: String,
     pins: Vec<String>,
     instances: Vec<InstCtx>,
+    /// Wire capacitors (`parasitics.wire_per_bit`), one line each.
+    wires: Vec<String>,
 }
 
 #[derive(Serialize)]
@@ -99,6 +101,12 @@ pub fn subcircuits(spec: &Spec, design: &Design) -> Result<String> {
         })
         .collect();
     let last = design.modules.len() - 1;
+    let per_bit_ff = spec.parasitics.wire_per_bit * 1e15;
+    let spans = if per_bit_ff > 0.0 {
+        design.wire_spans()
+    } else {
+        Default::default()
+    };
     let modules = design
         .modules
         .iter()
@@ -119,6 +127,15 @@ pub fn subcircuits(spec: &Spec, design: &Design) -> Result<String> {
                     design.transistors(Master::Module(i))
                 ),
                 pins,
+                wires: spans
+                    .range((i, crate::netlist::NetId(0))..=(i, crate::netlist::NetId(u32::MAX)))
+                    .map(|(&(_, id), &span)| {
+                        let net = m.net_name(id);
+                        let c =
+                            crate::spec::trim_num((per_bit_ff * span as f64 * 1e4).round() / 1e4);
+                        format!("cw_{net} {net} vss {c}f")
+                    })
+                    .collect(),
                 instances: m
                     .instances
                     .iter()

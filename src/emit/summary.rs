@@ -324,6 +324,7 @@ pub fn spec_hash(spec: &Spec) -> String {
         "block_rule": spec.block_rule,
         "buffers": spec.buffers,
         "sizing": spec.sizing,
+        "parasitics": spec.parasitics,
         "testbench": spec.testbench,
         "technology": {
             "name": t.name,

@@ -302,6 +302,14 @@ impl Graph {
         for &o in &outputs {
             cap_ff[o as usize] += spec.testbench.load * 1e15;
         }
+        // Wires: the same per-bit capacitance and lengths as the SPICE view's.
+        let per_bit_ff = spec.parasitics.wire_per_bit * 1e15;
+        if per_bit_ff > 0.0 {
+            for (g, span) in flat.wire_spans().into_iter().enumerate() {
+                // Rounded as the deck prints it.
+                cap_ff[g] += (per_bit_ff * span as f64 * 1e4).round() / 1e4;
+            }
+        }
         // Channel-connected stages by union-find over source/drain, sources excluded.
         let mut parent: Vec<u32> = (0..n as u32).collect();
         fn find(p: &mut [u32], mut x: u32) -> u32 {
