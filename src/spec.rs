@@ -227,6 +227,17 @@ pub struct Testbench {
     pub period: Option<f64>,
     /// Transient time step, seconds (None: the technology's default).
     pub step: Option<f64>,
+    /// Buffered needs the technology's characterised timing; without it the deck uses
+    /// ideal sources (see [`Testbench::buffered`]).
+    pub drivers: Drivers,
+}
+
+impl Testbench {
+    /// The deck drives its inputs through inverter chains (`drivers: buffered`, and the
+    /// technology characterised).
+    pub fn buffered(&self, t: &crate::tech::Technology) -> bool {
+        self.drivers == Drivers::Buffered && t.timing.is_some()
+    }
 }
 
 /// A validated spec. Every field is safe to print into Verilog or SPICE.
@@ -430,6 +441,17 @@ struct RawTestbench {
     load: Option<Written>,
     period: Option<Written>,
     step: Option<Written>,
+    drivers: Option<Drivers>,
+}
+
+/// How the deck drives the adder's inputs and clock.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, serde::Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Drivers {
+    /// Through tapered inverter chains on supplies of their own (`timing::drivers`).
+    Buffered,
+    /// Ideal sources ramping in the technology's `slew`.
+    Ideal,
 }
 
 #[derive(Deserialize)]
@@ -1342,6 +1364,7 @@ fn validate(raw: RawSpec, src: &Source, base: &Path, opts: &LoadOptions) -> Resu
             load,
             period,
             step,
+            drivers: rt.drivers.unwrap_or(Drivers::Buffered),
         },
         source: Some((src.label.to_string(), src.text.to_string())),
     };

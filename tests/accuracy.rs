@@ -57,13 +57,14 @@ const fn dut(
 }
 
 impl Dut {
+    /// Ideal sources: this file's decks drive the pins with their own ramps.
     fn yaml(&self, tech: &str, load: &str) -> String {
         let block = self
             .block
             .map(|b| format!("block: {b}\n"))
             .unwrap_or_default();
         format!(
-            "name: {}\nwidth: {}\narchitecture: {}\nstyle: {}\n{block}buffers: {}\ntechnology: {tech}\ntestbench: {{random: 0, seed: 1, load: {load}}}\n",
+            "name: {}\nwidth: {}\narchitecture: {}\nstyle: {}\n{block}buffers: {}\ntechnology: {tech}\ntestbench: {{random: 0, seed: 1, load: {load}, drivers: ideal}}\n",
             self.name, self.width, self.arch, self.style, self.buffers
         )
     }

@@ -142,16 +142,16 @@ fn auto_positions_build_and_respect_the_keeper_check() {
     }
 }
 
-/// `auto` belongs to Manchester chains and needs the timing engine: anything else is refused
-/// with the key.
+/// `auto` belongs to Manchester chains (and prefix networks' fan-out buffers) and needs the
+/// timing engine: anything else is refused with the key.
 #[test]
 fn auto_is_refused_where_it_does_not_apply() {
-    let ks = parse("name: k\nwidth: 16\narchitecture: kogge-stone\nbuffers: auto\n").unwrap_err();
-    assert_eq!(ks.exit_code(), 2);
+    let cs = parse("name: k\nwidth: 16\narchitecture: carry-select\nbuffers: auto\n").unwrap_err();
+    assert_eq!(cs.exit_code(), 2);
     assert!(
-        ks.to_string()
+        cs.to_string()
             .contains("buffers: `auto` places restoring buffers on Manchester chains"),
-        "{ks}"
+        "{cs}"
     );
     let short = parse(&chain(4, 4, "static", "auto")).unwrap_err();
     assert!(

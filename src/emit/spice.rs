@@ -193,6 +193,52 @@ pub struct DeckPlan {
     pub delay_from: &'static str,
     /// The timing engine's worst path, measured on its vector pair.
     pub worst: Option<WorstMeasure>,
+    /// The input and clock drivers (`testbench.drivers: buffered`); None: ideal sources.
+    pub drivers: Option<DriverPlan>,
+}
+
+/// The deck's driver chains (`timing::drivers`): per input pin, its capacitance and the
+/// NMOS width of each stage.
+#[derive(Debug, Clone, Serialize)]
+pub struct DriverPlan {
+    pub rule: &'static str,
+    /// (pin, pin capacitance fF, stage NMOS widths µm), in port order (clk first).
+    pub chains: Vec<(String, f64, Vec<f64>)>,
+    /// Slowest data driver and the clock driver, source edge to the pin's 50 %, seconds.
+    pub data_delay: f64,
+    pub clock_delay: f64,
+}
+
+impl DriverPlan {
+    fn new(spec: &Spec, design: &Design) -> Result<Option<DriverPlan>> {
+        if !spec.testbench.buffered(&spec.technology) {
+            return Ok(None);
+        }
+        let tm = crate::timing::engine::timing_of(spec)?;
+        let g = crate::timing::engine::Graph::new(spec, design, &tm)?;
+        let (mut data_delay, mut clock_delay) = (0.0f64, 0.0f64);
+        let mut chains = vec![];
+        for &x in &g.inputs {
+            let c = g.cap_ff[x as usize];
+            let d = crate::timing::drivers::delay_ps(spec, &tm, c) * 1e-12;
+            if Some(x) == g.clk {
+                clock_delay = d;
+            } else {
+                data_delay = data_delay.max(d);
+            }
+            chains.push((
+                g.names[x as usize].clone(),
+                (c * 100.0).round() / 100.0,
+                crate::timing::drivers::chain(spec, &tm, c).nmos_um,
+            ));
+        }
+        Ok(Some(DriverPlan {
+            rule: "every input through an even chain of inverters tapered from a unit inverter to the pin's capacitance, stage effort at most 4; data drivers on vdrv, the clock driver on vclkd",
+            chains,
+            data_delay,
+            clock_delay,
+        }))
+    }
 }
 
 /// The worst path the deck measures: the engine's vector pair is in the deck's vectors.
@@ -230,11 +276,19 @@ impl DeckPlan {
         let take = n_directed + spec.testbench.random.min(DECK_RANDOM);
         let vectors: Vec<Labeled> = plan.iter().take(take).cloned().collect();
         let dynamic = spec.style == Style::Dynamic;
+        let drivers = DriverPlan::new(spec, design)?;
+        // The drivers delay every pin's edge after its source's: the clock's in dynamic style
+        // (inputs wait for clk to fall, evaluation starts when it has risen), the slowest
+        // data driver's in static style.
+        let lag =
+            drivers
+                .as_ref()
+                .map_or(0.0, |d| if dynamic { d.clock_delay } else { d.data_delay });
         let (period, period_rule) = match (spec.testbench.period, estimate) {
             (Some(p), _) => (p, "testbench.period".to_string()),
-            (None, Some(e)) => period_from_estimate(spec, e),
+            (None, Some(e)) => period_from_estimate(spec, e, lag),
             (None, None) => match &spec.technology.timing {
-                Some(tm) => period_from_bound(spec, design, tm)?,
+                Some(tm) => period_from_bound(spec, design, tm, lag)?,
                 None => (
                     default_period(spec),
                     "a rough structural bound (the technology has no characterised timing at these conditions)".to_string(),
@@ -281,6 +335,7 @@ impl DeckPlan {
             precharge_strobe: dynamic.then_some(0.45),
             delay_from: if dynamic { "clk" } else { "cin" },
             worst,
+            drivers,
         })
     }
 }
@@ -309,9 +364,9 @@ fn estimate_margin(spec: &Spec) -> f64 {
 /// real vector pairs) times [`ESTIMATE_MARGIN`], plus two input slews, must end before the
 /// strobe: at 90 % of the period in static style, in the evaluate half before the 95 % strobe
 /// in dynamic style. Never longer than the topological-bound rule; rounded up to 0.1 ns.
-fn period_from_estimate(spec: &Spec, e: &Estimate) -> (f64, String) {
+fn period_from_estimate(spec: &Spec, e: &Estimate, lag: f64) -> (f64, String) {
     let need = |ps: f64, margin: f64| {
-        let need = margin * ps * 1e-12 + 2.0 * spec.technology.slew;
+        let need = margin * ps * 1e-12 + 2.0 * spec.technology.slew + lag;
         match spec.style {
             Style::Static => need / 0.9,
             Style::Dynamic => need / 0.45,
@@ -366,11 +421,12 @@ fn period_from_bound(
     spec: &Spec,
     design: &Design,
     tm: &crate::timing::Timing,
+    lag: f64,
 ) -> Result<(f64, String)> {
     let g = crate::timing::engine::Graph::new(spec, design, tm)?;
     let (bound_ps, _) = crate::timing::engine::topological_bound(&g)?;
     let bound = bound_ps * 1e-12;
-    let need = PERIOD_MARGIN * bound + 2.0 * spec.technology.slew;
+    let need = PERIOD_MARGIN * bound + 2.0 * spec.technology.slew + lag;
     let raw = match spec.style {
         Style::Static => need / 0.9,
         Style::Dynamic => need / 0.45,
@@ -500,6 +556,10 @@ struct DeckCtx {
     sample_count: usize,
     worst: Option<WorstCtx>,
     estimate_note: Vec<String>,
+    /// Driver device lines (empty: ideal sources), the clock source's node, header lines.
+    drivers: Vec<String>,
+    clk_src: String,
+    driver_note: Vec<String>,
 }
 
 /// The worst-path measurement as the deck prints it.
@@ -558,8 +618,25 @@ pub fn deck(spec: &Spec, design: &Design, plan: &DeckPlan, netlist: &str) -> Res
     let vdd = tech.vdd;
     let dynamic = design.dynamic;
     let t = plan.period;
-    // Inputs change just after the start of each period (after clk has fallen in dynamic).
-    let change = if dynamic { 2.0 * plan.slew } else { 0.0 };
+    // Inputs change just after the start of each period (after clk has fallen in dynamic,
+    // at its pin: the clock driver's delay later).
+    let (data_lag, clock_lag) = plan
+        .drivers
+        .as_ref()
+        .map_or((0.0, 0.0), |d| (d.data_delay, d.clock_delay));
+    let change = if dynamic {
+        2.0 * plan.slew + clock_lag
+    } else {
+        0.0
+    };
+    // A source drives its pin directly, or the first stage of the pin's driver.
+    let src = |pin: &str| {
+        if plan.drivers.is_some() {
+            format!("{pin}_src")
+        } else {
+            pin.to_string()
+        }
+    };
     // PWL points, shared by every source: the level at 0 (low, high) and, for each vector
     // k, the two points of an input edge as vector k begins (rising, falling).
     let vdd_text = trim_num(vdd);
@@ -580,8 +657,9 @@ pub fn deck(spec: &Spec, design: &Design, plan: &DeckPlan, netlist: &str) -> Res
         .collect();
     let bit = |x: u128, i: usize| (x >> i) & 1 == 1;
     let mut sources = Vec::with_capacity(2 * w + 1);
-    let mut add_source = |node: String, high: &dyn Fn(&Labeled) -> bool| {
-        let element = format!("v{node}");
+    let mut add_source = |pin: String, high: &dyn Fn(&Labeled) -> bool| {
+        let element = format!("v{pin}");
+        let node = src(&pin);
         let mut words: Vec<&str> = vec![&element, &node, "0", "pwl("];
         let mut prev = high(&plan.vectors[0]);
         words.push(&start[prev as usize]);
@@ -656,7 +734,51 @@ pub fn deck(spec: &Spec, design: &Design, plan: &DeckPlan, netlist: &str) -> Res
     // A delay that ends past its vector's strobe belongs to no vector the deck checks: the
     // window runs from the trigger (inputs change at the period's start, clk rises at its
     // middle) to the strobe.
-    let trigger_at = if dynamic { t / 2.0 } else { change };
+    let trigger_at = if dynamic {
+        t / 2.0 + clock_lag
+    } else {
+        change + data_lag
+    };
+    // The driver chains: two devices a stage, on the data or the clock driver's supply.
+    let mut driver_lines = vec![];
+    if let Some(d) = &plan.drivers {
+        for (pin, _, stages) in &d.chains {
+            let supply = if pin == "clk" { "vclkd" } else { "vdrv" };
+            for (i, &wn) in stages.iter().enumerate() {
+                let input = if i == 0 {
+                    src(pin)
+                } else {
+                    format!("{pin}_d{i}")
+                };
+                let output = if i + 1 == stages.len() {
+                    pin.clone()
+                } else {
+                    format!("{pin}_d{}", i + 1)
+                };
+                let l = tech.l_min;
+                driver_lines.push(tech.device_line(
+                    &format!("mn_drv_{pin}_{i}"),
+                    &output,
+                    &input,
+                    "0",
+                    "0",
+                    false,
+                    wn,
+                    l,
+                ));
+                driver_lines.push(tech.device_line(
+                    &format!("mp_drv_{pin}_{i}"),
+                    &output,
+                    &input,
+                    supply,
+                    supply,
+                    true,
+                    (wn * spec.sizing.pn_ratio * 1000.0).round() / 1000.0,
+                    l,
+                ));
+            }
+        }
+    }
     let window = plan.strobe * t - trigger_at;
     // Only what the control block reads is kept: outputs, the measured input, the supply.
     let mut save = vec![".save".to_string()];
@@ -672,7 +794,11 @@ pub fn deck(spec: &Spec, design: &Design, plan: &DeckPlan, netlist: &str) -> Res
     }
     save.push("i(vvdd)".into());
     if dynamic {
-        save.push("i(vclk)".into());
+        save.push(if plan.drivers.is_some() {
+            "i(vvclkd)".into()
+        } else {
+            "i(vclk)".into()
+        });
     }
     let worst = plan.worst.as_ref().map(|wm| {
         // Static: the inputs change at the vector's start; dynamic: timed from clk↑ at its
@@ -723,6 +849,23 @@ pub fn deck(spec: &Spec, design: &Design, plan: &DeckPlan, netlist: &str) -> Res
             None => format!("{}% of each period", trim_num(plan.strobe * 100.0)),
         },
         model_lines,
+        clk_src: src("clk"),
+        driver_note: match &plan.drivers {
+            Some(d) => vec![
+                format!("Drivers: {}.", d.rule),
+                format!(
+                    "Slowest data driver {:.1} ps{}; times are measured from the pins.",
+                    d.data_delay * 1e12,
+                    if dynamic {
+                        format!(", clock driver {:.1} ps", d.clock_delay * 1e12)
+                    } else {
+                        String::new()
+                    }
+                ),
+            ],
+            None => vec!["Drivers: ideal sources on the pins.".into()],
+        },
+        drivers: driver_lines,
         sources,
         dut: LinesCtx::new(wrap(&dut, LINE)),
         save: LinesCtx::new(wrap(&save, LINE)),

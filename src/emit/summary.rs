@@ -220,6 +220,7 @@ pub fn json(
             "step_s": deck.step,
             "tstop_s": deck.tstop,
             "input_slew_s": deck.slew,
+            "drivers": deck.drivers,
             "load_f": spec.testbench.load,
             "strobe_fraction": deck.strobe,
             "precharge_strobe_fraction": deck.precharge_strobe,
@@ -232,10 +233,15 @@ pub fn json(
                     w.from, w.from_edge, w.to, w.to_edge, w.vector, w.estimate_ps
                 )),
                 "power": if spec.style == Style::Dynamic {
-                    "average power from vector 1 to the end, W: the supply's, plus the clock's charging energy as a clock driver on the same supply would draw it"
+                    if deck.drivers.is_some() {
+                        "average power from vector 1 to the end, W: the adder's supply plus the clock driver's (vclkd: its chain and the clk node); the data drivers' supply (vdrv) is not counted"
+                    } else {
+                        "average power from vector 1 to the end, W: the supply's, plus the clock's charging energy as a clock driver on the same supply would draw it"
+                    }
                 } else {
                     "average supply power from vector 1 to the end, W"
                 },
+                "clock_energy_per_op": if spec.style == Style::Dynamic { serde_json::json!("the clock's share of energy_per_op, J") } else { serde_json::Value::Null },
                 "energy_per_op": "energy per addition, J: the energy of vectors 1 to the last (vector 0 starts from the operating point) divided by their number; over the deck's vectors, mostly directed worst cases, so not the timing estimate's energy_fj at 50 % random activity",
             },
         }))?,

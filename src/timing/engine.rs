@@ -193,8 +193,11 @@ pub struct Graph {
     pub width: usize,
     pub dynamic: bool,
     pub vdd_v: f64,
-    /// Input transition 10–90 %, ps.
+    /// Input transition 10–90 %, ps: the ideal source's (the technology's `slew`); with the
+    /// deck's buffered drivers each input has its own, `input_slews`.
     pub input_slew_ps: f64,
+    /// Per node, the transition an input edge starts with (ps); `input_slew_ps` elsewhere.
+    pub input_slews: Vec<f64>,
     /// The input-slope share fitted to the technology's FO4 ([`slope_share`]).
     pub slope_k: f64,
     pub tm: Timing,
@@ -310,6 +313,14 @@ impl Graph {
                 cap_ff[g] += (per_bit_ff * span as f64 * 1e4).round() / 1e4;
             }
         }
+        // Each input's edge: an ideal ramp, or what the deck's driver chain gives the pin.
+        let ideal_slew = spec.technology.slew * 1e12 * 0.8;
+        let mut input_slews = vec![ideal_slew; n];
+        if spec.testbench.buffered(&spec.technology) {
+            for &x in &inputs {
+                input_slews[x as usize] = super::drivers::pin_slew_ps(spec, tm, cap_ff[x as usize]);
+            }
+        }
         // Channel-connected stages by union-find over source/drain, sources excluded.
         let mut parent: Vec<u32> = (0..n as u32).collect();
         fn find(p: &mut [u32], mut x: u32) -> u32 {
@@ -415,7 +426,8 @@ impl Graph {
             dynamic: design.dynamic,
             vdd_v: spec.technology.vdd,
             // The deck's sources ramp 0–100 % in `slew`; 10–90 % is 0.8 of it.
-            input_slew_ps: spec.technology.slew * 1e12 * 0.8,
+            input_slew_ps: ideal_slew,
+            input_slews,
             slope_k: slope_share(tm),
             tm: tm.clone(),
             key_nodes,
@@ -1223,7 +1235,7 @@ impl<'g> Sim<'g> {
                     node: x,
                     value: v,
                     time_ps: 0.0,
-                    slew_ps: g.input_slew_ps,
+                    slew_ps: g.input_slews[x as usize],
                     cause: NONE,
                     dev: NONE,
                 });
@@ -1387,7 +1399,7 @@ impl Topo {
         }
         let mut arrival = vec![0.0f64; g.n_nodes()];
         let mut delay = vec![0.0f64; g.n_nodes()];
-        let mut slew = vec![g.input_slew_ps; g.n_nodes()];
+        let mut slew = g.input_slews.clone();
         let mut ready: VecDeque<usize> = (0..ns).filter(|&s| indeg[s] == 0).collect();
         let mut order = Vec::with_capacity(ns);
         while let Some(si) = ready.pop_front() {

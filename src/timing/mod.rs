@@ -7,6 +7,7 @@
 //! those conditions.
 
 pub mod characterize;
+pub mod drivers;
 pub mod engine;
 pub mod keeper;
 pub mod search;
