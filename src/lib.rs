@@ -17,6 +17,7 @@ pub mod output;
 pub mod passes;
 pub mod ratio;
 pub mod sim;
+pub mod simulate;
 pub mod spec;
 pub mod tech;
 pub mod timing;

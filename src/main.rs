@@ -89,6 +89,41 @@ enum Command {
         #[arg(long, value_name = "DIR")]
         model_dir: Option<PathBuf>,
     },
+    /// Write the views into DIR, run Icarus Verilog on the Verilog testbench and ngspice on the
+    /// deck, and write DIR/NAME.results.json with the measurements beside the timing engine's
+    /// estimate. Exit 3 wrong outputs, 4 a failed measurement or no convergence, 5 a
+    /// simulator or the models missing, 6 a time-out.
+    Simulate {
+        /// The adder spec (YAML; `-` reads it from standard input).
+        spec: PathBuf,
+        /// Output folder for the views, the logs and the results.
+        #[arg(short, long, value_name = "DIR", default_value = "out")]
+        out: PathBuf,
+        /// Process corner to simulate at (overrides the spec's conditions).
+        #[arg(long, value_name = "C")]
+        corner: Option<String>,
+        /// Temperature, degC (overrides the spec's conditions).
+        #[arg(long, value_name = "DEG", allow_negative_numbers = true)]
+        temp: Option<f64>,
+        /// Supply, volts (overrides the spec's conditions).
+        #[arg(long, value_name = "V")]
+        vdd: Option<f64>,
+        /// Wall-clock limit of each simulator run, seconds.
+        #[arg(long, value_name = "S", default_value_t = 3600.0)]
+        timeout: f64,
+        /// Do not run Icarus Verilog.
+        #[arg(long)]
+        no_icarus: bool,
+        /// Do not run ngspice.
+        #[arg(long)]
+        no_ngspice: bool,
+        /// Print NAME.results.json instead of the summary.
+        #[arg(long)]
+        json: bool,
+        /// Folder holding the technology's ngspice models (else its environment variable).
+        #[arg(long, value_name = "DIR")]
+        model_dir: Option<PathBuf>,
+    },
     /// Characterise a technology in ngspice (switching resistances, capacitances, pass
     /// devices, FO4, tau, p_inv) and write a technology file carrying the timing parameters.
     Characterize {
@@ -286,6 +321,55 @@ fn run(cli: Cli) -> Result<ExitCode> {
                 say_error(&format!("{}: logic check failed: {failed}", s.name));
             }
             Ok(ExitCode::from(1))
+        }
+        Command::Simulate {
+            spec,
+            out: dir,
+            corner,
+            temp,
+            vdd,
+            timeout,
+            no_icarus,
+            no_ngspice,
+            json,
+            model_dir,
+        } => {
+            if !(timeout.is_finite() && timeout > 0.0 && timeout <= 1e6) {
+                return Err(Error::Input(format!(
+                    "--timeout: expected seconds above 0 and at most 1000000, got {timeout}"
+                )));
+            }
+            let mut s = load_spec(&spec, &LoadOptions { model_dir })?;
+            let c = carrywright::tech::Conditions { corner, temp, vdd };
+            s.technology
+                .apply_conditions(&c)
+                .map_err(|(k, m)| Error::Input(format!("--{k}: {m}")))?;
+            let g = carrywright::generate(&s)?;
+            carrywright::write_outputs(&dir, &g.files)?;
+            let o = carrywright::simulate::Options {
+                icarus: !no_icarus,
+                ngspice: !no_ngspice,
+                timeout: std::time::Duration::from_secs_f64(timeout),
+                ..Default::default()
+            };
+            let r = carrywright::simulate::simulate(&s, g.estimate.as_ref(), &dir, &o)?;
+            let text = serde_json::to_string_pretty(&r)
+                .map_err(|e| Error::Output(format!("results: {e}")))?;
+            carrywright::write_file(
+                &dir.join(format!("{}.results.json", s.name)),
+                &(text.clone() + "\n"),
+            )?;
+            if json {
+                out.line(text);
+            } else {
+                out.line(carrywright::simulate::summary(&r, &shown_path(&dir)));
+            }
+            if r.exit_code != 0 {
+                if let Some(f) = &r.failure {
+                    say_error(&format!("{}: {f}", s.name));
+                }
+            }
+            Ok(ExitCode::from(r.exit_code))
         }
         Command::Characterize {
             technology,

@@ -280,10 +280,9 @@ impl DeckPlan {
         // The drivers delay every pin's edge after its source's: the clock's in dynamic style
         // (inputs wait for clk to fall, evaluation starts when it has risen), the slowest
         // data driver's in static style.
-        let lag =
-            drivers
-                .as_ref()
-                .map_or(0.0, |d| if dynamic { d.clock_delay } else { d.data_delay });
+        let lag = drivers
+            .as_ref()
+            .map_or(0.0, |d| if dynamic { d.clock_delay } else { d.data_delay });
         let (period, period_rule) = match (spec.testbench.period, estimate) {
             (Some(p), _) => (p, "testbench.period".to_string()),
             (None, Some(e)) => period_from_estimate(spec, e, lag),
