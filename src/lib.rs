@@ -19,6 +19,7 @@ pub mod ratio;
 pub mod sim;
 pub mod simulate;
 pub mod spec;
+pub mod sweep;
 pub mod tech;
 pub mod timing;
 

@@ -124,6 +124,29 @@ enum Command {
         #[arg(long, value_name = "DIR")]
         model_dir: Option<PathBuf>,
     },
+    /// Run a sweep: a base spec and lists of values (width, architecture, style, block,
+    /// buffers, sizing, corner, temp, vdd, load), every point estimated (and simulated in
+    /// ngspice unless --estimate-only) in parallel; writes DIR/results.csv, results.json and
+    /// report.md and prints, per width, the fastest, smallest and lowest-energy design.
+    Sweep {
+        /// The sweep file (YAML: base, vary, exclude, target).
+        sweep: PathBuf,
+        /// Output folder (results, report, and points/ with each point's result).
+        #[arg(short, long, value_name = "DIR")]
+        out: PathBuf,
+        /// Only the timing engine's estimates; no simulator runs.
+        #[arg(long)]
+        estimate_only: bool,
+        /// Compute at most N new points, then stop (the rest are left for a later run).
+        #[arg(long, value_name = "N")]
+        limit: Option<usize>,
+        /// Wall-clock limit of each simulator run, seconds.
+        #[arg(long, value_name = "S", default_value_t = 3600.0)]
+        timeout: f64,
+        /// Folder holding the technology's ngspice models (else its environment variable).
+        #[arg(long, value_name = "DIR")]
+        model_dir: Option<PathBuf>,
+    },
     /// Characterise a technology in ngspice (switching resistances, capacitances, pass
     /// devices, FO4, tau, p_inv) and write a technology file carrying the timing parameters.
     Characterize {
@@ -370,6 +393,76 @@ fn run(cli: Cli) -> Result<ExitCode> {
                 }
             }
             Ok(ExitCode::from(r.exit_code))
+        }
+        Command::Sweep {
+            sweep,
+            out: dir,
+            estimate_only,
+            limit,
+            timeout,
+            model_dir,
+        } => {
+            if !(timeout.is_finite() && timeout > 0.0 && timeout <= 1e6) {
+                return Err(Error::Input(format!(
+                    "--timeout: expected seconds above 0 and at most 1000000, got {timeout}"
+                )));
+            }
+            let sw = carrywright::sweep::Sweep::load(&sweep)?;
+            let o = carrywright::sweep::Options {
+                estimate_only,
+                limit,
+                timeout: std::time::Duration::from_secs_f64(timeout),
+                load: LoadOptions { model_dir },
+                progress: !cli.quiet,
+            };
+            let outcome = carrywright::sweep::run(&sw, &dir, &o)?;
+            let answers = carrywright::sweep::answer::answer(&outcome.points, sw.target);
+            let json = serde_json::json!({
+                "tool_version": env!("CARGO_PKG_VERSION"),
+                "points": outcome.points,
+                "computed": outcome.computed,
+                "reused": outcome.reused,
+                "left": outcome.left,
+                "target": sw.target,
+                "answer": answers,
+            });
+            carrywright::write_outputs(
+                &dir,
+                &[
+                    (
+                        "results.csv".into(),
+                        carrywright::sweep::csv(&sw, &outcome.points),
+                    ),
+                    (
+                        "results.json".into(),
+                        serde_json::to_string_pretty(&json).unwrap_or_default() + "\n",
+                    ),
+                    (
+                        "report.md".into(),
+                        carrywright::sweep::report(&sw, &outcome, &answers),
+                    ),
+                ],
+            )?;
+            let bad = outcome.points.iter().filter(|p| !p.ok()).count();
+            out.line(format!(
+                "{} points ({} computed, {} reused{}), {} not ok; {:.1} s",
+                outcome.points.len(),
+                outcome.computed,
+                outcome.reused,
+                if outcome.left > 0 {
+                    format!(", {} left: run again to finish", outcome.left)
+                } else {
+                    String::new()
+                },
+                bad,
+                outcome.wall_s
+            ));
+            out.line(carrywright::sweep::answer::table(&sw, &outcome.points, &answers).trim_end());
+            out.line(format!(
+                "wrote {}/results.csv, results.json, report.md",
+                shown_path(&dir)
+            ));
+            Ok(ExitCode::SUCCESS)
         }
         Command::Characterize {
             technology,

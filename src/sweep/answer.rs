@@ -1,0 +1,158 @@
+//! The sweep's answer: for each width, the fastest, the smallest and the lowest-energy
+//! design, and the smallest design that meets the target delay at every corner listed.
+
+use super::{label, PointResult, Sweep, Target, CONDITION_KEYS};
+use serde::Serialize;
+use std::collections::BTreeMap;
+
+/// One width's answer; each entry a point index.
+#[derive(Debug, Clone, Serialize)]
+pub struct Answer {
+    pub width: usize,
+    pub fastest: Option<usize>,
+    pub smallest: Option<usize>,
+    pub lowest_energy: Option<usize>,
+    /// The smallest design whose every corner's point meets the target with the margin:
+    /// (the design's slowest point, the design's points).
+    pub meets_target: Option<(usize, Vec<usize>)>,
+    /// Designs considered for the target (every corner of them computed and ok).
+    pub designs: usize,
+}
+
+fn min_by(points: &[&PointResult], f: impl Fn(&PointResult) -> Option<f64>) -> Option<usize> {
+    points
+        .iter()
+        .filter_map(|p| f(p).map(|x| (x, p.index)))
+        .min_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)))
+        .map(|(_, i)| i)
+}
+
+/// The design a point belongs to: its varied values other than the conditions.
+fn design_key(p: &PointResult) -> String {
+    p.values
+        .iter()
+        .filter(|(k, _)| !CONDITION_KEYS.contains(&k.as_str()))
+        .map(|(k, v)| format!("{k}={v}"))
+        .collect::<Vec<_>>()
+        .join(" ")
+}
+
+pub fn answer(points: &[PointResult], target: Option<Target>) -> Vec<Answer> {
+    let mut widths: BTreeMap<usize, Vec<&PointResult>> = BTreeMap::new();
+    for p in points.iter().filter(|p| p.ok()) {
+        if let Some(w) = p.width {
+            widths.entry(w).or_default().push(p);
+        }
+    }
+    let mut all_by_design: BTreeMap<String, Vec<&PointResult>> = BTreeMap::new();
+    for p in points {
+        all_by_design.entry(design_key(p)).or_default().push(p);
+    }
+    widths
+        .into_iter()
+        .map(|(w, ps)| {
+            let mut designs = 0;
+            let meets_target = target.and_then(|t| {
+                let mut best: Option<(f64, usize, Vec<usize>)> = None;
+                for group in all_by_design.values() {
+                    if group.iter().any(|p| p.width != Some(w) || !p.ok()) {
+                        continue;
+                    }
+                    designs += 1;
+                    let slowest = group
+                        .iter()
+                        .max_by(|a, b| {
+                            a.delay_ps()
+                                .unwrap_or(f64::INFINITY)
+                                .total_cmp(&b.delay_ps().unwrap_or(f64::INFINITY))
+                        })
+                        .expect("a point");
+                    let d = slowest.delay_ps().unwrap_or(f64::INFINITY) * 1e-12;
+                    if d * (1.0 + t.margin) > t.delay_s {
+                        continue;
+                    }
+                    let area = group
+                        .iter()
+                        .filter_map(|p| p.gate_area_um2)
+                        .fold(0.0, f64::max);
+                    if best.as_ref().is_none_or(|b| area < b.0) {
+                        best = Some((area, slowest.index, group.iter().map(|p| p.index).collect()));
+                    }
+                }
+                best.map(|(_, i, g)| (i, g))
+            });
+            Answer {
+                width: w,
+                fastest: min_by(&ps, |p| p.delay_ps()),
+                smallest: min_by(&ps, |p| p.gate_area_um2),
+                lowest_energy: min_by(&ps, |p| p.energy_fj),
+                meets_target,
+                designs,
+            }
+        })
+        .collect()
+}
+
+fn describe(p: &PointResult) -> String {
+    let delay = p
+        .delay_ps()
+        .map(|d| {
+            format!(
+                "{:.0} ps{}",
+                d,
+                if p.sim_worst_ps.is_some() {
+                    " measured"
+                } else {
+                    ""
+                }
+            )
+        })
+        .unwrap_or_default();
+    format!(
+        "#{} {} ({delay}, {:.0} um2, {:.0} fJ)",
+        p.index,
+        label(p),
+        p.gate_area_um2.unwrap_or(0.0),
+        p.energy_fj.unwrap_or(0.0)
+    )
+}
+
+/// The answer as a Markdown table (the report's head and the command's last lines).
+pub fn table(sweep: &Sweep, points: &[PointResult], answers: &[Answer]) -> String {
+    let by = |i: usize| points.iter().find(|p| p.index == i);
+    let cell = |i: Option<usize>| {
+        i.and_then(by)
+            .map(describe)
+            .unwrap_or_else(|| "none".into())
+    };
+    let mut s = String::from("| width | fastest | smallest (gate area) | lowest energy |");
+    if sweep.target.is_some() {
+        s.push_str(" smallest meeting the target |");
+    }
+    s.push('\n');
+    s.push_str("|---|---|---|---|");
+    if sweep.target.is_some() {
+        s.push_str("---|");
+    }
+    s.push('\n');
+    for a in answers {
+        s.push_str(&format!(
+            "| {} | {} | {} | {} |",
+            a.width,
+            cell(a.fastest),
+            cell(a.smallest),
+            cell(a.lowest_energy)
+        ));
+        if sweep.target.is_some() {
+            s.push_str(&format!(
+                " {} |",
+                match &a.meets_target {
+                    Some((i, _)) => format!("{} (its slowest corner)", cell(Some(*i))),
+                    None => format!("none of {} designs", a.designs),
+                }
+            ));
+        }
+        s.push('\n');
+    }
+    s
+}

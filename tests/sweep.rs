@@ -1,0 +1,170 @@
+//! `carrywright sweep`: the cross product of a sweep file's lists, refused points recorded
+//! not fatal, results reused across runs (an interrupted sweep resumes and ends equal to a
+//! clean run), the answer per width, and ngspice runs in parallel.
+
+mod common;
+
+use std::path::Path;
+use std::process::Command;
+
+struct Run {
+    code: Option<i32>,
+    stdout: String,
+    stderr: String,
+}
+
+fn sweep(dir: &Path, yaml: &str, args: &[&str]) -> Run {
+    std::fs::write(dir.join("sweep.yaml"), yaml).unwrap();
+    let o = Command::new(env!("CARGO_BIN_EXE_carrywright"))
+        .current_dir(dir)
+        .args(["sweep", "sweep.yaml", "-o", "out"])
+        .args(args)
+        .output()
+        .unwrap();
+    Run {
+        code: o.status.code(),
+        stdout: String::from_utf8_lossy(&o.stdout).into(),
+        stderr: String::from_utf8_lossy(&o.stderr).into(),
+    }
+}
+
+fn read(dir: &Path, f: &str) -> String {
+    std::fs::read_to_string(dir.join("out").join(f)).unwrap()
+}
+
+/// Two architectures × two widths × two corners on GF180MCU (the characterised files ship
+/// with the tool, so estimates need no simulator).
+const SMALL: &str = "base:\n  name: acc\n  width: 8\n  architecture: ripple\n  technology: gf180mcu-3v3\n  testbench: {load: 20f, random: 0}\nvary:\n  width: [8, 16]\n  architecture: [ripple, kogge-stone]\n  corner: [typical, ss]\ntarget: {delay: 2n, margin: 10%}\n";
+
+/// The estimate-only sweep: one CSV row a point in cross-product order, with units in the
+/// header; the answer names, per width, the fastest design (Kogge-Stone beats ripple at
+/// both widths: log-depth against linear, Kogge & Stone 1973) and the smallest (ripple).
+#[test]
+fn estimate_only_sweep_writes_rows_and_answers() {
+    let dir = tempfile::tempdir().unwrap();
+    let r = sweep(dir.path(), SMALL, &["--estimate-only"]);
+    assert_eq!(r.code, Some(0), "{}\n{}", r.stdout, r.stderr);
+    let csv = read(dir.path(), "results.csv");
+    let lines: Vec<&str> = csv.lines().collect();
+    assert_eq!(lines.len(), 9, "{csv}");
+    assert!(
+        lines[0].starts_with("point,hash,width,architecture,corner,status,"),
+        "{}",
+        lines[0]
+    );
+    assert!(lines[0].contains("worst_ps") && lines[0].contains("gate_area_um2"));
+    // Cross-product order: width slowest, corner fastest.
+    assert!(lines[1].contains(",8,ripple,typical,ok,"), "{}", lines[1]);
+    assert!(lines[8].contains(",16,kogge-stone,ss,ok,"), "{}", lines[8]);
+    let j: serde_json::Value = serde_json::from_str(&read(dir.path(), "results.json")).unwrap();
+    let points = j["points"].as_array().unwrap();
+    for a in j["answer"].as_array().unwrap() {
+        let fastest = &points[a["fastest"].as_u64().unwrap() as usize];
+        let smallest = &points[a["smallest"].as_u64().unwrap() as usize];
+        assert!(
+            fastest["title"].as_str().unwrap().contains("kogge-stone"),
+            "{a}"
+        );
+        assert!(
+            smallest["title"].as_str().unwrap().contains("ripple"),
+            "{a}"
+        );
+    }
+    let report = read(dir.path(), "report.md");
+    assert!(
+        report.contains("## Which adder") && report.contains("kogge-stone"),
+        "{report}"
+    );
+    assert!(r.stdout.contains("| 16 |"), "{}", r.stdout);
+}
+
+/// A point the tool refuses (dynamic style on ripple) is recorded with its reason; the
+/// sweep goes on. An unknown `vary` key is a sweep-file error: exit 2, the key named.
+#[test]
+fn refused_points_are_recorded_and_bad_files_refused() {
+    let dir = tempfile::tempdir().unwrap();
+    let yaml = "base:\n  name: acc\n  width: 8\n  architecture: ripple\nvary:\n  style: [static, dynamic]\n";
+    let r = sweep(dir.path(), yaml, &["--estimate-only"]);
+    assert_eq!(r.code, Some(0), "{}", r.stderr);
+    let csv = read(dir.path(), "results.csv");
+    let row = csv.lines().find(|l| l.contains(",dynamic,")).unwrap();
+    assert!(
+        row.contains(",refused,") && row.contains("dynamic"),
+        "{row}"
+    );
+    let bad = sweep(
+        dir.path(),
+        "base: {name: a, width: 8}\nvary:\n  colour: [red]\n",
+        &["--estimate-only"],
+    );
+    assert_eq!(bad.code, Some(2));
+    assert!(bad.stderr.contains("vary.colour"), "{}", bad.stderr);
+}
+
+/// Interrupted after 3 points (`--limit`), then run again: the finished points are reused
+/// and the final results equal a clean run's, byte for byte.
+#[test]
+fn interrupted_sweep_resumes_to_the_clean_result() {
+    let clean = tempfile::tempdir().unwrap();
+    assert_eq!(
+        sweep(clean.path(), SMALL, &["--estimate-only"]).code,
+        Some(0)
+    );
+    let dir = tempfile::tempdir().unwrap();
+    let first = sweep(dir.path(), SMALL, &["--estimate-only", "--limit", "3"]);
+    assert_eq!(first.code, Some(0));
+    let j: serde_json::Value = serde_json::from_str(&read(dir.path(), "results.json")).unwrap();
+    assert_eq!(j["points"].as_array().unwrap().len(), 3);
+    assert_eq!(j["left"], 5);
+    assert_eq!(sweep(dir.path(), SMALL, &["--estimate-only"]).code, Some(0));
+    let j: serde_json::Value = serde_json::from_str(&read(dir.path(), "results.json")).unwrap();
+    assert_eq!(
+        (j["reused"].as_u64(), j["computed"].as_u64()),
+        (Some(3), Some(5))
+    );
+    assert_eq!(
+        read(dir.path(), "results.csv"),
+        read(clean.path(), "results.csv")
+    );
+    assert_eq!(
+        read(dir.path(), "report.md")
+            .lines()
+            .skip(3)
+            .collect::<Vec<_>>(),
+        read(clean.path(), "report.md")
+            .lines()
+            .skip(3)
+            .collect::<Vec<_>>()
+    );
+}
+
+/// With ngspice (the reference): every point of the small sweep is simulated, its worst
+/// path measured within 15 % of its estimate (the engine's accuracy target), and the
+/// corner order holds (ss slower than typical) in measurement too.
+#[test]
+fn ngspice_sweep_measures_every_point() {
+    if !common::tools(&["ngspice"]) {
+        return;
+    }
+    if common::model_dir().is_none() {
+        return;
+    }
+    let dir = tempfile::tempdir().unwrap();
+    let r = sweep(dir.path(), SMALL, &[]);
+    assert_eq!(r.code, Some(0), "{}\n{}", r.stdout, r.stderr);
+    let j: serde_json::Value = serde_json::from_str(&read(dir.path(), "results.json")).unwrap();
+    let points = j["points"].as_array().unwrap();
+    assert_eq!(points.len(), 8);
+    for p in points {
+        assert_eq!(p["status"], "ok", "{p}");
+        let err = p["sim_error_pct"].as_f64().unwrap();
+        assert!(err.abs() < 15.0, "{p}");
+    }
+    for pair in points.chunks(2) {
+        // Each pair is (typical, ss) of one design.
+        assert!(
+            pair[1]["sim_worst_ps"].as_f64() > pair[0]["sim_worst_ps"].as_f64(),
+            "{pair:?}"
+        );
+    }
+}
