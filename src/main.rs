@@ -426,23 +426,45 @@ fn run(cli: Cli) -> Result<ExitCode> {
                 "target": sw.target,
                 "answer": answers,
             });
-            carrywright::write_outputs(
-                &dir,
-                &[
-                    (
-                        "results.csv".into(),
-                        carrywright::sweep::csv(&sw, &outcome.points),
-                    ),
-                    (
-                        "results.json".into(),
-                        serde_json::to_string_pretty(&json).unwrap_or_default() + "\n",
-                    ),
-                    (
-                        "report.md".into(),
-                        carrywright::sweep::report(&sw, &outcome, &answers),
-                    ),
-                ],
-            )?;
+            let mut files: Vec<(String, String)> = vec![
+                (
+                    "results.csv".into(),
+                    carrywright::sweep::csv(&sw, &outcome.points),
+                ),
+                (
+                    "results.json".into(),
+                    serde_json::to_string_pretty(&json).unwrap_or_default() + "\n",
+                ),
+                (
+                    "report.md".into(),
+                    carrywright::sweep::report(&sw, &outcome, &answers),
+                ),
+            ];
+            let mut plots: Vec<(String, String)> = vec![];
+            for (name, svg) in [
+                (
+                    "delay_vs_width.svg",
+                    carrywright::sweep::plots::delay_vs_width(&outcome.points),
+                ),
+                (
+                    "delay_vs_area.svg",
+                    carrywright::sweep::plots::delay_vs_area(&outcome.points),
+                ),
+                (
+                    "estimate_vs_ngspice.svg",
+                    carrywright::sweep::plots::estimate_vs_measured(&outcome.points),
+                ),
+            ] {
+                if let Some(svg) = svg {
+                    plots.push((name.to_string(), svg));
+                }
+            }
+            files.push((
+                "report.html".into(),
+                carrywright::sweep::report::html(&sw, &outcome, &answers, &plots),
+            ));
+            files.extend(plots.iter().cloned());
+            carrywright::write_outputs(&dir, &files)?;
             let bad = outcome.points.iter().filter(|p| !p.ok()).count();
             out.line(format!(
                 "{} points ({} computed, {} reused{}), {} not ok; {:.1} s",
@@ -459,8 +481,9 @@ fn run(cli: Cli) -> Result<ExitCode> {
             ));
             out.line(carrywright::sweep::answer::table(&sw, &outcome.points, &answers).trim_end());
             out.line(format!(
-                "wrote {}/results.csv, results.json, report.md",
-                shown_path(&dir)
+                "wrote {}/results.csv, results.json, report.md, report.html and {} plots",
+                shown_path(&dir),
+                plots.len()
             ));
             Ok(ExitCode::SUCCESS)
         }

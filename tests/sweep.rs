@@ -168,3 +168,73 @@ fn ngspice_sweep_measures_every_point() {
         );
     }
 }
+
+/// The plots are SVG that parses as XML (roxmltree) and carries drawn marks; the HTML report
+/// embeds them all and renders in a real headless browser (Debian's Chromium): after load,
+/// the page's own script counts the plots that laid out with marks in them, and the DOM dump
+/// must show every plot counted. A screenshot is kept in target/sweep-report.png.
+#[test]
+fn report_plots_parse_and_render_in_chromium() {
+    let dir = tempfile::tempdir().unwrap();
+    assert_eq!(sweep(dir.path(), SMALL, &["--estimate-only"]).code, Some(0));
+    let out = dir.path().join("out");
+    let mut plots = 0;
+    for name in ["delay_vs_width.svg", "delay_vs_area.svg"] {
+        let text = std::fs::read_to_string(out.join(name)).unwrap();
+        let doc = roxmltree::Document::parse(&text).unwrap_or_else(|e| panic!("{name}: {e}"));
+        assert_eq!(doc.root_element().tag_name().name(), "svg");
+        let marks = doc
+            .descendants()
+            .filter(|n| n.has_tag_name("circle"))
+            .count();
+        assert!(marks >= 4, "{name}: {marks} points drawn");
+        plots += 1;
+    }
+    let html = std::fs::read_to_string(out.join("report.html")).unwrap();
+    assert_eq!(html.matches("<svg").count(), plots, "every plot inline");
+    if !common::tools(&["chromium"]) {
+        return;
+    }
+    let profile = tempfile::tempdir().unwrap();
+    let url = format!("file://{}", out.join("report.html").display());
+    let flags = [
+        "--headless",
+        "--no-sandbox",
+        "--disable-gpu",
+        "--disable-background-networking",
+        "--disable-component-update",
+        "--disable-sync",
+        "--no-first-run",
+    ];
+    let o = Command::new("chromium")
+        .args(flags)
+        .arg(format!("--user-data-dir={}", profile.path().display()))
+        .arg("--dump-dom")
+        .arg(&url)
+        .output()
+        .unwrap();
+    let dom = String::from_utf8_lossy(&o.stdout);
+    assert!(
+        dom.contains(&format!("data-plots-rendered=\"{plots}\"")),
+        "Chromium's DOM: {}",
+        dom.chars().take(400).collect::<String>()
+    );
+    let shot = Path::new(env!("CARGO_MANIFEST_DIR")).join("target/sweep-report.png");
+    let o = Command::new("chromium")
+        .args(flags)
+        .arg(format!("--user-data-dir={}", profile.path().display()))
+        .arg(format!("--screenshot={}", shot.display()))
+        .arg("--window-size=1200,1600")
+        .arg(&url)
+        .output()
+        .unwrap();
+    assert!(
+        o.status.success() && shot.is_file(),
+        "{}",
+        String::from_utf8_lossy(&o.stderr)
+    );
+    assert!(
+        std::fs::metadata(&shot).unwrap().len() > 10_000,
+        "a blank screenshot"
+    );
+}

@@ -29,6 +29,8 @@
 //! names, the tool version and the mode, so a re-run reuses every finished point.
 
 pub mod answer;
+pub mod plots;
+pub mod report;
 
 use crate::error::{Error, Result};
 use crate::spec::{LoadOptions, Spec};
@@ -331,6 +333,7 @@ pub struct PointResult {
     pub status: String,
     pub reason: Option<String>,
     pub title: Option<String>,
+    pub architecture: Option<String>,
     pub width: Option<usize>,
     pub conditions: Option<String>,
     pub worst_ps: Option<f64>,
@@ -358,11 +361,29 @@ impl PointResult {
     }
 }
 
+/// This build of the tool: a digest of the running executable (read once), so a rebuilt tool
+/// never reuses another build's results.
+fn build_id() -> &'static str {
+    static ID: std::sync::OnceLock<String> = std::sync::OnceLock::new();
+    ID.get_or_init(|| {
+        use sha2::{Digest, Sha256};
+        let bytes = std::env::current_exe()
+            .and_then(std::fs::read)
+            .unwrap_or_default();
+        Sha256::digest(&bytes)
+            .iter()
+            .take(8)
+            .map(|b| format!("{b:02x}"))
+            .collect()
+    })
+}
+
 fn hash_of(text: &str, spec_dir: &Path, estimate_only: bool) -> String {
     use sha2::{Digest, Sha256};
     let mut h = Sha256::new();
     h.update(b"carrywright sweep point 1\n");
     h.update(env!("CARGO_PKG_VERSION").as_bytes());
+    h.update(build_id().as_bytes());
     h.update(if estimate_only {
         b"estimate\n"
     } else {
@@ -402,6 +423,7 @@ fn evaluate(
         status: "ok".into(),
         reason: None,
         title: None,
+        architecture: None,
         width: None,
         conditions: None,
         worst_ps: None,
@@ -432,6 +454,7 @@ fn evaluate(
         Err(e) => return refuse(r, e),
     };
     r.title = Some(crate::emit::title(&spec));
+    r.architecture = Some(spec.architecture.as_str().to_string());
     r.width = Some(spec.width);
     let t = &spec.technology;
     r.conditions = Some(format!(
