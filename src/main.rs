@@ -132,8 +132,12 @@ enum Command {
         /// The sweep file (YAML: base, vary, exclude, target).
         sweep: PathBuf,
         /// Output folder (results, report, and points/ with each point's result).
-        #[arg(short, long, value_name = "DIR")]
-        out: PathBuf,
+        #[arg(short, long, value_name = "DIR", conflicts_with = "export_jobs")]
+        out: Option<PathBuf>,
+        /// Write the sweep as jobs into DIR instead (one folder a point, a Makefile and a
+        /// Slurm job-array script); `carrywright collect DIR` gathers their results.
+        #[arg(long, value_name = "DIR")]
+        export_jobs: Option<PathBuf>,
         /// Only the timing engine's estimates; no simulator runs.
         #[arg(long)]
         estimate_only: bool,
@@ -146,6 +150,20 @@ enum Command {
         /// Folder holding the technology's ngspice models (else its environment variable).
         #[arg(long, value_name = "DIR")]
         model_dir: Option<PathBuf>,
+    },
+    /// Run one exported sweep job (a folder `sweep --export-jobs` wrote): writes its
+    /// result.json.
+    Job {
+        /// The job's folder (DIR/jobs/NNNN).
+        dir: PathBuf,
+        /// Folder holding the technology's ngspice models (else its environment variable).
+        #[arg(long, value_name = "DIR")]
+        model_dir: Option<PathBuf>,
+    },
+    /// Gather an exported sweep's job results into the files a local sweep writes.
+    Collect {
+        /// The folder `sweep --export-jobs` wrote.
+        dir: PathBuf,
     },
     /// Characterise a technology in ngspice (switching resistances, capacitances, pass
     /// devices, FO4, tau, p_inv) and write a technology file carrying the timing parameters.
@@ -397,6 +415,7 @@ fn run(cli: Cli) -> Result<ExitCode> {
         Command::Sweep {
             sweep,
             out: dir,
+            export_jobs,
             estimate_only,
             limit,
             timeout,
@@ -415,77 +434,37 @@ fn run(cli: Cli) -> Result<ExitCode> {
                 load: LoadOptions { model_dir },
                 progress: !cli.quiet,
             };
-            let outcome = carrywright::sweep::run(&sw, &dir, &o)?;
-            let answers = carrywright::sweep::answer::answer(&outcome.points, sw.target);
-            let json = serde_json::json!({
-                "tool_version": env!("CARGO_PKG_VERSION"),
-                "points": outcome.points,
-                "computed": outcome.computed,
-                "reused": outcome.reused,
-                "left": outcome.left,
-                "target": sw.target,
-                "answer": answers,
-            });
-            let mut files: Vec<(String, String)> = vec![
-                (
-                    "results.csv".into(),
-                    carrywright::sweep::csv(&sw, &outcome.points),
-                ),
-                (
-                    "results.json".into(),
-                    serde_json::to_string_pretty(&json).unwrap_or_default() + "\n",
-                ),
-                (
-                    "report.md".into(),
-                    carrywright::sweep::report(&sw, &outcome, &answers),
-                ),
-            ];
-            let mut plots: Vec<(String, String)> = vec![];
-            for (name, svg) in [
-                (
-                    "delay_vs_width.svg",
-                    carrywright::sweep::plots::delay_vs_width(&outcome.points),
-                ),
-                (
-                    "delay_vs_area.svg",
-                    carrywright::sweep::plots::delay_vs_area(&outcome.points),
-                ),
-                (
-                    "estimate_vs_ngspice.svg",
-                    carrywright::sweep::plots::estimate_vs_measured(&outcome.points),
-                ),
-            ] {
-                if let Some(svg) = svg {
-                    plots.push((name.to_string(), svg));
-                }
+            if let Some(jobs) = export_jobs {
+                let exe = std::env::current_exe()
+                    .map_err(|e| Error::Output(format!("cannot find this program: {e}")))?;
+                let n = carrywright::sweep::jobs::export(&sw, &jobs, &o, &exe)?;
+                out.line(format!(
+                    "wrote {n} jobs into {}/jobs, {0}/Makefile (make -j N) and {0}/slurm.sh (sbatch); then carrywright collect {0}",
+                    shown_path(&jobs)
+                ));
+                return Ok(ExitCode::SUCCESS);
             }
-            files.push((
-                "report.html".into(),
-                carrywright::sweep::report::html(&sw, &outcome, &answers, &plots),
-            ));
-            files.extend(plots.iter().cloned());
-            carrywright::write_outputs(&dir, &files)?;
-            let bad = outcome.points.iter().filter(|p| !p.ok()).count();
+            let Some(dir) = dir else {
+                return Err(Error::Input(
+                    "sweep: give -o DIR (run here) or --export-jobs DIR (write jobs)".into(),
+                ));
+            };
+            let outcome = carrywright::sweep::run(&sw, &dir, &o)?;
+            print_sweep(&out, &sw, &outcome, &dir)
+        }
+        Command::Job { dir, model_dir } => {
+            let r = carrywright::sweep::jobs::run_job(&dir, &LoadOptions { model_dir })?;
             out.line(format!(
-                "{} points ({} computed, {} reused{}), {} not ok; {:.1} s",
-                outcome.points.len(),
-                outcome.computed,
-                outcome.reused,
-                if outcome.left > 0 {
-                    format!(", {} left: run again to finish", outcome.left)
-                } else {
-                    String::new()
-                },
-                bad,
-                outcome.wall_s
-            ));
-            out.line(carrywright::sweep::answer::table(&sw, &outcome.points, &answers).trim_end());
-            out.line(format!(
-                "wrote {}/results.csv, results.json, report.md, report.html and {} plots",
-                shown_path(&dir),
-                plots.len()
+                "job {}: {}{}",
+                r.index,
+                r.status,
+                r.reason.map(|m| format!(": {m}")).unwrap_or_default()
             ));
             Ok(ExitCode::SUCCESS)
+        }
+        Command::Collect { dir } => {
+            let (sw, outcome) = carrywright::sweep::jobs::collect(&dir)?;
+            print_sweep(&out, &sw, &outcome, &dir)
         }
         Command::Characterize {
             technology,
@@ -513,6 +492,36 @@ fn run(cli: Cli) -> Result<ExitCode> {
             Ok(ExitCode::SUCCESS)
         }
     }
+}
+
+/// A sweep's files and its closing lines (the answer table).
+fn print_sweep(
+    out: &Out,
+    sw: &carrywright::sweep::Sweep,
+    outcome: &carrywright::sweep::Outcome,
+    dir: &Path,
+) -> Result<ExitCode> {
+    let (answers, plots) = carrywright::sweep::write_results(sw, outcome, dir)?;
+    let bad = outcome.points.iter().filter(|p| !p.ok()).count();
+    out.line(format!(
+        "{} points ({} computed, {} reused{}), {} not ok; {:.1} s",
+        outcome.points.len(),
+        outcome.computed,
+        outcome.reused,
+        if outcome.left > 0 {
+            format!(", {} left: run again to finish", outcome.left)
+        } else {
+            String::new()
+        },
+        bad,
+        outcome.wall_s
+    ));
+    out.line(carrywright::sweep::answer::table(sw, &outcome.points, &answers).trim_end());
+    out.line(format!(
+        "wrote {}/results.csv, results.json, report.md, report.html and {plots} plots",
+        shown_path(dir)
+    ));
+    Ok(ExitCode::SUCCESS)
 }
 
 /// `describe --json`: the facts of the table as one object.

@@ -160,6 +160,8 @@ fn ngspice_sweep_measures_every_point() {
         let err = p["sim_error_pct"].as_f64().unwrap();
         assert!(err.abs() < 15.0, "{p}");
     }
+    let svg = read(dir.path(), "estimate_vs_ngspice.svg");
+    roxmltree::Document::parse(&svg).unwrap();
     for pair in points.chunks(2) {
         // Each pair is (typical, ss) of one design.
         assert!(
@@ -237,4 +239,116 @@ fn report_plots_parse_and_render_in_chromium() {
         std::fs::metadata(&shot).unwrap().len() > 10_000,
         "a blank screenshot"
     );
+}
+
+/// Export the small sweep as jobs; the results `collect` gathers after the jobs ran equal a
+/// local sweep's, byte for byte.
+fn jobs_equal_local(run_jobs: impl Fn(&Path)) {
+    let local = tempfile::tempdir().unwrap();
+    assert_eq!(
+        sweep(local.path(), SMALL, &["--estimate-only"]).code,
+        Some(0)
+    );
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::write(dir.path().join("sweep.yaml"), SMALL).unwrap();
+    let o = Command::new(env!("CARGO_BIN_EXE_carrywright"))
+        .current_dir(dir.path())
+        .args([
+            "sweep",
+            "sweep.yaml",
+            "--export-jobs",
+            "jobs",
+            "--estimate-only",
+        ])
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let jobs = dir.path().join("jobs");
+    assert!(jobs.join("Makefile").is_file() && jobs.join("slurm.sh").is_file());
+    run_jobs(&jobs);
+    let o = Command::new(env!("CARGO_BIN_EXE_carrywright"))
+        .args(["collect"])
+        .arg(&jobs)
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    assert_eq!(
+        std::fs::read_to_string(jobs.join("results.csv")).unwrap(),
+        read(local.path(), "results.csv")
+    );
+    // Every job recorded one attempt (none needed its retry here).
+    for i in 0..8 {
+        let a = std::fs::read_to_string(jobs.join(format!("jobs/{i:04}/attempts"))).unwrap();
+        assert_eq!(a.trim(), "1");
+    }
+}
+
+/// `make -j2` runs the exported jobs on this machine.
+#[test]
+fn exported_jobs_run_with_make_and_collect() {
+    if !common::tools(&["make"]) {
+        return;
+    }
+    jobs_equal_local(|jobs| {
+        let o = Command::new("make")
+            .args(["-j2", "-s"])
+            .current_dir(jobs)
+            .output()
+            .unwrap();
+        assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    });
+}
+
+/// Stops the one-node cluster by the PIDs its script started.
+struct Cluster(std::path::PathBuf);
+impl Drop for Cluster {
+    fn drop(&mut self) {
+        let _ = Command::new("bash")
+            .arg(Path::new(env!("CARGO_MANIFEST_DIR")).join("scripts/slurm-one-node.sh"))
+            .arg("stop")
+            .arg(&self.0)
+            .status();
+    }
+}
+
+/// The Slurm job array runs the exported jobs on a one-node cluster this test starts
+/// (scripts/slurm-one-node.sh: Debian's slurm-wlm and munge), each task one point.
+#[test]
+fn exported_jobs_run_as_a_slurm_array_and_collect() {
+    if !common::tools(&["sbatch", "slurmctld", "slurmd", "munged"]) {
+        return;
+    }
+    let conf = tempfile::tempdir().unwrap();
+    let start = Command::new("bash")
+        .arg(Path::new(env!("CARGO_MANIFEST_DIR")).join("scripts/slurm-one-node.sh"))
+        .arg("start")
+        .arg(conf.path())
+        .output()
+        .unwrap();
+    let _cluster = Cluster(conf.path().to_path_buf());
+    let up = start.status.success();
+    if !common::prerequisite(
+        up,
+        &format!(
+            "a one-node Slurm cluster ({})",
+            String::from_utf8_lossy(&start.stderr).trim()
+        ),
+    ) {
+        return;
+    }
+    let slurm_conf = conf.path().join("slurm.conf");
+    jobs_equal_local(|jobs| {
+        let o = Command::new("timeout")
+            .args(["300", "sbatch", "--wait"])
+            .arg(jobs.join("slurm.sh"))
+            .env("SLURM_CONF", &slurm_conf)
+            .output()
+            .unwrap();
+        assert!(
+            o.status.success(),
+            "sbatch: {}{}",
+            String::from_utf8_lossy(&o.stdout),
+            String::from_utf8_lossy(&o.stderr)
+        );
+    });
 }

@@ -29,6 +29,7 @@
 //! names, the tool version and the mode, so a re-run reuses every finished point.
 
 pub mod answer;
+pub mod jobs;
 pub mod plots;
 pub mod report;
 
@@ -113,7 +114,10 @@ impl Sweep {
     pub fn load(path: &Path) -> Result<Sweep> {
         let text = std::fs::read_to_string(path)
             .map_err(|e| Error::Input(format!("{}: {e}", path.display())))?;
-        let dir = path.parent().unwrap_or(Path::new(".")).to_path_buf();
+        let dir = match path.parent() {
+            Some(d) if !d.as_os_str().is_empty() => d.to_path_buf(),
+            _ => PathBuf::from("."),
+        };
         Sweep::parse(&text, &path.display().to_string(), &dir)
     }
 
@@ -134,7 +138,11 @@ impl Sweep {
                     .map_err(|e| bad("base", format!("cannot read {}: {e}", file.display())))?;
                 let m: Mapping = serde_yaml::from_str(&t)
                     .map_err(|e| bad("base", format!("{}: {e}", file.display())))?;
-                (m, file.parent().unwrap_or(Path::new(".")).to_path_buf())
+                let d = match file.parent() {
+                    Some(d) if !d.as_os_str().is_empty() => d.to_path_buf(),
+                    _ => PathBuf::from("."),
+                };
+                (m, d)
             }
             Value::Mapping(m) => (m.clone(), dir.to_path_buf()),
             _ => return Err(bad("base", "expected a spec file's path or a spec".into())),
@@ -296,6 +304,11 @@ fn same(a: &Value, b: &Value) -> bool {
     }
 }
 
+/// A point's varied values as texts.
+pub fn point_values(p: &[(String, Value)]) -> Vec<(String, String)> {
+    p.iter().map(|(k, v)| (k.clone(), value_text(v))).collect()
+}
+
 /// A value as one short text (flow style), for tables and columns.
 pub fn value_text(v: &Value) -> String {
     match v {
@@ -378,7 +391,7 @@ fn build_id() -> &'static str {
     })
 }
 
-fn hash_of(text: &str, spec_dir: &Path, estimate_only: bool) -> String {
+pub fn hash_of(text: &str, spec_dir: &Path, estimate_only: bool) -> String {
     use sha2::{Digest, Sha256};
     let mut h = Sha256::new();
     h.update(b"carrywright sweep point 1\n");
@@ -404,22 +417,21 @@ fn hash_of(text: &str, spec_dir: &Path, estimate_only: bool) -> String {
     d.iter().take(8).map(|b| format!("{b:02x}")).collect()
 }
 
-fn evaluate(
-    sweep: &Sweep,
+/// Evaluate one point: its spec text (relative paths from `base_dir`), and where to write its
+/// views when it is simulated.
+pub fn evaluate(
+    text: &str,
+    base_dir: &Path,
     index: usize,
-    point: &[(String, Value)],
+    values: Vec<(String, String)>,
     hash: &str,
-    dir: &Path,
+    views: &Path,
     o: &Options,
 ) -> PointResult {
-    let text = sweep.point_text(point);
     let mut r = PointResult {
         index,
         hash: hash.to_string(),
-        values: point
-            .iter()
-            .map(|(k, v)| (k.clone(), value_text(v)))
-            .collect(),
+        values,
         status: "ok".into(),
         reason: None,
         title: None,
@@ -449,7 +461,7 @@ fn evaluate(
         r.reason = Some(e.to_string());
         r
     };
-    let spec: Spec = match crate::spec::parse(&text, &label, &sweep.base_dir, &o.load) {
+    let spec: Spec = match crate::spec::parse(text, &label, base_dir, &o.load) {
         Ok(s) => s,
         Err(e) => return refuse(r, e),
     };
@@ -489,7 +501,7 @@ fn evaluate(
         Ok(g) => g,
         Err(e) => return refuse(r, e),
     };
-    let into = dir.join("points").join(hash);
+    let into = views.to_path_buf();
     if let Err(e) = crate::write_outputs(&into, &g.files) {
         return refuse(r, e);
     }
@@ -594,7 +606,15 @@ pub fn run(sweep: &Sweep, dir: &Path, o: &Options) -> Result<Outcome> {
                     } else {
                         computed.fetch_add(1, Ordering::SeqCst);
                     }
-                    let r = evaluate(sweep, i, p, &hashes[i], dir, o);
+                    let r = evaluate(
+                        &sweep.point_text(p),
+                        &sweep.base_dir,
+                        i,
+                        point_values(p),
+                        &hashes[i],
+                        &dir.join("points").join(&hashes[i]),
+                        o,
+                    );
                     if let Ok(text) = serde_json::to_string_pretty(&r) {
                         // Written whole (a temporary file renamed over it): an interrupted
                         // run never leaves half a result to be read back.
@@ -627,6 +647,54 @@ pub fn run(sweep: &Sweep, dir: &Path, o: &Options) -> Result<Outcome> {
         wall_s: t0.elapsed().as_secs_f64(),
         sim_wall_s,
     })
+}
+
+/// Write a sweep's files into `dir`: results.csv, results.json, report.md, report.html and
+/// the plots. Returns the answer and the number of plots.
+pub fn write_results(
+    sw: &Sweep,
+    outcome: &Outcome,
+    dir: &Path,
+) -> Result<(Vec<answer::Answer>, usize)> {
+    let answers = answer::answer(&outcome.points, sw.target);
+    let json = serde_json::json!({
+        "tool_version": env!("CARGO_PKG_VERSION"),
+        "points": outcome.points,
+        "computed": outcome.computed,
+        "reused": outcome.reused,
+        "left": outcome.left,
+        "target": sw.target,
+        "answer": answers,
+    });
+    let mut files: Vec<(String, String)> = vec![
+        ("results.csv".into(), csv(sw, &outcome.points)),
+        (
+            "results.json".into(),
+            serde_json::to_string_pretty(&json).unwrap_or_default() + "\n",
+        ),
+        ("report.md".into(), report(sw, outcome, &answers)),
+    ];
+    let mut plots: Vec<(String, String)> = vec![];
+    for (name, svg) in [
+        ("delay_vs_width.svg", plots::delay_vs_width(&outcome.points)),
+        ("delay_vs_area.svg", plots::delay_vs_area(&outcome.points)),
+        (
+            "estimate_vs_ngspice.svg",
+            plots::estimate_vs_measured(&outcome.points),
+        ),
+    ] {
+        if let Some(svg) = svg {
+            plots.push((name.to_string(), svg));
+        }
+    }
+    files.push((
+        "report.html".into(),
+        report::html(sw, outcome, &answers, &plots),
+    ));
+    let n = plots.len();
+    files.extend(plots);
+    crate::write_outputs(dir, &files)?;
+    Ok((answers, n))
 }
 
 /// The CSV columns, units in the header.
