@@ -6,6 +6,79 @@
 //! spec.yaml -> spec::Spec -> arch::build -> netlist::Design -> emit::{verilog, spice, summary}
 //!                                                         \-> sim (bit-parallel logic check)
 //! ```
+//!
+//! # Using the library
+//!
+//! Load a spec, build and check the netlist, and render every view (the same files
+//! `carrywright generate` writes):
+//!
+//! ```
+//! use carrywright::spec::{parse, LoadOptions};
+//! use std::path::Path;
+//!
+//! let yaml = "name: acc8\nwidth: 8\narchitecture: kogge-stone\n";
+//! let spec = parse(yaml, "example", Path::new("."), &LoadOptions::default())?;
+//! let generated = carrywright::generate(&spec)?;
+//! let names: Vec<&str> = generated.files.iter().map(|(n, _)| n.as_str()).collect();
+//! assert_eq!(names, ["acc8.v", "acc8_tb.v", "acc8.sp", "acc8_tb.sp", "acc8.json"]);
+//! assert!(generated.check.mismatches == 0);
+//! # Ok::<(), carrywright::error::Error>(())
+//! ```
+//!
+//! Estimate the worst path with the timing engine (no simulator needed: the built-in
+//! technologies carry their characterised timing):
+//!
+//! ```
+//! # use carrywright::spec::{parse, LoadOptions};
+//! # use std::path::Path;
+//! let yaml = "name: acc16\nwidth: 16\narchitecture: carry-skip\nblock: auto\n";
+//! let spec = parse(yaml, "example", Path::new("."), &LoadOptions::default())?;
+//! let design = carrywright::build(&spec)?;
+//! let e = carrywright::timing::search::estimate(&spec, &design)?;
+//! assert!(e.worst_ps > 0.0);
+//! println!("{} -> {}: {} ps", e.worst_vectors.from, e.worst_vectors.to, e.worst_ps);
+//! # Ok::<(), carrywright::error::Error>(())
+//! ```
+//!
+//! Simulate the written views (Icarus Verilog and ngspice, each optional; a missing
+//! simulator is a status in the results, not a panic):
+//!
+//! ```
+//! # use carrywright::spec::{parse, LoadOptions};
+//! # use std::path::Path;
+//! let spec = parse("name: r4\nwidth: 4\narchitecture: ripple\n", "example", Path::new("."), &LoadOptions::default())?;
+//! let g = carrywright::generate(&spec)?;
+//! let dir = std::env::temp_dir().join("carrywright-doc-simulate");
+//! carrywright::write_outputs(&dir, &g.files)?;
+//! let o = carrywright::simulate::Options { ngspice: false, ..Default::default() };
+//! let r = carrywright::simulate::simulate(&spec, g.estimate.as_ref(), &dir, &o)?;
+//! // Pass where Icarus is installed, `missing` where it is not.
+//! println!("{:?}", r.status);
+//! # Ok::<(), carrywright::error::Error>(())
+//! ```
+//!
+//! Sweep: a base spec and lists of values, every point estimated in parallel, and the
+//! answer per width:
+//!
+//! ```
+//! use carrywright::sweep::{self, Sweep};
+//! use std::path::Path;
+//! let text = "base: {name: acc, width: 8, architecture: ripple}\nvary:\n  architecture: [ripple, kogge-stone]\n";
+//! let s = Sweep::parse(text, "example", Path::new("."))?;
+//! let o = sweep::Options {
+//!     estimate_only: true,
+//!     limit: None,
+//!     timeout: std::time::Duration::from_secs(60),
+//!     load: Default::default(),
+//!     progress: false,
+//! };
+//! let dir = std::env::temp_dir().join("carrywright-doc-sweep");
+//! let outcome = sweep::run(&s, &dir, &o)?;
+//! let answer = sweep::answer::answer(&outcome.points, None);
+//! let fastest = &outcome.points[answer[0].fastest.unwrap()];
+//! assert!(fastest.title.as_deref().unwrap().contains("kogge-stone"));
+//! # Ok::<(), carrywright::error::Error>(())
+//! ```
 
 pub mod arch;
 pub mod cells;
@@ -16,6 +89,7 @@ pub mod netlist;
 pub mod output;
 pub mod passes;
 pub mod ratio;
+pub mod schema;
 pub mod sim;
 pub mod simulate;
 pub mod spec;

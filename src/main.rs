@@ -165,6 +165,13 @@ enum Command {
         /// The folder `sweep --export-jobs` wrote.
         dir: PathBuf,
     },
+    /// Print a JSON Schema of the spec, technology or sweep format (all three without a
+    /// name), for editors that complete and check YAML.
+    Schema {
+        /// spec, technology or sweep.
+        #[arg(value_parser = ["spec", "technology", "sweep"])]
+        format: Option<String>,
+    },
     /// Characterise a technology in ngspice (switching resistances, capacitances, pass
     /// devices, FO4, tau, p_inv) and write a technology file carrying the timing parameters.
     Characterize {
@@ -460,6 +467,16 @@ fn run(cli: Cli) -> Result<ExitCode> {
                 r.status,
                 r.reason.map(|m| format!(": {m}")).unwrap_or_default()
             ));
+            Ok(ExitCode::SUCCESS)
+        }
+        Command::Schema { format } => {
+            let v = match format.as_deref() {
+                Some("spec") => carrywright::schema::spec(),
+                Some("technology") => carrywright::schema::technology(),
+                Some("sweep") => carrywright::schema::sweep(),
+                _ => carrywright::schema::all(),
+            };
+            out.line(serde_json::to_string_pretty(&v).unwrap_or_default());
             Ok(ExitCode::SUCCESS)
         }
         Command::Collect { dir } => {
