@@ -162,6 +162,14 @@ fn ngspice_sweep_measures_every_point() {
     }
     let svg = read(dir.path(), "estimate_vs_ngspice.svg");
     roxmltree::Document::parse(&svg).unwrap();
+    // The waveforms of the fastest 16-bit point's worst path: one line a node, input first.
+    let svg = read(dir.path(), "worst_path_waveforms.svg");
+    let doc = roxmltree::Document::parse(&svg).unwrap();
+    let lines = doc
+        .descendants()
+        .filter(|n| n.has_tag_name("polyline"))
+        .count();
+    assert!(lines >= 3, "{lines} waveforms");
     for pair in points.chunks(2) {
         // Each pair is (typical, ss) of one design.
         assert!(

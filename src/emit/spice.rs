@@ -251,6 +251,30 @@ pub struct WorstMeasure {
     pub to: String,
     pub to_edge: &'static str,
     pub estimate_ps: f64,
+    /// The nodes along the engine's path, input first (at most [`PATH_NODES`]): the deck
+    /// writes their waveforms to NAME_path.dat.
+    pub path: Vec<String>,
+}
+
+/// Most path nodes whose waveforms the deck writes (the first, the last and evenly spaced
+/// ones between).
+pub const PATH_NODES: usize = 10;
+
+/// The nodes along an estimate's worst path whose waveforms the deck writes, input first.
+pub fn path_nodes(e: &Estimate) -> Vec<String> {
+    let mut nets: Vec<String> = vec![];
+    for st in &e.worst_path {
+        if nets.last() != Some(&st.net) {
+            nets.push(st.net.clone());
+        }
+    }
+    if nets.len() > PATH_NODES {
+        let n = nets.len();
+        nets = (0..PATH_NODES)
+            .map(|i| nets[i * (n - 1) / (PATH_NODES - 1)].clone())
+            .collect();
+    }
+    nets
 }
 
 /// Random vectors the transistor-level deck adds to the directed ones.
@@ -302,6 +326,7 @@ impl DeckPlan {
                 to: e.worst_vectors.to.clone(),
                 to_edge: e.worst_vectors.to_edge,
                 estimate_ps: e.worst_ps,
+                path: path_nodes(e),
             }),
             _ => None,
         };
@@ -572,6 +597,23 @@ struct WorstCtx {
     td: String,
     strobe: String,
     estimate: String,
+    /// The path's nodes as the deck names them (`xdut.` inside the adder), for wrdata.
+    path: Vec<String>,
+}
+
+/// A flattened net as the deck names it: a top-level port as it is, anything else inside the
+/// adder instance.
+fn deck_node(net: &str, design: &Design) -> String {
+    let top = design.top();
+    if top
+        .pin_dirs()
+        .iter()
+        .any(|(id, _)| top.net_name(*id) == net)
+    {
+        net.to_string()
+    } else {
+        format!("xdut.{net}")
+    }
 }
 
 fn s(x: f64) -> String {
@@ -790,6 +832,12 @@ pub fn deck(spec: &Spec, design: &Design, plan: &DeckPlan, netlist: &str) -> Res
                 save.push(v);
             }
         }
+        for x in &wm.path {
+            let v = format!("v({})", deck_node(x, design));
+            if !save.contains(&v) {
+                save.push(v);
+            }
+        }
     }
     save.push("i(vvdd)".into());
     if dynamic {
@@ -812,6 +860,7 @@ pub fn deck(spec: &Spec, design: &Design, plan: &DeckPlan, netlist: &str) -> Res
             td: s(at - 0.05 * t),
             strobe: s(wm.vector as f64 * t + plan.strobe * t),
             estimate: format!("{:.4e} s", wm.estimate_ps * 1e-12),
+            path: wm.path.iter().map(|x| deck_node(x, design)).collect(),
         }
     });
     let ctx = DeckCtx {

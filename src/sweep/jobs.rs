@@ -204,5 +204,7 @@ fn evaluate_placeholder(index: usize) -> PointResult {
         sim_error_pct: None,
         sim_energy_fj: None,
         sim_wall_s: None,
+        sim_window: None,
+        sim_path: vec![],
     }
 }

@@ -362,6 +362,12 @@ pub struct PointResult {
     pub sim_error_pct: Option<f64>,
     pub sim_energy_fj: Option<f64>,
     pub sim_wall_s: Option<f64>,
+    /// ngspice: the worst path's input and output crossings (s), and its nodes (the columns
+    /// of the deck's NAME_path.dat, input first).
+    #[serde(default)]
+    pub sim_window: Option<(f64, f64)>,
+    #[serde(default)]
+    pub sim_path: Vec<String>,
 }
 
 impl PointResult {
@@ -449,6 +455,8 @@ pub fn evaluate(
         sim_error_pct: None,
         sim_energy_fj: None,
         sim_wall_s: None,
+        sim_window: None,
+        sim_path: vec![],
     };
     let label = format!("sweep point {index}");
     let refuse = |mut r: PointResult, e: Error| {
@@ -515,6 +523,14 @@ pub fn evaluate(
         Ok(s) => {
             if let Some(n) = &s.ngspice {
                 r.sim_wall_s = Some(n.wall_s);
+                if let (Some(&a), Some(&b)) =
+                    (n.measurements.get("tw_from"), n.measurements.get("tw_to"))
+                {
+                    r.sim_window = Some((a, b));
+                }
+                if let Some(e) = &g.estimate {
+                    r.sim_path = crate::emit::spice::path_nodes(e);
+                }
                 r.sim_worst_ps = n
                     .measurements
                     .get("tworst")
@@ -678,6 +694,7 @@ pub fn write_results(
     for (name, svg) in [
         ("delay_vs_width.svg", plots::delay_vs_width(&outcome.points)),
         ("delay_vs_area.svg", plots::delay_vs_area(&outcome.points)),
+        ("worst_path_waveforms.svg", waveforms(outcome, dir)),
         (
             "estimate_vs_ngspice.svg",
             plots::estimate_vs_measured(&outcome.points),
@@ -695,6 +712,29 @@ pub fn write_results(
     files.extend(plots);
     crate::write_outputs(dir, &files)?;
     Ok((answers, n))
+}
+
+/// The worst-path waveforms of the fastest simulated point at the largest width, from its
+/// deck's NAME_path.dat.
+fn waveforms(o: &Outcome, dir: &Path) -> Option<String> {
+    let p = o
+        .points
+        .iter()
+        .filter(|p| p.ok() && p.sim_window.is_some() && !p.sim_path.is_empty())
+        .max_by(|a, b| {
+            a.width.cmp(&b.width).then(
+                b.sim_worst_ps
+                    .unwrap_or(f64::MAX)
+                    .total_cmp(&a.sim_worst_ps.unwrap_or(f64::MAX)),
+            )
+        })?;
+    let folder = dir.join("points").join(&p.hash);
+    let dat = std::fs::read_dir(&folder)
+        .ok()?
+        .filter_map(|e| e.ok().map(|e| e.path()))
+        .find(|f| f.to_string_lossy().ends_with("_path.dat"))?;
+    let text = std::fs::read_to_string(dat).ok()?;
+    plots::waveforms(&text, &p.sim_path, p.sim_window?, &label(p))
 }
 
 /// The CSV columns, units in the header.

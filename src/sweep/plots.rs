@@ -266,3 +266,74 @@ pub fn estimate_vs_measured(points: &[PointResult]) -> Option<String> {
     }
     Some(finish(buf))
 }
+
+/// The worst path's waveforms (ngspice wrdata: a time and a value column per node), over
+/// its window from a little before the input's crossing to after the output's.
+pub fn waveforms(dat: &str, names: &[String], window: (f64, f64), title: &str) -> Option<String> {
+    let rows: Vec<Vec<f64>> = dat
+        .lines()
+        .map(|l| {
+            l.split_whitespace()
+                .filter_map(|x| x.parse().ok())
+                .collect()
+        })
+        .filter(|r: &Vec<f64>| r.len() >= 2 * names.len())
+        .collect();
+    if rows.is_empty() {
+        return None;
+    }
+    let (a, b) = window;
+    let span = (b - a).max(1e-12);
+    let (t0, t1) = (a - 0.3 * span, b + 0.5 * span);
+    let vmax = rows
+        .iter()
+        .flat_map(|r| r.iter().skip(1).step_by(2).copied())
+        .fold(0.0, f64::max)
+        * 1.05;
+    let mut buf = String::new();
+    {
+        let root = SVGBackend::with_string(&mut buf, SIZE).into_drawing_area();
+        root.fill(&WHITE).ok()?;
+        let mut chart = ChartBuilder::on(&root)
+            .caption(
+                format!("Worst path in ngspice: {title}"),
+                ("sans-serif", 16),
+            )
+            .margin(12)
+            .x_label_area_size(40)
+            .y_label_area_size(50)
+            .build_cartesian_2d(0.0..(t1 - t0) * 1e9, 0.0..vmax)
+            .ok()?;
+        chart
+            .configure_mesh()
+            .x_desc(format!("time from {:.3} ns (ns)", t0 * 1e9))
+            .y_desc("volts")
+            .draw()
+            .ok()?;
+        for (i, n) in names.iter().enumerate() {
+            let c = colour(i);
+            let pts: Vec<(f64, f64)> = rows
+                .iter()
+                .map(|r| (r[2 * i], r[2 * i + 1]))
+                .filter(|&(t, _)| t >= t0 && t <= t1)
+                .map(|(t, v)| ((t - t0) * 1e9, v))
+                .collect();
+            chart
+                .draw_series(LineSeries::new(pts, c.stroke_width(2)))
+                .ok()?
+                .label(n.clone())
+                .legend(move |(x, y)| {
+                    PathElement::new(vec![(x, y), (x + 18, y)], c.stroke_width(2))
+                });
+        }
+        chart
+            .configure_series_labels()
+            .position(SeriesLabelPosition::UpperRight)
+            .background_style(WHITE.mix(0.85))
+            .border_style(BLACK)
+            .draw()
+            .ok()?;
+        root.present().ok()?;
+    }
+    Some(buf)
+}
