@@ -114,6 +114,9 @@ enum Command {
         /// Do not run Icarus Verilog.
         #[arg(long)]
         no_icarus: bool,
+        /// ngspice threads for the deck (default 1).
+        #[arg(long, value_name = "N", value_parser = clap::value_parser!(u16).range(1..=64))]
+        threads: Option<u16>,
         /// Do not run ngspice.
         #[arg(long)]
         no_ngspice: bool,
@@ -378,6 +381,7 @@ fn run(cli: Cli) -> Result<ExitCode> {
             vdd,
             timeout,
             no_icarus,
+            threads,
             no_ngspice,
             json,
             model_dir,
@@ -398,6 +402,7 @@ fn run(cli: Cli) -> Result<ExitCode> {
                 icarus: !no_icarus,
                 ngspice: !no_ngspice,
                 timeout: std::time::Duration::from_secs_f64(timeout),
+                threads: threads.map(usize::from),
                 ..Default::default()
             };
             let r = carrywright::simulate::simulate(&s, g.estimate.as_ref(), &dir, &o)?;

@@ -42,6 +42,8 @@ pub struct Options {
     pub iverilog: PathBuf,
     pub vvp: PathBuf,
     pub ngspice_bin: PathBuf,
+    /// ngspice threads per deck (the deck's own default is 1).
+    pub threads: Option<usize>,
 }
 
 impl Default for Options {
@@ -53,6 +55,7 @@ impl Default for Options {
             iverilog: "iverilog".into(),
             vvp: "vvp".into(),
             ngspice_bin: "ngspice".into(),
+            threads: None,
         }
     }
 }
@@ -244,6 +247,10 @@ fn ngspice(spec: &Spec, dir: &Path, o: &Options) -> ToolRun {
         "-D".into(),
         "cw_samples".into(),
     ];
+    if let Some(n) = o.threads {
+        cmd.push("-D".into());
+        cmd.push(format!("cw_threads={n}"));
+    }
     if let Some(root) = &spec.technology.model_root {
         cmd.push("-D".into());
         cmd.push(format!("cw_models={}", root.display()));
