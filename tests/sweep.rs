@@ -360,3 +360,25 @@ fn exported_jobs_run_as_a_slurm_array_and_collect() {
         );
     });
 }
+
+/// A point at conditions the technology has no characterised timing for (85 degC) has no
+/// estimate, but a simulated sweep still measures it: ok, with ngspice's figure and the
+/// reason the estimate is missing.
+#[test]
+fn uncharacterised_conditions_are_still_simulated() {
+    if !common::tools(&["ngspice"]) || common::model_dir().is_none() {
+        return;
+    }
+    let dir = tempfile::tempdir().unwrap();
+    let yaml = "base: {name: acc, width: 8, architecture: ripple, technology: gf180mcu-3v3, testbench: {load: 10f, random: 0}}\nvary:\n  temp: [85]\n";
+    let r = sweep(dir.path(), yaml, &[]);
+    assert_eq!(r.code, Some(0), "{}", r.stderr);
+    let j: serde_json::Value = serde_json::from_str(&read(dir.path(), "results.json")).unwrap();
+    let p = &j["points"][0];
+    assert_eq!(p["status"], "ok", "{p}");
+    assert!(
+        p["worst_ps"].is_null() && p["sim_worst_ps"].as_f64().unwrap() > 0.0,
+        "{p}"
+    );
+    assert!(p["reason"].as_str().unwrap().contains("no estimate"), "{p}");
+}
