@@ -377,7 +377,7 @@ fn uncharacterised_conditions_are_still_simulated() {
     let p = &j["points"][0];
     assert_eq!(p["status"], "ok", "{p}");
     assert!(
-        p["worst_ps"].is_null() && p["sim_worst_ps"].as_f64().unwrap() > 0.0,
+        p["worst_ps"].is_null() && p["sim_carry_ps"].as_f64().unwrap() > 0.0,
         "{p}"
     );
     assert!(p["reason"].as_str().unwrap().contains("no estimate"), "{p}");

@@ -206,5 +206,6 @@ fn evaluate_placeholder(index: usize) -> PointResult {
         sim_wall_s: None,
         sim_window: None,
         sim_path: vec![],
+        sim_carry_ps: None,
     }
 }

@@ -368,12 +368,16 @@ pub struct PointResult {
     pub sim_window: Option<(f64, f64)>,
     #[serde(default)]
     pub sim_path: Vec<String>,
+    /// ngspice: the carry delay with every bit propagating (cin → cout, or clk↑ → cout), the
+    /// later edge; the only delay a deck without an estimate measures.
+    #[serde(default)]
+    pub sim_carry_ps: Option<f64>,
 }
 
 impl PointResult {
     /// The delay the answer ranks by: measured where there is a measurement.
     pub fn delay_ps(&self) -> Option<f64> {
-        self.sim_worst_ps.or(self.worst_ps)
+        self.sim_worst_ps.or(self.worst_ps).or(self.sim_carry_ps)
     }
     pub fn ok(&self) -> bool {
         self.status == "ok"
@@ -457,6 +461,7 @@ pub fn evaluate(
         sim_wall_s: None,
         sim_window: None,
         sim_path: vec![],
+        sim_carry_ps: None,
     };
     let label = format!("sweep point {index}");
     let refuse = |mut r: PointResult, e: Error| {
@@ -548,6 +553,12 @@ pub fn evaluate(
         Ok(s) => {
             if let Some(n) = &s.ngspice {
                 r.sim_wall_s = Some(n.wall_s);
+                r.sim_carry_ps = ["tcarry_rise", "tcarry_fall"]
+                    .iter()
+                    .filter_map(|k| n.measurements.get(*k).copied())
+                    .filter(|&x| x > 0.0)
+                    .fold(None, |a: Option<f64>, x| Some(a.map_or(x, |a| a.max(x))))
+                    .map(|x| (x * 1e13).round() / 10.0);
                 if let (Some(&a), Some(&b)) =
                     (n.measurements.get("tw_from"), n.measurements.get("tw_to"))
                 {
@@ -782,6 +793,7 @@ pub fn csv(sweep: &Sweep, points: &[PointResult]) -> String {
             "sim_worst_ps",
             "sim_error_pct",
             "sim_energy_fJ",
+            "sim_carry_ps",
             "reason",
         ]
         .iter()
@@ -820,6 +832,7 @@ pub fn csv(sweep: &Sweep, points: &[PointResult]) -> String {
         row.push(num(p.sim_worst_ps));
         row.push(num(p.sim_error_pct));
         row.push(num(p.sim_energy_fj));
+        row.push(num(p.sim_carry_ps));
         row.push(field(p.reason.as_deref().unwrap_or("")));
         out.push_str(&row.join(","));
         out.push('\n');
