@@ -113,6 +113,24 @@ pub struct ToolRun {
     pub failures: Vec<String>,
 }
 
+impl ToolRun {
+    /// A run that has not happened yet: its commands and log file.
+    fn new(commands: Vec<String>, log: String) -> ToolRun {
+        ToolRun {
+            status: Status::Pass,
+            commands,
+            exit_code: None,
+            wall_s: 0.0,
+            log,
+            message: None,
+            vectors: None,
+            measurements: BTreeMap::new(),
+            samples: vec![],
+            failures: vec![],
+        }
+    }
+}
+
 /// The timing engine's figures the measurements are compared with.
 #[derive(Debug, Clone, Serialize)]
 pub struct EstimateOut {
@@ -176,18 +194,7 @@ fn icarus(name: &str, dir: &Path, o: &Options) -> ToolRun {
         format!("{name}.v"),
     ];
     let runv: Vec<String> = vec![o.vvp.display().to_string(), "-n".into(), vvp_file];
-    let mut t = ToolRun {
-        status: Status::Pass,
-        commands: vec![compile.join(" "), runv.join(" ")],
-        exit_code: None,
-        wall_s: 0.0,
-        log: log_name,
-        message: None,
-        vectors: None,
-        measurements: BTreeMap::new(),
-        samples: vec![],
-        failures: vec![],
-    };
+    let mut t = ToolRun::new(vec![compile.join(" "), runv.join(" ")], log_name);
     let first = run::run(&compile, dir, &log, o.timeout, false);
     t.wall_s += first.wall_s;
     t.exit_code = first.code;
@@ -258,18 +265,9 @@ fn ngspice(spec: &Spec, dir: &Path, o: &Options) -> ToolRun {
     cmd.push("-b".into());
     cmd.push(format!("{name}_tb.sp"));
     let r = run::run(&cmd, dir, &log, o.timeout, false);
-    let mut t = ToolRun {
-        status: Status::Pass,
-        commands: vec![cmd.join(" ")],
-        exit_code: r.code,
-        wall_s: r.wall_s,
-        log: log_name,
-        message: None,
-        vectors: None,
-        measurements: BTreeMap::new(),
-        samples: vec![],
-        failures: vec![],
-    };
+    let mut t = ToolRun::new(vec![cmd.join(" ")], log_name);
+    t.exit_code = r.code;
+    t.wall_s = r.wall_s;
     let text = std::fs::read_to_string(&log).unwrap_or_default();
     for l in text.lines() {
         if let Some(rest) = l.strip_prefix("sample ") {

@@ -183,29 +183,7 @@ pub fn collect(dir: &Path) -> Result<(Sweep, Outcome)> {
 }
 
 fn evaluate_placeholder(index: usize) -> PointResult {
-    PointResult {
-        index,
-        hash: String::new(),
-        values: vec![],
-        status: "not run".into(),
-        reason: Some("its job wrote no result".into()),
-        title: None,
-        architecture: None,
-        width: None,
-        conditions: None,
-        worst_ps: None,
-        worst_path: None,
-        cin_cout_ps: None,
-        energy_fj: None,
-        gate_area_um2: None,
-        total_width_um: None,
-        transistors: None,
-        sim_worst_ps: None,
-        sim_error_pct: None,
-        sim_energy_fj: None,
-        sim_wall_s: None,
-        sim_window: None,
-        sim_path: vec![],
-        sim_carry_ps: None,
-    }
+    let mut r = PointResult::new(index, "", vec![], "not run");
+    r.reason = Some("its job wrote no result".into());
+    r
 }

@@ -375,6 +375,35 @@ pub struct PointResult {
 }
 
 impl PointResult {
+    /// A point with its identity and status, no figures yet.
+    pub fn new(index: usize, hash: &str, values: Vec<(String, String)>, status: &str) -> Self {
+        PointResult {
+            index,
+            hash: hash.to_string(),
+            values,
+            status: status.into(),
+            reason: None,
+            title: None,
+            architecture: None,
+            width: None,
+            conditions: None,
+            worst_ps: None,
+            worst_path: None,
+            cin_cout_ps: None,
+            energy_fj: None,
+            gate_area_um2: None,
+            total_width_um: None,
+            transistors: None,
+            sim_worst_ps: None,
+            sim_error_pct: None,
+            sim_energy_fj: None,
+            sim_wall_s: None,
+            sim_window: None,
+            sim_path: vec![],
+            sim_carry_ps: None,
+        }
+    }
+
     /// The delay the answer ranks by: measured where there is a measurement.
     pub fn delay_ps(&self) -> Option<f64> {
         self.sim_worst_ps.or(self.worst_ps).or(self.sim_carry_ps)
@@ -438,31 +467,7 @@ pub fn evaluate(
     views: &Path,
     o: &Options,
 ) -> PointResult {
-    let mut r = PointResult {
-        index,
-        hash: hash.to_string(),
-        values,
-        status: "ok".into(),
-        reason: None,
-        title: None,
-        architecture: None,
-        width: None,
-        conditions: None,
-        worst_ps: None,
-        worst_path: None,
-        cin_cout_ps: None,
-        energy_fj: None,
-        gate_area_um2: None,
-        total_width_um: None,
-        transistors: None,
-        sim_worst_ps: None,
-        sim_error_pct: None,
-        sim_energy_fj: None,
-        sim_wall_s: None,
-        sim_window: None,
-        sim_path: vec![],
-        sim_carry_ps: None,
-    };
+    let mut r = PointResult::new(index, hash, values, "ok");
     let label = format!("sweep point {index}");
     let refuse = |mut r: PointResult, e: Error| {
         r.status = if e.exit_code() == 2 {
