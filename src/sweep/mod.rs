@@ -611,6 +611,42 @@ pub struct Outcome {
     pub sim_wall_s: f64,
 }
 
+impl Outcome {
+    /// "N points: X computed in this run, Y reused; T s wall." for the reports.
+    pub fn counts_line(&self) -> String {
+        format!(
+            "{} points: {} computed in this run, {} reused{}; {:.1} s wall{}.",
+            self.points.len(),
+            self.computed,
+            self.reused,
+            if self.left > 0 {
+                format!(", {} left for a later run", self.left)
+            } else {
+                String::new()
+            },
+            self.wall_s,
+            if self.sim_wall_s > 0.0 {
+                format!(", {:.1} s of ngspice runs", self.sim_wall_s)
+            } else {
+                String::new()
+            }
+        )
+    }
+}
+
+/// What the answer's figures are, and the target, for the reports (plain text).
+pub fn figures_note(sweep: &Sweep) -> String {
+    let mut s = String::from("Delays are the timing engine's worst path (measured in ngspice where the sweep simulated); energy is the engine's per addition at random activity; area is the sum of W·L.");
+    if let Some(t) = sweep.target {
+        s.push_str(&format!(
+            " Target: {} at every corner listed, with a {:.0} % margin.",
+            crate::spec::fmt_si(t.delay_s, 's'),
+            t.margin * 100.0
+        ));
+    }
+    s
+}
+
 /// Run the sweep into `dir`: every point, in parallel, reusing `dir/points/HASH.json`.
 pub fn run(sweep: &Sweep, dir: &Path, o: &Options) -> Result<Outcome> {
     let t0 = std::time::Instant::now();
@@ -848,32 +884,9 @@ pub fn csv(sweep: &Sweep, points: &[PointResult]) -> String {
 /// `report.md`: the answer first, then every point.
 pub fn report(sweep: &Sweep, o: &Outcome, answers: &[answer::Answer]) -> String {
     let mut s = String::from("# Sweep report\n\n");
-    s.push_str(&format!(
-        "{} points: {} computed in this run, {} reused{}; {:.1} s wall{}.\n\n",
-        o.points.len(),
-        o.computed,
-        o.reused,
-        if o.left > 0 {
-            format!(", {} left for a later run", o.left)
-        } else {
-            String::new()
-        },
-        o.wall_s,
-        if o.sim_wall_s > 0.0 {
-            format!(", {:.1} s of ngspice runs", o.sim_wall_s)
-        } else {
-            String::new()
-        }
-    ));
+    s.push_str(&format!("{}\n\n", o.counts_line()));
     s.push_str("## Which adder\n\n");
-    s.push_str("Delays are the timing engine's worst path (measured in ngspice where the sweep simulated); energy is the engine's per addition at random activity; area is the sum of W·L.");
-    if let Some(t) = sweep.target {
-        s.push_str(&format!(
-            " Target: {} at every corner listed, with a {:.0} % margin.",
-            crate::spec::fmt_si(t.delay_s, 's'),
-            t.margin * 100.0
-        ));
-    }
+    s.push_str(&figures_note(sweep));
     s.push_str("\n\n");
     s.push_str(&answer::table(sweep, &o.points, answers));
     s.push_str("\n## Every point\n\n| # | point | status | worst | path | area um2 | energy fJ | measured |\n|---|---|---|---|---|---|---|---|\n");

@@ -26,26 +26,11 @@ pub fn html(sweep: &Sweep, o: &Outcome, answers: &[Answer], plots: &[(String, St
     };
     let mut h = String::from("<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\"><title>Sweep report</title>\n<style>body{font-family:sans-serif;margin:24px;max-width:1100px}table{border-collapse:collapse;margin:12px 0}td,th{border:1px solid #bbb;padding:4px 8px;vertical-align:top;font-size:14px}th{background:#eee}figure{margin:16px 0}small{color:#555}</style></head><body>\n");
     h.push_str("<h1>Sweep report</h1>\n");
+    h.push_str(&format!("<p>{}</p>\n", esc(&o.counts_line())));
     h.push_str(&format!(
-        "<p>{} points: {} computed in this run, {} reused; {:.1} s wall{}.</p>\n",
-        o.points.len(),
-        o.computed,
-        o.reused,
-        o.wall_s,
-        if o.sim_wall_s > 0.0 {
-            format!(", {:.1} s of ngspice runs", o.sim_wall_s)
-        } else {
-            String::new()
-        }
+        "<h2>Which adder</h2>\n<p>{}",
+        esc(&super::figures_note(sweep))
     ));
-    h.push_str("<h2>Which adder</h2>\n<p>Delays are the timing engine's worst path (measured in ngspice where the sweep simulated); energy is the engine's per addition at random activity; area is the sum of W·L.");
-    if let Some(t) = sweep.target {
-        h.push_str(&format!(
-            " Target: {} at every corner listed, with a {:.0} % margin.",
-            esc(&crate::spec::fmt_si(t.delay_s, 's')),
-            t.margin * 100.0
-        ));
-    }
     h.push_str("</p>\n<table><tr><th>width</th><th>fastest</th><th>smallest (gate area)</th><th>lowest energy</th>");
     if sweep.target.is_some() {
         h.push_str("<th>smallest meeting the target</th>");
