@@ -198,7 +198,15 @@ fn bench_generate() {
         carrywright::timing::engine::estimate(&spec, &design)
     });
     let render = measure(5, 50, || {
-        emit::render_all(&spec, &design, &counts, est.as_ref().ok_or("none"), None).unwrap()
+        emit::render_all(
+            &spec,
+            &design,
+            &counts,
+            est.as_ref().ok_or("none"),
+            None,
+            None,
+        )
+        .unwrap()
     });
     line("  build (arch + structural check)", &build);
     line("  check_or_fail (16,384 random + 7)", &check);
@@ -749,7 +757,7 @@ fn bench_architectures() {
     line(
         "    render_all",
         &measure(1, 9, || {
-            emit::render_all(&s128, &d128, &c128, Err("none"), None).unwrap()
+            emit::render_all(&s128, &d128, &c128, Err("none"), None, None).unwrap()
         }),
     );
     line("    logic_depth", &measure(1, 9, || d128.logic_depth()));

@@ -94,6 +94,7 @@ pub mod sim;
 pub mod simulate;
 pub mod spec;
 pub mod sweep;
+pub mod switch;
 pub mod tech;
 pub mod timing;
 
@@ -201,6 +202,8 @@ fn check_name_is_free(spec: &Spec, design: &Design) -> Result<()> {
 pub struct Generated {
     pub design: Design,
     pub check: sim::CheckReport,
+    /// The switch-level check of NAME.sp (also in NAME.json `switch_level`).
+    pub switch: Option<switch::Report>,
     /// Transistor and cell counts and the topological depth (also in NAME.json).
     pub counts: emit::summary::Counts,
     /// The timing engine's estimate (also in NAME.json and the deck), where the technology
@@ -235,13 +238,31 @@ pub fn generate(spec: &Spec) -> Result<Generated> {
             .map_err(|e| format!("the timing estimate failed: {e}")),
         None => Err(timing::engine::no_timing(spec)),
     };
+    // The SPICE view is parsed back and simulated as switches over the same vectors before
+    // anything is written.
+    let switch_report = std::cell::RefCell::new(None);
+    let switch_check = |text: &str| {
+        let r = switch::check_or_fail(
+            text,
+            &format!("{}.sp", spec.name),
+            &design,
+            &spec.technology,
+            spec.testbench.seed,
+            GENERATE_RANDOM,
+            GENERATE_EXHAUSTIVE_MAX,
+        )?;
+        *switch_report.borrow_mut() = Some(r.clone());
+        Ok(r)
+    };
     let files = emit::render_all(
         spec,
         &design,
         &counts,
         timing.as_ref().map_err(String::as_str),
         keepers.as_ref(),
+        Some(&switch_check),
     )?;
+    let switch = switch_report.into_inner();
     let (estimate, estimate_failed) = match timing {
         Ok(e) => (Some(e), None),
         Err(why) => (None, spec.technology.timing.is_some().then_some(why)),
@@ -249,6 +270,7 @@ pub fn generate(spec: &Spec) -> Result<Generated> {
     Ok(Generated {
         design,
         check,
+        switch,
         counts,
         estimate,
         estimate_failed,

@@ -14,6 +14,8 @@ use std::process::ExitCode;
 /// Most random vectors `check --random` accepts (about a minute of checking on a 128-bit
 /// design in a release build).
 const RANDOM_MAX: u64 = 100_000_000;
+/// `check` runs the switch-level simulator exhaustively up to this width (2^21 vectors).
+const SWITCH_EXHAUSTIVE_MAX: usize = 10;
 
 /// Generate verified adder netlists (structural Verilog and transistor-level SPICE, each
 /// with a testbench) from a short YAML spec.
@@ -310,6 +312,19 @@ fn run(cli: Cli) -> Result<ExitCode> {
             let random = usize::try_from(random)
                 .map_err(|_| Error::Input(format!("--random: {random} is too many here")))?;
             let r = sim::check(&design, s.testbench.seed, random, sim::EXHAUSTIVE_MAX)?;
+            // The transistor view, parsed back from its SPICE text and simulated as switches:
+            // exhaustive up to SWITCH_EXHAUSTIVE_MAX bits, else the logic check's vectors.
+            let label = format!("{}.sp", s.name);
+            let text = emit::spice::subcircuits(&s, &design)?;
+            let sw = carrywright::switch::check_text(
+                &text,
+                &label,
+                &design,
+                &s.technology,
+                s.testbench.seed,
+                random,
+                SWITCH_EXHAUSTIVE_MAX,
+            )?;
             let how = if r.exhaustive {
                 "exhaustive".to_string()
             } else {
@@ -337,6 +352,7 @@ fn run(cli: Cli) -> Result<ExitCode> {
                         "mismatches": r.mismatches,
                         "first_mismatch": r.first_mismatch,
                     },
+                    "switch_level": sw,
                 }));
             } else {
                 out.line(format!("{}: {}", s.name, emit::title(&s)));
@@ -350,6 +366,12 @@ fn run(cli: Cli) -> Result<ExitCode> {
                     "structure", "ok"
                 ));
             }
+            let sw_how = if sw.exhaustive {
+                "exhaustive".to_string()
+            } else {
+                format!("directed + random, seed {}", s.testbench.seed)
+            };
+            let mut failed_any = false;
             if r.mismatches == 0 {
                 if !json {
                     out.line(format!(
@@ -357,21 +379,52 @@ fn run(cli: Cli) -> Result<ExitCode> {
                         "logic", "ok", r.vectors
                     ));
                 }
-                return Ok(ExitCode::SUCCESS);
+            } else {
+                failed_any = true;
+                let failed = format!(
+                    "{} wrong output bits over {} vectors; first: {}",
+                    r.mismatches,
+                    r.vectors,
+                    r.first_mismatch.clone().unwrap_or_default()
+                );
+                if !json {
+                    out.line(format!("  {:<12} {:>12}   {failed}", "logic", "FAILED"));
+                }
+                if cli.quiet {
+                    say_error(&format!("{}: logic check failed: {failed}", s.name));
+                }
             }
-            let failed = format!(
-                "{} wrong output bits over {} vectors; first: {}",
-                r.mismatches,
-                r.vectors,
-                r.first_mismatch.unwrap_or_default()
-            );
-            if !json {
-                out.line(format!("  {:<12} {:>12}   {failed}", "logic", "FAILED"));
+            match &sw.first_failure {
+                None => {
+                    if !json {
+                        out.line(format!(
+                            "  {:<12} {:>12}   {} vectors ({sw_how}{phases}) on the transistors of {label}, as switches",
+                            "switch-level", "ok", sw.vectors
+                        ));
+                    }
+                }
+                Some(f) => {
+                    failed_any = true;
+                    let failed = format!(
+                        "{} wrong output bits over {} vectors; first: {}",
+                        sw.wrong_bits, sw.vectors, f.message
+                    );
+                    if !json {
+                        out.line(format!(
+                            "  {:<12} {:>12}   {failed}",
+                            "switch-level", "FAILED"
+                        ));
+                    }
+                    if cli.quiet {
+                        say_error(&format!("{}: switch-level check failed: {failed}", s.name));
+                    }
+                }
             }
-            if cli.quiet {
-                say_error(&format!("{}: logic check failed: {failed}", s.name));
-            }
-            Ok(ExitCode::from(1))
+            Ok(if failed_any {
+                ExitCode::from(1)
+            } else {
+                ExitCode::SUCCESS
+            })
         }
         Command::Simulate {
             spec,
@@ -715,6 +768,20 @@ fn generate(
                 ""
             }
         ));
+        if let Some(sw) = &g.switch {
+            out.line(format!(
+                "  switch-level check of {}.sp passed on {} vectors ({} transistors, {} stages{})",
+                s.name,
+                sw.vectors,
+                sw.transistors,
+                sw.stages,
+                if sw.phases == 2 {
+                    ", precharge and evaluate"
+                } else {
+                    ""
+                }
+            ));
+        }
         if let Some(e) = &g.estimate {
             out.line(format!(
                 "  worst path {:.0} ps ({} -> {}), timing engine estimate; the deck measures it",

@@ -41,6 +41,10 @@ pub struct Evaluator {
     outputs: Vec<u32>,
     pub width: usize,
     pub dynamic: bool,
+    /// Flattened net names (as `netlist::Flat` names them), indexed by net id.
+    pub names: Vec<String>,
+    /// Nets in the order the evaluator computes them (cell outputs, leaves in order).
+    pub computed: Vec<u32>,
 }
 
 impl Evaluator {
@@ -49,6 +53,7 @@ impl Evaluator {
         let order = flat.order(design)?;
         let mut values_len = flat.names.len() as u32;
         let mut ops = Vec::new();
+        let mut computed = Vec::new();
         for &li in &order {
             let leaf = &flat.leaves[li];
             let cell = &design.cells[&leaf.kind];
@@ -56,6 +61,7 @@ impl Evaluator {
                 let first_temp = values_len;
                 let r = compile(f, &leaf.nets, &mut ops, &mut values_len);
                 let dest = leaf.nets[*out];
+                computed.push(dest);
                 // The last op produced the result into a fresh temporary: write the output
                 // net directly. Otherwise (the function is a bare pin) copy it.
                 match ops.last_mut() {
@@ -86,6 +92,8 @@ impl Evaluator {
             outputs,
             width,
             dynamic: design.dynamic,
+            names: flat.names,
+            computed,
         })
     }
 
@@ -112,6 +120,11 @@ impl Evaluator {
         for (o, &net) in outputs.iter_mut().zip(&self.outputs) {
             *o = self.values[net as usize];
         }
+    }
+
+    /// A net's word after the last [`Evaluator::eval`].
+    pub fn net(&self, id: u32) -> u64 {
+        self.values[id as usize]
     }
 
     pub fn n_ops(&self) -> usize {
@@ -198,6 +211,105 @@ fn lanes_to_words(lanes: &[u128; 64], width: usize, out: &mut Vec<u64>) {
     }
 }
 
+/// The check's vectors, 64 lanes at a time: exhaustive up to `exhaustive_max` bits, else the
+/// directed vectors then `random` seeded random ones. The logic check and the switch-level
+/// check of the SPICE view run exactly these.
+pub struct Words {
+    pub width: usize,
+    pub total: u64,
+    pub exhaustive: bool,
+    directed: Vec<Vector>,
+    rng: vectors::Rng,
+    i: u64,
+    lanes: [Vector; 64],
+}
+
+impl Words {
+    pub fn new(width: usize, seed: u64, random: usize, exhaustive_max: usize) -> Words {
+        let exhaustive = width <= exhaustive_max;
+        let directed = if exhaustive {
+            vec![]
+        } else {
+            vectors::directed(width)
+        };
+        let total: u64 = if exhaustive {
+            1u64 << (2 * width + 1)
+        } else {
+            (directed.len() + random) as u64
+        };
+        Words {
+            width,
+            total,
+            exhaustive,
+            directed,
+            rng: vectors::Rng::new(seed),
+            i: 0,
+            lanes: [Vector::new(0, 0, false, width); 64],
+        }
+    }
+
+    fn vector_at(&mut self, i: u64) -> Vector {
+        let w = self.width;
+        if self.exhaustive {
+            let mask = vectors::mask(w);
+            let cin = i & 1 == 1;
+            let a = ((i >> 1) as u128) & mask;
+            let b = ((i >> (1 + w)) as u128) & mask;
+            Vector::new(a, b, cin, w)
+        } else if (i as usize) < self.directed.len() {
+            self.directed[i as usize]
+        } else {
+            vectors::random_vector(&mut self.rng, w)
+        }
+    }
+
+    /// The next 64 lanes and how many of them are real vectors (the last word is padded by
+    /// repeating its first vector).
+    pub fn next_word(&mut self) -> Option<([Vector; 64], usize)> {
+        if self.i >= self.total {
+            return None;
+        }
+        let n = (self.total - self.i).min(64) as usize;
+        for k in 0..64 {
+            self.lanes[k] = if k < n {
+                self.vector_at(self.i + k as u64)
+            } else {
+                self.lanes[0]
+            };
+        }
+        self.i += n as u64;
+        Some((self.lanes, n))
+    }
+}
+
+/// One word per bit of `a`, of `b`, then cin, for 64 lanes (the evaluator's input order
+/// after `clk`).
+pub fn input_words(lanes: &[Vector; 64], width: usize, out: &mut Vec<u64>) {
+    let mut la = [0u128; 64];
+    let mut lb = [0u128; 64];
+    let mut cin = 0u64;
+    for (k, v) in lanes.iter().enumerate() {
+        la[k] = v.a;
+        lb[k] = v.b;
+        cin |= (v.cin as u64) << k;
+    }
+    lanes_to_words(&la, width, out);
+    lanes_to_words(&lb, width, out);
+    out.push(cin);
+}
+
+/// One word per bit of the expected sum, then cout.
+pub fn expected_words(lanes: &[Vector; 64], width: usize, out: &mut Vec<u64>) {
+    let mut ls = [0u128; 64];
+    let mut cout = 0u64;
+    for (k, v) in lanes.iter().enumerate() {
+        ls[k] = v.s;
+        cout |= (v.cout as u64) << k;
+    }
+    lanes_to_words(&ls, width, out);
+    out.push(cout);
+}
+
 /// Result of a logic check.
 #[derive(Debug, Clone, serde::Serialize)]
 pub struct CheckReport {
@@ -226,31 +338,8 @@ pub fn check(
 ) -> Result<CheckReport> {
     let mut ev = Evaluator::new(design)?;
     let w = ev.width;
-    let exhaustive = w <= exhaustive_max;
-    let total: u64 = if exhaustive {
-        1u64 << (2 * w + 1)
-    } else {
-        (vectors::directed(w).len() + random) as u64
-    };
-    let directed = if exhaustive {
-        vec![]
-    } else {
-        vectors::directed(w)
-    };
-    let mut rng = vectors::Rng::new(seed);
-    let mask = vectors::mask(w);
-    let vector_at = |i: u64, rng: &mut vectors::Rng| -> Vector {
-        if exhaustive {
-            let cin = i & 1 == 1;
-            let a = ((i >> 1) as u128) & mask;
-            let b = ((i >> (1 + w)) as u128) & mask;
-            Vector::new(a, b, cin, w)
-        } else if (i as usize) < directed.len() {
-            directed[i as usize]
-        } else {
-            vectors::random_vector(rng, w)
-        }
-    };
+    let words = Words::new(w, seed, random, exhaustive_max);
+    let (total, exhaustive) = (words.total, words.exhaustive);
     let mut report = CheckReport {
         vectors: total,
         exhaustive,
@@ -258,48 +347,25 @@ pub fn check(
         mismatches: 0,
         first_mismatch: None,
     };
-    let mut lanes: [Vector; 64] = [Vector::new(0, 0, false, w); 64];
     let mut inputs: Vec<u64> = Vec::with_capacity(2 * w + 2);
     let mut outputs = vec![0u64; w + 1];
     let mut expect: Vec<u64> = Vec::with_capacity(w + 1);
-    let mut la = [0u128; 64];
-    let mut lb = [0u128; 64];
-    let mut ls = [0u128; 64];
-    let mut i = 0u64;
-    while i < total {
-        let n = (total - i).min(64) as usize;
-        for k in 0..64 {
-            // Pad the last word by repeating its first vector.
-            lanes[k] = if k < n {
-                vector_at(i + k as u64, &mut rng)
-            } else {
-                lanes[0]
-            };
-        }
-        let mut cin = 0u64;
-        let mut cout = 0u64;
-        for k in 0..64 {
-            let v = &lanes[k];
-            la[k] = v.a;
-            lb[k] = v.b;
-            ls[k] = v.s;
-            cin |= (v.cin as u64) << k;
-            cout |= (v.cout as u64) << k;
-        }
+    let mut words = words;
+    let mut data: Vec<u64> = Vec::with_capacity(2 * w + 1);
+    while let Some((lanes, n)) = words.next_word() {
+        data.clear();
+        input_words(&lanes, w, &mut data);
         let phases: &[bool] = if ev.dynamic { &[false, true] } else { &[true] };
         for &evaluate in phases {
             inputs.clear();
             if ev.dynamic {
                 inputs.push(if evaluate { !0 } else { 0 });
             }
-            lanes_to_words(&la, w, &mut inputs);
-            lanes_to_words(&lb, w, &mut inputs);
-            inputs.push(cin);
+            inputs.extend_from_slice(&data);
             ev.eval(&inputs, &mut outputs);
             expect.clear();
             if evaluate {
-                lanes_to_words(&ls, w, &mut expect);
-                expect.push(cout);
+                expected_words(&lanes, w, &mut expect);
             } else {
                 let off = usize::from(ev.dynamic);
                 for bit in 0..w {
@@ -337,7 +403,6 @@ pub fn check(
                 }
             }
         }
-        i += n as u64;
     }
     Ok(report)
 }

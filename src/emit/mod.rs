@@ -158,6 +158,7 @@ pub fn render_all(
     counts: &summary::Counts,
     timing: std::result::Result<&Estimate, &str>,
     keepers: Option<&crate::timing::keeper::Report>,
+    check_spice: Option<&dyn Fn(&str) -> Result<crate::switch::Report>>,
 ) -> Result<Vec<(String, String)>> {
     let estimate = timing.ok();
     // Only the vectors the deck uses are materialised; the Verilog testbench draws the other
@@ -171,6 +172,8 @@ pub fn render_all(
     let deck = spice::DeckPlan::new(spec, design, &plan, estimate)?;
     let n = &spec.name;
     let netlist = spice::subcircuits(spec, design)?;
+    // The SPICE text is checked as it will be written (the deck carries the same text).
+    let switch = check_spice.map(|f| f(&netlist)).transpose()?;
     let bench = spice::deck(spec, design, &deck, &netlist)?;
     Ok(vec![
         (format!("{n}.v"), verilog::design(spec, design)?),
@@ -179,7 +182,16 @@ pub fn render_all(
         (format!("{n}_tb.sp"), bench),
         (
             format!("{n}.json"),
-            summary::json(spec, design, counts, &plan, &deck, timing, keepers)?,
+            summary::json(
+                spec,
+                design,
+                counts,
+                &plan,
+                &deck,
+                timing,
+                keepers,
+                switch.as_ref(),
+            )?,
         ),
     ])
 }

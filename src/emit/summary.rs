@@ -93,6 +93,10 @@ struct Summary<'a> {
     /// discharge front there, the limit, and each keeper's holding margin at the leaky corner.
     #[serde(skip_serializing_if = "Option::is_none")]
     keepers: Option<serde_json::Value>,
+    /// The switch-level check of NAME.sp (parsed back, simulated as switches over the logic
+    /// check's vectors): vectors, phases, transistors, stages, passed.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    switch_level: Option<serde_json::Value>,
     /// Every cell's devices with their sizes and roles (each cell is one or more stages).
     cell_sizes: serde_json::Value,
     /// Every ratioed node (a keeper against the pull-down paths it fights): the keeper's W/L,
@@ -118,6 +122,7 @@ pub fn json(
     deck: &DeckPlan,
     timing: std::result::Result<&Estimate, &str>,
     keepers: Option<&crate::timing::keeper::Report>,
+    switch: Option<&crate::switch::Report>,
 ) -> Result<String> {
     let chain = matches!(
         spec.architecture,
@@ -173,6 +178,7 @@ pub fn json(
             Err(why) => serde_json::json!({ "none": why }),
         },
         keepers: keepers.map(rounded).transpose()?,
+        switch_level: switch.map(rounded).transpose()?,
         cell_sizes: rounded(
             design
                 .cells

@@ -1,0 +1,556 @@
+//! A switch-level simulator on the model of Bryant (IEEE Trans. Computers C-33(2), 1984):
+//! transistors are switches, nodes carry a value (0, 1 or X), signals have strengths, and an
+//! isolated node keeps its charge.
+//!
+//! - **Strengths.** Inputs and supplies are strongest. Each transistor has a strength from its
+//!   conductance, W/L (PMOS divided by the technology's hole/electron resistance ratio), with
+//!   a series stack through internal nodes (nodes that only join two channels) counted as one
+//!   conductance 1/Σ(1/k); conductances are graded in half-octaves. Stored charge is weaker
+//!   than any transistor, on two sizes: a node that reaches a gate is larger than one that
+//!   only joins channels, so a gate node wins when it shares charge with a stack node.
+//! - **Values.** A path's strength is the weakest of its source and its transistors; a node
+//!   takes the value of its strongest path. If paths of the strongest level carry 0 and 1 the
+//!   node is X (a fight with no winner; in a ratioed stage the pull-down must be graded above
+//!   the pull-up it fights). A transistor whose gate is X may or may not conduct: a node is 0
+//!   or 1 only if no potential path at least as strong carries the other value.
+//! - **Bit-parallel.** Every value is a pair of 64-bit masks (`hi`, `lo`; neither set = X), so
+//!   one pass simulates 64 independent vector sequences, one per bit lane.
+//! - **Evaluation.** Transistors are grouped into channel-connected components (CCCs: nodes
+//!   joined by source/drain, the supplies and inputs being sources, not members). A CCC is
+//!   solved for its steady state from its gate values and its stored charge; a changed node
+//!   schedules the CCCs it gates. CCCs run in a topological order of the gate graph (a
+//!   priority queue), so a CCC normally sees settled inputs: zero-delay, glitch-free.
+
+use super::parse::{Device, Flat, Kind};
+use std::cmp::Reverse;
+use std::collections::BinaryHeap;
+
+/// A device inside a CCC: gate (global node), channel ends (indices into the CCC's terms).
+#[derive(Debug, Clone, Copy)]
+struct CDev {
+    gate: u32,
+    pmos: bool,
+    a: u16,
+    b: u16,
+    level: u8,
+}
+
+#[derive(Debug, Clone)]
+struct Ccc {
+    /// Global ids: the CCC's own nodes first (`n_local`), then the sources its channels reach.
+    terms: Vec<u32>,
+    n_local: usize,
+    /// Charge size per own node: 2 when it reaches a gate, 1 otherwise.
+    size: Vec<u8>,
+    devs: Vec<CDev>,
+    /// Distinct device levels, strongest first.
+    levels: Vec<u8>,
+}
+
+/// The compiled network and its state.
+pub struct Network {
+    pub names: Vec<String>,
+    hi: Vec<u64>,
+    lo: Vec<u64>,
+    fixed: Vec<bool>,
+    cccs: Vec<Ccc>,
+    /// CCCs to re-solve when a node changes (gated by it, or a source of their channels).
+    readers: Vec<Vec<u32>>,
+    rank: Vec<u32>,
+    queue: BinaryHeap<Reverse<(u32, u32)>>,
+    queued: Vec<bool>,
+    /// CCC solves since the network was built.
+    pub solves: u64,
+    scratch: Scratch,
+}
+
+#[derive(Default)]
+struct Scratch {
+    hd: Vec<u64>,
+    ld: Vec<u64>,
+    hp: Vec<u64>,
+    lp: Vec<u64>,
+    one: Vec<u64>,
+    zero: Vec<u64>,
+    on: Vec<u64>,
+    maybe: Vec<u64>,
+}
+
+/// A node that did not settle.
+#[derive(Debug, Clone)]
+pub struct Unsettled {
+    pub node: String,
+}
+
+/// Level of a conductance (W/L units): half-octave grades, offset so every practical size is
+/// positive and above the charge sizes 1 and 2.
+fn grade(k: f64) -> u8 {
+    let g = (2.0 * k.max(1e-6).log2()).round() + 64.0;
+    g.clamp(3.0, 255.0) as u8
+}
+
+impl Network {
+    /// Compile `flat`: `sources` are the nodes held from outside (supplies and inputs);
+    /// `p_ratio` is how much weaker a PMOS is than an NMOS of the same W/L.
+    pub fn new(flat: &Flat, sources: &[u32], p_ratio: f64) -> Network {
+        let n = flat.names.len();
+        let mut fixed = vec![false; n];
+        for &s in sources {
+            fixed[s as usize] = true;
+        }
+        // Channel and gate counts per node.
+        let mut chans: Vec<Vec<u32>> = vec![vec![]; n];
+        let mut gates = vec![0u32; n];
+        for (i, d) in flat.devices.iter().enumerate() {
+            if d.d != d.s {
+                chans[d.d as usize].push(i as u32);
+                chans[d.s as usize].push(i as u32);
+            }
+            gates[d.g as usize] += 1;
+        }
+        let ports: std::collections::HashSet<u32> = flat.ports.iter().copied().collect();
+        let internal = |x: u32| {
+            !fixed[x as usize]
+                && gates[x as usize] == 0
+                && chans[x as usize].len() == 2
+                && !ports.contains(&x)
+        };
+        let conductance = |d: &Device| {
+            let k = d.w / d.l;
+            if d.kind == Kind::P {
+                k / p_ratio
+            } else {
+                k
+            }
+        };
+        // Series stacks through internal nodes share one conductance.
+        let mut level = vec![0u8; flat.devices.len()];
+        let mut done = vec![false; flat.devices.len()];
+        for start in 0..flat.devices.len() {
+            if done[start] {
+                continue;
+            }
+            // Collect the stack: walk both ways through internal nodes.
+            let mut stack = vec![start as u32];
+            done[start] = true;
+            let mut frontier = vec![flat.devices[start].d, flat.devices[start].s];
+            while let Some(x) = frontier.pop() {
+                if !internal(x) {
+                    continue;
+                }
+                for &o in &chans[x as usize] {
+                    if !done[o as usize] {
+                        done[o as usize] = true;
+                        stack.push(o);
+                        let od = &flat.devices[o as usize];
+                        frontier.push(if od.d == x { od.s } else { od.d });
+                    }
+                }
+            }
+            let r: f64 = stack
+                .iter()
+                .map(|&i| 1.0 / conductance(&flat.devices[i as usize]))
+                .sum();
+            let g = grade(1.0 / r);
+            for &i in &stack {
+                level[i as usize] = g;
+            }
+        }
+        // Channel-connected components over non-source nodes.
+        let mut comp = vec![u32::MAX; n];
+        let mut cccs: Vec<Ccc> = vec![];
+        for startn in 0..n as u32 {
+            if fixed[startn as usize] || comp[startn as usize] != u32::MAX {
+                continue;
+            }
+            if chans[startn as usize].is_empty() {
+                continue; // a gate-only node (an undriven input would be one): no CCC
+            }
+            let id = cccs.len() as u32;
+            let mut nodes = vec![startn];
+            comp[startn as usize] = id;
+            let mut k = 0;
+            let mut devs_idx: Vec<u32> = vec![];
+            while k < nodes.len() {
+                let x = nodes[k];
+                k += 1;
+                for &di in &chans[x as usize] {
+                    let d = &flat.devices[di as usize];
+                    let y = if d.d == x { d.s } else { d.d };
+                    if !devs_idx.contains(&di) {
+                        devs_idx.push(di);
+                    }
+                    if !fixed[y as usize] && comp[y as usize] == u32::MAX {
+                        comp[y as usize] = id;
+                        nodes.push(y);
+                    }
+                }
+            }
+            devs_idx.sort_unstable();
+            let n_local = nodes.len();
+            let mut terms = nodes.clone();
+            let term_of = |x: u32, terms: &mut Vec<u32>| -> u16 {
+                match terms.iter().position(|&t| t == x) {
+                    Some(p) => p as u16,
+                    None => {
+                        terms.push(x);
+                        (terms.len() - 1) as u16
+                    }
+                }
+            };
+            let mut devs: Vec<CDev> = devs_idx
+                .iter()
+                .map(|&di| {
+                    let d = &flat.devices[di as usize];
+                    CDev {
+                        gate: d.g,
+                        pmos: d.kind == Kind::P,
+                        a: term_of(d.d, &mut terms),
+                        b: term_of(d.s, &mut terms),
+                        level: level[di as usize],
+                    }
+                })
+                .collect();
+            // Devices touching a source first: one forward pass then mostly settles.
+            devs.sort_by_key(|d| {
+                Reverse((d.a as usize >= n_local) as u8 + (d.b as usize >= n_local) as u8)
+            });
+            let size = nodes
+                .iter()
+                .map(|&x| {
+                    if gates[x as usize] > 0 || ports.contains(&x) {
+                        2
+                    } else {
+                        1
+                    }
+                })
+                .collect();
+            let mut levels: Vec<u8> = devs.iter().map(|d| d.level).collect();
+            levels.sort_unstable_by(|a, b| b.cmp(a));
+            levels.dedup();
+            cccs.push(Ccc {
+                terms,
+                n_local,
+                size,
+                devs,
+                levels,
+            });
+        }
+        // Readers: CCCs a node gates or feeds as a source.
+        let mut readers: Vec<Vec<u32>> = vec![vec![]; n];
+        for (ci, c) in cccs.iter().enumerate() {
+            for d in &c.devs {
+                readers[d.gate as usize].push(ci as u32);
+            }
+            for &t in &c.terms[c.n_local..] {
+                readers[t as usize].push(ci as u32);
+            }
+        }
+        for r in &mut readers {
+            r.sort_unstable();
+            r.dedup();
+        }
+        let rank = rank_cccs(&cccs, &comp, &readers);
+        let nc = cccs.len();
+        let mut net = Network {
+            names: flat.names.clone(),
+            hi: vec![0; n],
+            lo: vec![0; n],
+            fixed,
+            cccs,
+            readers,
+            rank,
+            queue: BinaryHeap::new(),
+            queued: vec![false; nc],
+            solves: 0,
+            scratch: Scratch::default(),
+        };
+        for c in 0..nc as u32 {
+            net.push(c);
+        }
+        net
+    }
+
+    pub fn n_cccs(&self) -> usize {
+        self.cccs.len()
+    }
+
+    fn push(&mut self, c: u32) {
+        if !self.queued[c as usize] {
+            self.queued[c as usize] = true;
+            self.queue.push(Reverse((self.rank[c as usize], c)));
+        }
+    }
+
+    /// Hold source node `x` at `value` in every lane (bit set = 1).
+    pub fn set(&mut self, x: u32, value: u64) {
+        debug_assert!(self.fixed[x as usize]);
+        let (h, l) = (value, !value);
+        if self.hi[x as usize] != h || self.lo[x as usize] != l {
+            self.hi[x as usize] = h;
+            self.lo[x as usize] = l;
+            for i in 0..self.readers[x as usize].len() {
+                let c = self.readers[x as usize][i];
+                self.push(c);
+            }
+        }
+    }
+
+    /// Value masks of node `x`: (lanes at 1, lanes at 0); lanes in neither are X.
+    pub fn value(&self, x: u32) -> (u64, u64) {
+        (self.hi[x as usize], self.lo[x as usize])
+    }
+
+    /// Solve queued CCCs until nothing changes; `limit` solves at most.
+    pub fn settle(&mut self, limit: u64) -> Result<(), Unsettled> {
+        let mut budget = limit;
+        while let Some(Reverse((_, c))) = self.queue.pop() {
+            self.queued[c as usize] = false;
+            if budget == 0 {
+                let cc = &self.cccs[c as usize];
+                return Err(Unsettled {
+                    node: self.names[cc.terms[0] as usize].clone(),
+                });
+            }
+            budget -= 1;
+            self.solve(c as usize);
+        }
+        Ok(())
+    }
+
+    fn solve(&mut self, ci: usize) {
+        self.solves += 1;
+        let c = &self.cccs[ci];
+        let s = &mut self.scratch;
+        let nt = c.terms.len();
+        let nl = c.n_local;
+        for v in [&mut s.hd, &mut s.ld, &mut s.hp, &mut s.lp] {
+            v.clear();
+            v.resize(nt, 0);
+        }
+        s.one.clear();
+        s.one.resize(nl, 0);
+        s.zero.clear();
+        s.zero.resize(nl, 0);
+        for k in nl..nt {
+            let t = c.terms[k] as usize;
+            let (h, l) = (self.hi[t], self.lo[t]);
+            s.hd[k] = h;
+            s.ld[k] = l;
+            s.hp[k] = !l;
+            s.lp[k] = !h;
+        }
+        s.on.clear();
+        s.maybe.clear();
+        for d in &c.devs {
+            let (h, l) = (self.hi[d.gate as usize], self.lo[d.gate as usize]);
+            let (on, maybe) = if d.pmos { (l, !h) } else { (h, !l) };
+            s.on.push(on);
+            s.maybe.push(maybe);
+        }
+        // All devices at once: without a potential fight the levels change nothing.
+        relax(c, s, 0);
+        let mut fight = 0u64;
+        for k in 0..nl {
+            fight |= s.hp[k] & s.lp[k];
+        }
+        if fight != 0 && c.levels.len() > 1 {
+            for v in [&mut s.hd, &mut s.ld, &mut s.hp, &mut s.lp] {
+                v[..nl].iter_mut().for_each(|x| *x = 0);
+            }
+            for &lv in &c.levels {
+                relax(c, s, lv);
+                for k in 0..nl {
+                    s.one[k] |= s.hd[k] & !s.lp[k];
+                    s.zero[k] |= s.ld[k] & !s.hp[k];
+                }
+            }
+        } else {
+            for k in 0..nl {
+                s.one[k] = s.hd[k] & !s.lp[k];
+                s.zero[k] = s.ld[k] & !s.hp[k];
+            }
+        }
+        // Stored charge, for nodes no transistor path reaches in some lane.
+        let mut loose = 0u64;
+        for k in 0..nl {
+            loose |= !(s.hp[k] | s.lp[k]);
+        }
+        if loose != 0 {
+            for size in [2u8, 1] {
+                for k in 0..nl {
+                    if c.size[k] >= size {
+                        let t = c.terms[k] as usize;
+                        let (h, l) = (self.hi[t], self.lo[t]);
+                        s.hd[k] |= h;
+                        s.ld[k] |= l;
+                        s.hp[k] |= !l;
+                        s.lp[k] |= !h;
+                    }
+                }
+                relax(c, s, 0);
+                for k in 0..nl {
+                    s.one[k] |= s.hd[k] & !s.lp[k];
+                    s.zero[k] |= s.ld[k] & !s.hp[k];
+                }
+            }
+        }
+        // Write back; schedule readers of changed nodes.
+        let mut changed: Vec<u32> = vec![];
+        for k in 0..nl {
+            let t = c.terms[k] as usize;
+            if self.hi[t] != s.one[k] || self.lo[t] != s.zero[k] {
+                self.hi[t] = s.one[k];
+                self.lo[t] = s.zero[k];
+                changed.push(t as u32);
+            }
+        }
+        for t in changed {
+            for i in 0..self.readers[t as usize].len() {
+                // A CCC whose own node gates one of its devices (an inverter inside a
+                // transmission-gate network) is solved again with the new value.
+                let r = self.readers[t as usize][i];
+                self.push(r);
+            }
+        }
+    }
+
+    /// The device behind a CCC's internal index, for messages.
+    pub fn device_count(&self) -> usize {
+        self.cccs.iter().map(|c| c.devs.len()).sum()
+    }
+}
+
+/// Spread reach through every device of level ≥ `min` until nothing changes.
+fn relax(c: &Ccc, s: &mut Scratch, min: u8) {
+    let nl = c.n_local;
+    loop {
+        let mut changed = false;
+        for (i, d) in c.devs.iter().enumerate() {
+            if d.level < min {
+                continue;
+            }
+            let (on, mb) = (s.on[i], s.maybe[i]);
+            if mb == 0 {
+                continue;
+            }
+            let (a, b) = (d.a as usize, d.b as usize);
+            if b < nl {
+                let (hd, ld, hp, lp) = (
+                    s.hd[b] | (on & s.hd[a]),
+                    s.ld[b] | (on & s.ld[a]),
+                    s.hp[b] | (mb & s.hp[a]),
+                    s.lp[b] | (mb & s.lp[a]),
+                );
+                if (hd, ld, hp, lp) != (s.hd[b], s.ld[b], s.hp[b], s.lp[b]) {
+                    changed = true;
+                    s.hd[b] = hd;
+                    s.ld[b] = ld;
+                    s.hp[b] = hp;
+                    s.lp[b] = lp;
+                }
+            }
+            if a < nl {
+                let (hd, ld, hp, lp) = (
+                    s.hd[a] | (on & s.hd[b]),
+                    s.ld[a] | (on & s.ld[b]),
+                    s.hp[a] | (mb & s.hp[b]),
+                    s.lp[a] | (mb & s.lp[b]),
+                );
+                if (hd, ld, hp, lp) != (s.hd[a], s.ld[a], s.hp[a], s.lp[a]) {
+                    changed = true;
+                    s.hd[a] = hd;
+                    s.ld[a] = ld;
+                    s.hp[a] = hp;
+                    s.lp[a] = lp;
+                }
+            }
+        }
+        if !changed {
+            break;
+        }
+    }
+}
+
+/// Topological rank of the CCCs in the gate graph (Tarjan's strongly connected components;
+/// a feedback loop such as a keeper's gets consecutive ranks).
+fn rank_cccs(cccs: &[Ccc], comp: &[u32], readers: &[Vec<u32>]) -> Vec<u32> {
+    let nc = cccs.len();
+    // Successors: the CCCs each CCC's nodes feed.
+    let succ: Vec<Vec<u32>> = cccs
+        .iter()
+        .enumerate()
+        .map(|(ci, c)| {
+            let mut v: Vec<u32> = c.terms[..c.n_local]
+                .iter()
+                .flat_map(|&t| readers[t as usize].iter().copied())
+                .filter(|&r| r as usize != ci)
+                .collect();
+            v.sort_unstable();
+            v.dedup();
+            v
+        })
+        .collect();
+    let _ = comp;
+    // Iterative Tarjan.
+    let mut index = vec![u32::MAX; nc];
+    let mut low = vec![0u32; nc];
+    let mut on_stack = vec![false; nc];
+    let mut stack: Vec<u32> = vec![];
+    let mut order: Vec<Vec<u32>> = vec![]; // SCCs in reverse topological order
+    let mut next = 0u32;
+    for root in 0..nc as u32 {
+        if index[root as usize] != u32::MAX {
+            continue;
+        }
+        let mut call: Vec<(u32, usize)> = vec![(root, 0)];
+        index[root as usize] = next;
+        low[root as usize] = next;
+        next += 1;
+        stack.push(root);
+        on_stack[root as usize] = true;
+        while let Some(&mut (v, ref mut k)) = call.last_mut() {
+            if *k < succ[v as usize].len() {
+                let w = succ[v as usize][*k];
+                *k += 1;
+                if index[w as usize] == u32::MAX {
+                    index[w as usize] = next;
+                    low[w as usize] = next;
+                    next += 1;
+                    stack.push(w);
+                    on_stack[w as usize] = true;
+                    call.push((w, 0));
+                } else if on_stack[w as usize] {
+                    low[v as usize] = low[v as usize].min(index[w as usize]);
+                }
+            } else {
+                call.pop();
+                if let Some(&(u, _)) = call.last() {
+                    low[u as usize] = low[u as usize].min(low[v as usize]);
+                }
+                if low[v as usize] == index[v as usize] {
+                    let mut scc = vec![];
+                    loop {
+                        let w = stack.pop().expect("Tarjan stack");
+                        on_stack[w as usize] = false;
+                        scc.push(w);
+                        if w == v {
+                            break;
+                        }
+                    }
+                    scc.sort_unstable();
+                    order.push(scc);
+                }
+            }
+        }
+    }
+    let mut rank = vec![0u32; nc];
+    let mut r = 0u32;
+    for scc in order.iter().rev() {
+        for &c in scc {
+            rank[c as usize] = r;
+            r += 1;
+        }
+    }
+    rank
+}
