@@ -260,6 +260,7 @@ fn bench_generate() {
                     &deck,
                     est.as_ref().ok_or("none"),
                     None,
+                    None,
                 )
                 .unwrap()
             }),

@@ -146,19 +146,23 @@ pub fn title(spec: &Spec) -> String {
     t
 }
 
+/// A check of the SPICE subcircuit text before it is written (the switch-level check).
+pub type SpiceCheck<'a> = &'a dyn Fn(&str) -> Result<crate::switch::Report>;
+
 /// Every output file, in memory: (file name, contents).
 /// `counts` is the design's [`summary::counts`], computed once by the caller.
 /// `timing` is the timing engine's estimate, or why there is none (the technology is not
 /// characterised at the spec's conditions, or the estimate failed): its worst pair joins the
 /// directed vectors, the deck measures it, and its figures go into NAME.json and the deck
-/// header.
+/// header. `check_spice` checks the SPICE subcircuit text before anything else is rendered
+/// from it; its report goes into NAME.json `switch_level`.
 pub fn render_all(
     spec: &Spec,
     design: &Design,
     counts: &summary::Counts,
     timing: std::result::Result<&Estimate, &str>,
     keepers: Option<&crate::timing::keeper::Report>,
-    check_spice: Option<&dyn Fn(&str) -> Result<crate::switch::Report>>,
+    check_spice: Option<SpiceCheck>,
 ) -> Result<Vec<(String, String)>> {
     let estimate = timing.ok();
     // Only the vectors the deck uses are materialised; the Verilog testbench draws the other

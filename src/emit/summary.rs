@@ -114,6 +114,7 @@ fn hex(x: u128) -> String {
     format!("0x{x:x}")
 }
 
+#[allow(clippy::too_many_arguments)]
 pub fn json(
     spec: &Spec,
     design: &Design,
