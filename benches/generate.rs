@@ -137,6 +137,9 @@ fn main() {
     if run("estimate") {
         bench_estimate();
     }
+    if run("switch") {
+        bench_switch();
+    }
     println!();
     println!("  load average at end: {}", loadavg());
 }
@@ -866,6 +869,61 @@ fn bench_estimate() {
             &format!("{est:.1} ms"),
             &format!("< {ESTIMATE_TARGET_MS} ms"),
             verdict(est < ESTIMATE_TARGET_MS),
+        );
+    }
+}
+
+// ---------------------------------------------------------------------------------------
+// 6. switch-level check of the SPICE view (src/switch): vectors per second, the added time
+//    inside `generate`, and `verify` of a 128-bit Kogge-Stone netlist
+// ---------------------------------------------------------------------------------------
+
+const SWITCH_GENERATE_TARGET_MS: f64 = 20.0;
+
+fn bench_switch() {
+    use carrywright::switch;
+    println!();
+    println!("6. switch-level check: NAME.sp parsed, flattened and simulated as switches");
+    let designs = [
+        ("64-bit static Manchester", "name: m64\nwidth: 64\narchitecture: manchester\nblock: 4\nbuffers: {every: 8}\n"),
+        ("64-bit dynamic Manchester", "name: d64\nwidth: 64\narchitecture: manchester\nstyle: dynamic\nblock: 4\nbuffers: {every: 4}\n"),
+        ("64-bit Kogge-Stone", "name: k64\nwidth: 64\narchitecture: kogge-stone\n"),
+    ];
+    for (label, text) in designs {
+        let s = parse(text);
+        let design = carrywright::build(&s).unwrap();
+        let sp = spice::subcircuits(&s, &design).unwrap();
+        let random = carrywright::GENERATE_RANDOM;
+        let mut vectors = 0;
+        let st = measure(1, 5, || {
+            let r =
+                switch::check_text(&sp, "bench.sp", &design, &s.technology, 1, random, 8).unwrap();
+            assert!(r.passed);
+            vectors = r.vectors;
+            r
+        });
+        let rate = vectors as f64 / st.median.as_secs_f64();
+        line(&format!("{label}: {vectors} vectors"), &st);
+        println!("    {:.2} M vectors/s", rate / 1e6);
+        figure(
+            &format!("switch-level vectors/s, {label}"),
+            &format!("{:.2} M/s", rate / 1e6),
+            "-",
+            "-",
+        );
+        figure(
+            &format!("switch-level check inside generate, {label}"),
+            &format!("{:.1} ms", ms(st.median)),
+            &format!("generate < {SWITCH_GENERATE_TARGET_MS} ms in all"),
+            "-",
+        );
+        let total = measure(1, 5, || carrywright::generate(&s).unwrap());
+        line(&format!("{label}: whole generate"), &total);
+        figure(
+            &format!("generate with the switch-level check, {label}"),
+            &format!("{:.1} ms", ms(total.median)),
+            &format!("< {SWITCH_GENERATE_TARGET_MS} ms"),
+            verdict(ms(total.median) < SWITCH_GENERATE_TARGET_MS),
         );
     }
 }

@@ -66,3 +66,171 @@ fn every_architecture_adds_at_switch_level() {
         }
     }
 }
+
+/// Apply `f` to every line inside subcircuit `sub` (`f` returns the new line, or None to drop
+/// it); panics if nothing changed, so a mutation that misses its target fails the test.
+fn in_subckt(text: &str, sub: &str, f: impl Fn(&str) -> Option<String>) -> String {
+    let mut out = String::new();
+    let mut inside = false;
+    let mut changed = false;
+    for line in text.lines() {
+        if line.starts_with(".subckt ") {
+            inside = line.split_whitespace().nth(1) == Some(sub);
+        }
+        let new = if inside && !line.starts_with('.') {
+            f(line)
+        } else {
+            Some(line.to_string())
+        };
+        if new.as_deref() != Some(line) {
+            changed = true;
+        }
+        if let Some(l) = new {
+            out.push_str(&l);
+            out.push('\n');
+        }
+        if line.starts_with(".ends") {
+            inside = false;
+        }
+    }
+    assert!(changed, "mutation of {sub} changed nothing");
+    out
+}
+
+/// Replace `from` by `to` in lines of `sub` starting with `head`.
+fn edit(text: &str, sub: &str, head: &str, from: &str, to: &str) -> String {
+    in_subckt(text, sub, |l| {
+        Some(if l.starts_with(head) {
+            l.replacen(from, to, 1)
+        } else {
+            l.to_string()
+        })
+    })
+}
+
+/// A copy of subcircuit `sub` named `new`, without its lines starting with `drop`.
+fn copy_without(text: &str, sub: &str, new: &str, drop: &str) -> String {
+    let mut copy = vec![];
+    let mut inside = false;
+    for line in text.lines() {
+        if line.starts_with(&format!(".subckt {sub} ")) {
+            inside = true;
+        }
+        if inside {
+            let l = line
+                .replace(&format!(".subckt {sub} "), &format!(".subckt {new} "))
+                .replace(&format!(".ends {sub}"), &format!(".ends {new}"));
+            if !l.starts_with(drop) {
+                copy.push(l);
+            }
+        }
+        if line.starts_with(&format!(".ends {sub}")) {
+            inside = false;
+        }
+    }
+    assert!(!copy.is_empty(), "no subcircuit {sub}");
+    format!("{}\n{text}", copy.join("\n"))
+}
+
+/// The deliberately broken netlists of the issue, each applied to the text `generate` writes.
+/// Returns (what was broken, the spec, the broken text).
+pub fn broken_netlists() -> Vec<(&'static str, Spec, String)> {
+    let st = parse("name: m8\nwidth: 8\narchitecture: manchester\nblock: 2\nbuffers: {every: 4}\n");
+    let dy = parse(
+        "name: d8\nwidth: 8\narchitecture: manchester\nstyle: dynamic\nblock: 4\nbuffers: {every: 4}\n",
+    );
+    let (_, s) = sp_text(&st);
+    let (_, d) = sp_text(&dy);
+    let swapped = edit(
+        &edit(&s, "m8_blk2_i", "xsum0 ", "xsum0 p0 ", "xsum0 p1 "),
+        "m8_blk2_i",
+        "xsum1 ",
+        "xsum1 p1 ",
+        "xsum1 p0 ",
+    );
+    vec![
+        ("two nets swapped between cells", st.clone(), swapped),
+        (
+            "a missing device",
+            st.clone(),
+            in_subckt(&s, "m8_sum_i", |l| {
+                (!l.starts_with("mp_x ")).then(|| l.to_string())
+            }),
+        ),
+        (
+            "an NMOS where a PMOS belongs",
+            st.clone(),
+            edit(&s, "m8_inv", "mp_y ", "cw_pch", "cw_nch"),
+        ),
+        (
+            "a buffer's polarity flipped",
+            st.clone(),
+            edit(&s, "m8", "xbuf4 ", "m8_inv", "m8_buf"),
+        ),
+        (
+            "a keeper stronger than the pull-down stack",
+            dy.clone(),
+            edit(
+                &d,
+                "d8_mcc_dk",
+                "mp_keep ",
+                "w=0.5u l=1.75u",
+                "w=8u l=0.35u",
+            ),
+        ),
+        (
+            "a precharge device removed from one chain node",
+            dy.clone(),
+            edit(
+                &copy_without(&d, "d8_mcc_dk", "d8_mcc_np", "mp_pre "),
+                "d8_blk4_d",
+                "xmc1 ",
+                "d8_mcc_dk",
+                "d8_mcc_np",
+            ),
+        ),
+        (
+            "a sized-down pull-down in a ratioed stage",
+            dy.clone(),
+            edit(&d, "d8_mcc_dk", "mn_g ", "w=2u l=0.35u", "w=0.3u l=3.5u"),
+        ),
+    ]
+}
+
+#[test]
+fn the_generated_texts_pass_before_they_are_broken() {
+    for s in [
+        parse("name: m8\nwidth: 8\narchitecture: manchester\nblock: 2\nbuffers: {every: 4}\n"),
+        parse("name: d8\nwidth: 8\narchitecture: manchester\nstyle: dynamic\nblock: 4\nbuffers: {every: 4}\n"),
+    ] {
+        let (d, text) = sp_text(&s);
+        let r = switch::check_text(&text, "t.sp", &d, &s.technology, 1, 0, 8).unwrap();
+        assert!(r.passed && r.exhaustive && r.vectors == 1 << 17, "{r:?}");
+    }
+}
+
+/// Every deliberately broken netlist fails the switch-level check with a message naming the
+/// vector, the output and the first node that went wrong.
+#[test]
+fn every_broken_netlist_is_caught_at_switch_level() {
+    for (what, s, text) in broken_netlists() {
+        let d = carrywright::build(&s).unwrap();
+        let r = switch::check_text(&text, "broken.sp", &d, &s.technology, 1, 0, 8)
+            .unwrap_or_else(|e| panic!("{what}: {e}"));
+        let f = r
+            .first_failure
+            .as_ref()
+            .unwrap_or_else(|| panic!("{what}: not caught ({r:?})"));
+        eprintln!("{what}: {} wrong bits; {}", r.wrong_bits, f.message);
+        assert!(!r.passed && r.wrong_bits > 0, "{what}");
+        assert!(f.message.contains("vector a=0x"), "{what}: {}", f.message);
+        assert!(
+            f.first_wrong_node.is_some(),
+            "{what}: no internal node named: {}",
+            f.message
+        );
+        // The same text through the check `generate` runs is an error (exit 1).
+        let e = switch::check_or_fail(&text, "broken.sp", &d, &s.technology, 1, 0, 8).unwrap_err();
+        assert_eq!(e.exit_code(), 1, "{what}: {e}");
+    }
+}

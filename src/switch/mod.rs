@@ -180,10 +180,9 @@ pub fn check_flat(
         .map(|i| port(&format!("s{i}")))
         .chain([port("cout")])
         .collect();
-    let mut sources = vec![vdd, vss];
-    sources.extend(clk);
+    let mut sources: Vec<u32> = clk.into_iter().collect();
     sources.extend(&data);
-    let mut net = sim::Network::new(flat, &sources, p_ratio(tech));
+    let mut net = sim::Network::new(flat, vdd, vss, &sources, p_ratio(tech));
     net.set(vdd, !0);
     net.set(vss, 0);
     let limit = 64 * net.n_cccs() as u64 + 10_000;
@@ -298,6 +297,14 @@ pub fn check_flat(
                 let _ = oi;
             }
         }
+    }
+    if std::env::var_os("CW_SWITCH_STATS").is_some() {
+        eprintln!(
+            "solves {} cccs {} words {}",
+            net.solves,
+            net.n_cccs(),
+            report.vectors.div_ceil(64)
+        );
     }
     Ok(report)
 }

@@ -23,7 +23,6 @@
 
 use super::parse::{Device, Flat, Kind};
 use std::cmp::Reverse;
-use std::collections::BinaryHeap;
 
 /// A device inside a CCC: gate (global node), channel ends (indices into the CCC's terms).
 #[derive(Debug, Clone, Copy)]
@@ -45,6 +44,152 @@ struct Ccc {
     devs: Vec<CDev>,
     /// Distinct device levels, strongest first.
     levels: Vec<u8>,
+    /// A complementary gate's pull-up and pull-down conduction, where the CCC is one.
+    gate: Option<Gate>,
+}
+
+/// A static complementary gate: one output node (local node 0 after compilation), a PMOS
+/// network from vdd and an NMOS network to vss through internal nodes only, every gate driven
+/// from outside. Each network is reduced (series: AND, parallel: OR) to a program over its
+/// devices' gate values, so a lane where exactly one network may conduct is solved by two
+/// conduction functions. Any other lane (a fight, a floating output) falls back to the full
+/// solve, so the answer is the same.
+#[derive(Debug, Clone)]
+struct Gate {
+    out: usize,
+    up: Vec<Op>,
+    down: Vec<Op>,
+}
+
+/// A postfix program over device conduction masks.
+#[derive(Debug, Clone, Copy)]
+enum Op {
+    Dev(u16),
+    And,
+    Or,
+}
+
+/// Series-parallel reduction of a network between `from` and `to` (CCC term indices) over
+/// `edges` (term, term, device index in the CCC). None if it does not reduce.
+fn reduce(mut edges: Vec<(u16, u16, Vec<Op>)>, from: u16, to: u16) -> Option<Vec<Op>> {
+    loop {
+        if edges.len() == 1 {
+            let (a, b, p) = &edges[0];
+            return ((*a, *b) == (from, to) || (*a, *b) == (to, from)).then(|| p.clone());
+        }
+        let mut progress = false;
+        // Parallel: two edges between the same pair.
+        'par: for i in 0..edges.len() {
+            for j in i + 1..edges.len() {
+                let (a, b) = (edges[i].0, edges[i].1);
+                let (c, d) = (edges[j].0, edges[j].1);
+                if (a, b) == (c, d) || (a, b) == (d, c) {
+                    let e = edges.swap_remove(j);
+                    edges[i].2.extend(e.2);
+                    edges[i].2.push(Op::Or);
+                    progress = true;
+                    break 'par;
+                }
+            }
+        }
+        if progress {
+            continue;
+        }
+        // Series: an inner node on exactly two edges.
+        let mut nodes: Vec<u16> = edges.iter().flat_map(|e| [e.0, e.1]).collect();
+        nodes.sort_unstable();
+        nodes.dedup();
+        for x in nodes {
+            if x == from || x == to {
+                continue;
+            }
+            let on: Vec<usize> = (0..edges.len())
+                .filter(|&i| edges[i].0 == x || edges[i].1 == x)
+                .collect();
+            if on.len() == 2 {
+                let e2 = edges.swap_remove(on[1].max(on[0]));
+                let e1 = edges.swap_remove(on[0].min(on[1]));
+                let other = |e: &(u16, u16, Vec<Op>)| if e.0 == x { e.1 } else { e.0 };
+                let (u, v) = (other(&e1), other(&e2));
+                let mut p = e1.2;
+                p.extend(e2.2);
+                p.push(Op::And);
+                edges.push((u, v, p));
+                progress = true;
+                break;
+            }
+        }
+        if !progress {
+            return None;
+        }
+    }
+}
+
+fn run(prog: &[Op], masks: &[u64], stack: &mut Vec<u64>) -> u64 {
+    stack.clear();
+    for op in prog {
+        match *op {
+            Op::Dev(i) => stack.push(masks[i as usize]),
+            Op::And => {
+                let b = stack.pop().unwrap_or(0);
+                let a = stack.pop().unwrap_or(0);
+                stack.push(a & b);
+            }
+            Op::Or => {
+                let b = stack.pop().unwrap_or(0);
+                let a = stack.pop().unwrap_or(0);
+                stack.push(a | b);
+            }
+        }
+    }
+    stack.pop().unwrap_or(0)
+}
+
+/// The complementary-gate form of a CCC, if it has one.
+fn as_gate(c: &Ccc, vdd: u32, vss: u32) -> Option<Gate> {
+    let nl = c.n_local;
+    let outs: Vec<usize> = (0..nl).filter(|&k| c.size[k] == 2).collect();
+    if outs.len() != 1 {
+        return None;
+    }
+    let out = outs[0];
+    let t_vdd = c.terms.iter().position(|&t| t == vdd)? as u16;
+    let t_vss = c.terms.iter().position(|&t| t == vss)? as u16;
+    let mut up = vec![];
+    let mut down = vec![];
+    let mut side = vec![0u8; nl]; // 1 pull-up, 2 pull-down
+    for (i, d) in c.devs.iter().enumerate() {
+        if c.terms[..nl].contains(&d.gate) {
+            return None; // gated from inside
+        }
+        let (rail, list, mark) = if d.pmos {
+            (t_vdd, &mut up, 1u8)
+        } else {
+            (t_vss, &mut down, 2u8)
+        };
+        for t in [d.a, d.b] {
+            let t = t as usize;
+            if t < nl {
+                if t != out {
+                    if side[t] != 0 && side[t] != mark {
+                        return None;
+                    }
+                    side[t] = mark;
+                }
+            } else if t != rail as usize {
+                return None;
+            }
+        }
+        list.push((d.a, d.b, vec![Op::Dev(i as u16)]));
+    }
+    if up.is_empty() || down.is_empty() {
+        return None;
+    }
+    Some(Gate {
+        out,
+        up: reduce(up, t_vdd, out as u16)?,
+        down: reduce(down, t_vss, out as u16)?,
+    })
 }
 
 /// The compiled network and its state.
@@ -56,9 +201,12 @@ pub struct Network {
     cccs: Vec<Ccc>,
     /// CCCs to re-solve when a node changes (gated by it, or a source of their channels).
     readers: Vec<Vec<u32>>,
+    /// CCCs in rank order (`order[rank]`), and each CCC's rank.
+    order: Vec<u32>,
     rank: Vec<u32>,
-    queue: BinaryHeap<Reverse<(u32, u32)>>,
-    queued: Vec<bool>,
+    /// Dirty CCCs as a bit set over ranks; `low` is the lowest word that may hold one.
+    dirty: Vec<u64>,
+    low: usize,
     /// CCC solves since the network was built.
     pub solves: u64,
     scratch: Scratch,
@@ -74,6 +222,7 @@ struct Scratch {
     zero: Vec<u64>,
     on: Vec<u64>,
     maybe: Vec<u64>,
+    stack: Vec<u64>,
 }
 
 /// A node that did not settle.
@@ -92,9 +241,11 @@ fn grade(k: f64) -> u8 {
 impl Network {
     /// Compile `flat`: `sources` are the nodes held from outside (supplies and inputs);
     /// `p_ratio` is how much weaker a PMOS is than an NMOS of the same W/L.
-    pub fn new(flat: &Flat, sources: &[u32], p_ratio: f64) -> Network {
+    pub fn new(flat: &Flat, vdd: u32, vss: u32, sources: &[u32], p_ratio: f64) -> Network {
         let n = flat.names.len();
         let mut fixed = vec![false; n];
+        fixed[vdd as usize] = true;
+        fixed[vss as usize] = true;
         for &s in sources {
             fixed[s as usize] = true;
         }
@@ -228,13 +379,16 @@ impl Network {
             let mut levels: Vec<u8> = devs.iter().map(|d| d.level).collect();
             levels.sort_unstable_by(|a, b| b.cmp(a));
             levels.dedup();
-            cccs.push(Ccc {
+            let mut c = Ccc {
                 terms,
                 n_local,
                 size,
                 devs,
                 levels,
-            });
+                gate: None,
+            };
+            c.gate = as_gate(&c, vdd, vss);
+            cccs.push(c);
         }
         // Readers: CCCs a node gates or feeds as a source.
         let mut readers: Vec<Vec<u32>> = vec![vec![]; n];
@@ -252,6 +406,10 @@ impl Network {
         }
         let rank = rank_cccs(&cccs, &comp, &readers);
         let nc = cccs.len();
+        let mut order = vec![0u32; nc];
+        for (c, &r) in rank.iter().enumerate() {
+            order[r as usize] = c as u32;
+        }
         let mut net = Network {
             names: flat.names.clone(),
             hi: vec![0; n],
@@ -259,9 +417,10 @@ impl Network {
             fixed,
             cccs,
             readers,
+            order,
             rank,
-            queue: BinaryHeap::new(),
-            queued: vec![false; nc],
+            dirty: vec![0; nc.div_ceil(64)],
+            low: 0,
             solves: 0,
             scratch: Scratch::default(),
         };
@@ -276,10 +435,9 @@ impl Network {
     }
 
     fn push(&mut self, c: u32) {
-        if !self.queued[c as usize] {
-            self.queued[c as usize] = true;
-            self.queue.push(Reverse((self.rank[c as usize], c)));
-        }
+        let r = self.rank[c as usize] as usize;
+        self.dirty[r / 64] |= 1 << (r % 64);
+        self.low = self.low.min(r / 64);
     }
 
     /// Hold source node `x` at `value` in every lane (bit set = 1).
@@ -301,11 +459,18 @@ impl Network {
         (self.hi[x as usize], self.lo[x as usize])
     }
 
-    /// Solve queued CCCs until nothing changes; `limit` solves at most.
+    /// Solve dirty CCCs, lowest rank first, until nothing changes; `limit` solves at most.
     pub fn settle(&mut self, limit: u64) -> Result<(), Unsettled> {
         let mut budget = limit;
-        while let Some(Reverse((_, c))) = self.queue.pop() {
-            self.queued[c as usize] = false;
+        while self.low < self.dirty.len() {
+            let w = self.dirty[self.low];
+            if w == 0 {
+                self.low += 1;
+                continue;
+            }
+            let r = self.low * 64 + w.trailing_zeros() as usize;
+            self.dirty[self.low] &= w - 1;
+            let c = self.order[r];
             if budget == 0 {
                 let cc = &self.cccs[c as usize];
                 return Err(Unsettled {
@@ -348,6 +513,26 @@ impl Network {
             s.on.push(on);
             s.maybe.push(maybe);
         }
+        if let Some(g) = &c.gate {
+            let (pu_on, pu_mb) = (
+                run(&g.up, &s.on, &mut s.stack),
+                run(&g.up, &s.maybe, &mut s.stack),
+            );
+            let (pd_on, pd_mb) = (
+                run(&g.down, &s.on, &mut s.stack),
+                run(&g.down, &s.maybe, &mut s.stack),
+            );
+            if pu_mb ^ pd_mb == !0 {
+                // Exactly one network may conduct in every lane: its value where it surely
+                // conducts; where it only may, the stored value if it is the same, else X.
+                let t = c.terms[g.out] as usize;
+                let (oh, ol) = (self.hi[t], self.lo[t]);
+                let one = (pu_on | (pu_mb & oh)) & !pd_mb;
+                let zero = (pd_on | (pd_mb & ol)) & !pu_mb;
+                self.write(ci, g.out, one, zero);
+                return;
+            }
+        }
         // All devices at once: without a potential fight the levels change nothing.
         relax(c, s, 0);
         let mut fight = 0u64;
@@ -371,46 +556,66 @@ impl Network {
                 s.zero[k] = s.ld[k] & !s.hp[k];
             }
         }
-        // Stored charge, for nodes no transistor path reaches in some lane.
+        // Stored charge, for nodes no transistor path reaches in some lane ("loose").
         let mut loose = 0u64;
         for k in 0..nl {
             loose |= !(s.hp[k] | s.lp[k]);
         }
         if loose != 0 {
-            for size in [2u8, 1] {
+            // A loose node can only touch other loose nodes. Where no device joins two of
+            // them, each simply keeps its own charge.
+            let mut shared = 0u64;
+            for (i, d) in c.devs.iter().enumerate() {
+                let (a, b) = (d.a as usize, d.b as usize);
+                if a < nl && b < nl {
+                    shared |= s.maybe[i] & !(s.hp[a] | s.lp[a]) & !(s.hp[b] | s.lp[b]);
+                }
+            }
+            if shared == 0 {
                 for k in 0..nl {
-                    if c.size[k] >= size {
-                        let t = c.terms[k] as usize;
-                        let (h, l) = (self.hi[t], self.lo[t]);
-                        s.hd[k] |= h;
-                        s.ld[k] |= l;
-                        s.hp[k] |= !l;
-                        s.lp[k] |= !h;
+                    let t = c.terms[k] as usize;
+                    let l = !(s.hp[k] | s.lp[k]);
+                    s.one[k] |= self.hi[t] & l;
+                    s.zero[k] |= self.lo[t] & l;
+                }
+            } else {
+                for size in [2u8, 1] {
+                    for k in 0..nl {
+                        if c.size[k] >= size {
+                            let t = c.terms[k] as usize;
+                            let (h, l) = (self.hi[t], self.lo[t]);
+                            s.hd[k] |= h;
+                            s.ld[k] |= l;
+                            s.hp[k] |= !l;
+                            s.lp[k] |= !h;
+                        }
+                    }
+                    relax(c, s, 0);
+                    for k in 0..nl {
+                        s.one[k] |= s.hd[k] & !s.lp[k];
+                        s.zero[k] |= s.ld[k] & !s.hp[k];
                     }
                 }
-                relax(c, s, 0);
-                for k in 0..nl {
-                    s.one[k] |= s.hd[k] & !s.lp[k];
-                    s.zero[k] |= s.ld[k] & !s.hp[k];
-                }
             }
         }
-        // Write back; schedule readers of changed nodes.
-        let mut changed: Vec<u32> = vec![];
         for k in 0..nl {
-            let t = c.terms[k] as usize;
-            if self.hi[t] != s.one[k] || self.lo[t] != s.zero[k] {
-                self.hi[t] = s.one[k];
-                self.lo[t] = s.zero[k];
-                changed.push(t as u32);
-            }
+            let (one, zero) = (self.scratch.one[k], self.scratch.zero[k]);
+            self.write(ci, k, one, zero);
         }
-        for t in changed {
-            for i in 0..self.readers[t as usize].len() {
-                // A CCC whose own node gates one of its devices (an inverter inside a
-                // transmission-gate network) is solved again with the new value.
-                let r = self.readers[t as usize][i];
-                self.push(r);
+    }
+
+    /// Store local node `k` of CCC `ci`; schedule the node's readers if it changed. A CCC
+    /// whose own node gates one of its devices (an inverter inside a transmission-gate
+    /// network) is solved again.
+    fn write(&mut self, ci: usize, k: usize, one: u64, zero: u64) {
+        let t = self.cccs[ci].terms[k] as usize;
+        if self.hi[t] != one || self.lo[t] != zero {
+            self.hi[t] = one;
+            self.lo[t] = zero;
+            for &r in &self.readers[t] {
+                let r = self.rank[r as usize] as usize;
+                self.dirty[r / 64] |= 1 << (r % 64);
+                self.low = self.low.min(r / 64);
             }
         }
     }
@@ -424,6 +629,23 @@ impl Network {
 /// Spread reach through every device of level ≥ `min` until nothing changes.
 fn relax(c: &Ccc, s: &mut Scratch, min: u8) {
     let nl = c.n_local;
+    if nl == 1 {
+        // One node, every device joining it to a source: a single pass is exact.
+        let (mut hd, mut ld, mut hp, mut lp) = (s.hd[0], s.ld[0], s.hp[0], s.lp[0]);
+        for (i, d) in c.devs.iter().enumerate() {
+            if d.level < min {
+                continue;
+            }
+            let (on, mb) = (s.on[i], s.maybe[i]);
+            let src = if d.a == 0 { d.b } else { d.a } as usize;
+            hd |= on & s.hd[src];
+            ld |= on & s.ld[src];
+            hp |= mb & s.hp[src];
+            lp |= mb & s.lp[src];
+        }
+        (s.hd[0], s.ld[0], s.hp[0], s.lp[0]) = (hd, ld, hp, lp);
+        return;
+    }
     loop {
         let mut changed = false;
         for (i, d) in c.devs.iter().enumerate() {
