@@ -300,8 +300,10 @@ pub fn check_flat(
     }
     if std::env::var_os("CW_SWITCH_STATS").is_some() {
         eprintln!(
-            "solves {} cccs {} words {}",
+            "solves {} (gate {}, levels {}) cccs {} words {}",
             net.solves,
+            net.gate_solves,
+            net.level_solves,
             net.n_cccs(),
             report.vectors.div_ceil(64)
         );

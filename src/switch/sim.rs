@@ -125,24 +125,35 @@ fn reduce(mut edges: Vec<(u16, u16, Vec<Op>)>, from: u16, to: u16) -> Option<Vec
     }
 }
 
-fn run(prog: &[Op], masks: &[u64], stack: &mut Vec<u64>) -> u64 {
-    stack.clear();
+/// Most devices in one network of a gate solved by its functions (the program's stack depth
+/// is at most this).
+const GATE_MAX: usize = 24;
+
+/// Run a network's program: (lanes where it surely conducts, lanes where it may).
+fn conduct(prog: &[Op], devs: &[CDev], hi: &[u64], lo: &[u64]) -> (u64, u64) {
+    let mut stack = [(0u64, 0u64); GATE_MAX];
+    let mut top = 0;
     for op in prog {
         match *op {
-            Op::Dev(i) => stack.push(masks[i as usize]),
+            Op::Dev(i) => {
+                let d = &devs[i as usize];
+                let (h, l) = (hi[d.gate as usize], lo[d.gate as usize]);
+                stack[top] = if d.pmos { (l, !h) } else { (h, !l) };
+                top += 1;
+            }
             Op::And => {
-                let b = stack.pop().unwrap_or(0);
-                let a = stack.pop().unwrap_or(0);
-                stack.push(a & b);
+                top -= 1;
+                let (b, a) = (stack[top], stack[top - 1]);
+                stack[top - 1] = (a.0 & b.0, a.1 & b.1);
             }
             Op::Or => {
-                let b = stack.pop().unwrap_or(0);
-                let a = stack.pop().unwrap_or(0);
-                stack.push(a | b);
+                top -= 1;
+                let (b, a) = (stack[top], stack[top - 1]);
+                stack[top - 1] = (a.0 | b.0, a.1 | b.1);
             }
         }
     }
-    stack.pop().unwrap_or(0)
+    stack[0]
 }
 
 /// The complementary-gate form of a CCC, if it has one.
@@ -182,7 +193,7 @@ fn as_gate(c: &Ccc, vdd: u32, vss: u32) -> Option<Gate> {
         }
         list.push((d.a, d.b, vec![Op::Dev(i as u16)]));
     }
-    if up.is_empty() || down.is_empty() {
+    if up.is_empty() || down.is_empty() || up.len() > GATE_MAX || down.len() > GATE_MAX {
         return None;
     }
     Some(Gate {
@@ -207,22 +218,23 @@ pub struct Network {
     /// Dirty CCCs as a bit set over ranks; `low` is the lowest word that may hold one.
     dirty: Vec<u64>,
     low: usize,
-    /// CCC solves since the network was built.
+    /// CCC solves since the network was built: all, by a complementary gate's functions,
+    /// level by level (a fight).
     pub solves: u64,
+    pub gate_solves: u64,
+    pub level_solves: u64,
     scratch: Scratch,
 }
 
 #[derive(Default)]
 struct Scratch {
-    hd: Vec<u64>,
-    ld: Vec<u64>,
-    hp: Vec<u64>,
-    lp: Vec<u64>,
+    /// Per CCC term: reach masks [definite 1, definite 0, potential 1, potential 0].
+    r: Vec<[u64; 4]>,
     one: Vec<u64>,
     zero: Vec<u64>,
-    on: Vec<u64>,
-    maybe: Vec<u64>,
-    stack: Vec<u64>,
+    /// Per device: (lanes it surely conducts, lanes it may).
+    on: Vec<(u64, u64)>,
+    saved: Vec<[u64; 4]>,
 }
 
 /// A node that did not settle.
@@ -422,6 +434,8 @@ impl Network {
             dirty: vec![0; nc.div_ceil(64)],
             low: 0,
             solves: 0,
+            gate_solves: 0,
+            level_solves: 0,
             scratch: Scratch::default(),
         };
         for c in 0..nc as u32 {
@@ -486,42 +500,9 @@ impl Network {
     fn solve(&mut self, ci: usize) {
         self.solves += 1;
         let c = &self.cccs[ci];
-        let s = &mut self.scratch;
-        let nt = c.terms.len();
-        let nl = c.n_local;
-        for v in [&mut s.hd, &mut s.ld, &mut s.hp, &mut s.lp] {
-            v.clear();
-            v.resize(nt, 0);
-        }
-        s.one.clear();
-        s.one.resize(nl, 0);
-        s.zero.clear();
-        s.zero.resize(nl, 0);
-        for k in nl..nt {
-            let t = c.terms[k] as usize;
-            let (h, l) = (self.hi[t], self.lo[t]);
-            s.hd[k] = h;
-            s.ld[k] = l;
-            s.hp[k] = !l;
-            s.lp[k] = !h;
-        }
-        s.on.clear();
-        s.maybe.clear();
-        for d in &c.devs {
-            let (h, l) = (self.hi[d.gate as usize], self.lo[d.gate as usize]);
-            let (on, maybe) = if d.pmos { (l, !h) } else { (h, !l) };
-            s.on.push(on);
-            s.maybe.push(maybe);
-        }
         if let Some(g) = &c.gate {
-            let (pu_on, pu_mb) = (
-                run(&g.up, &s.on, &mut s.stack),
-                run(&g.up, &s.maybe, &mut s.stack),
-            );
-            let (pd_on, pd_mb) = (
-                run(&g.down, &s.on, &mut s.stack),
-                run(&g.down, &s.maybe, &mut s.stack),
-            );
+            let (pu_on, pu_mb) = conduct(&g.up, &c.devs, &self.hi, &self.lo);
+            let (pd_on, pd_mb) = conduct(&g.down, &c.devs, &self.hi, &self.lo);
             if pu_mb ^ pd_mb == !0 {
                 // Exactly one network may conduct in every lane: its value where it surely
                 // conducts; where it only may, the stored value if it is the same, else X.
@@ -529,37 +510,71 @@ impl Network {
                 let (oh, ol) = (self.hi[t], self.lo[t]);
                 let one = (pu_on | (pu_mb & oh)) & !pd_mb;
                 let zero = (pd_on | (pd_mb & ol)) & !pu_mb;
-                self.write(ci, g.out, one, zero);
+                self.gate_solves += 1;
+                let out = g.out;
+                self.write(ci, out, one, zero);
                 return;
             }
+        }
+        let s = &mut self.scratch;
+        let nt = c.terms.len();
+        let nl = c.n_local;
+        // Reach per term: [definite 1, definite 0, potential 1, potential 0].
+        s.r.clear();
+        s.r.resize(nt, [0; 4]);
+        for k in nl..nt {
+            let t = c.terms[k] as usize;
+            let (h, l) = (self.hi[t], self.lo[t]);
+            s.r[k] = [h, l, !l, !h];
+        }
+        s.one.clear();
+        s.one.resize(nl, 0);
+        s.zero.clear();
+        s.zero.resize(nl, 0);
+        s.on.clear();
+        for d in &c.devs {
+            let (h, l) = (self.hi[d.gate as usize], self.lo[d.gate as usize]);
+            s.on.push(if d.pmos { (l, !h) } else { (h, !l) });
         }
         // All devices at once: without a potential fight the levels change nothing.
         relax(c, s, 0);
         let mut fight = 0u64;
         for k in 0..nl {
-            fight |= s.hp[k] & s.lp[k];
+            fight |= s.r[k][2] & s.r[k][3];
         }
         if fight != 0 && c.levels.len() > 1 {
-            for v in [&mut s.hd, &mut s.ld, &mut s.hp, &mut s.lp] {
-                v[..nl].iter_mut().for_each(|x| *x = 0);
-            }
+            self.level_solves += 1;
+            // Level by level, strongest first; stop once every node a path reaches is decided
+            // in every lane, then put back the all-devices reach for the charge step.
+            s.saved.clear();
+            s.saved.extend_from_slice(&s.r[..nl]);
+            s.r[..nl].iter_mut().for_each(|x| *x = [0; 4]);
             for &lv in &c.levels {
                 relax(c, s, lv);
+                let mut open = 0u64;
                 for k in 0..nl {
-                    s.one[k] |= s.hd[k] & !s.lp[k];
-                    s.zero[k] |= s.ld[k] & !s.hp[k];
+                    let r = s.r[k];
+                    s.one[k] |= r[0] & !r[3];
+                    s.zero[k] |= r[1] & !r[2];
+                    let reached = s.saved[k][2] | s.saved[k][3];
+                    open |= reached & !(s.one[k] | s.zero[k]);
+                }
+                if open == 0 {
+                    break;
                 }
             }
+            s.r[..nl].copy_from_slice(&s.saved);
         } else {
             for k in 0..nl {
-                s.one[k] = s.hd[k] & !s.lp[k];
-                s.zero[k] = s.ld[k] & !s.hp[k];
+                let r = s.r[k];
+                s.one[k] = r[0] & !r[3];
+                s.zero[k] = r[1] & !r[2];
             }
         }
         // Stored charge, for nodes no transistor path reaches in some lane ("loose").
         let mut loose = 0u64;
         for k in 0..nl {
-            loose |= !(s.hp[k] | s.lp[k]);
+            loose |= !(s.r[k][2] | s.r[k][3]);
         }
         if loose != 0 {
             // A loose node can only touch other loose nodes. Where no device joins two of
@@ -568,13 +583,14 @@ impl Network {
             for (i, d) in c.devs.iter().enumerate() {
                 let (a, b) = (d.a as usize, d.b as usize);
                 if a < nl && b < nl {
-                    shared |= s.maybe[i] & !(s.hp[a] | s.lp[a]) & !(s.hp[b] | s.lp[b]);
+                    let (ra, rb) = (s.r[a], s.r[b]);
+                    shared |= s.on[i].1 & !(ra[2] | ra[3]) & !(rb[2] | rb[3]);
                 }
             }
             if shared == 0 {
                 for k in 0..nl {
                     let t = c.terms[k] as usize;
-                    let l = !(s.hp[k] | s.lp[k]);
+                    let l = !(s.r[k][2] | s.r[k][3]);
                     s.one[k] |= self.hi[t] & l;
                     s.zero[k] |= self.lo[t] & l;
                 }
@@ -584,16 +600,15 @@ impl Network {
                         if c.size[k] >= size {
                             let t = c.terms[k] as usize;
                             let (h, l) = (self.hi[t], self.lo[t]);
-                            s.hd[k] |= h;
-                            s.ld[k] |= l;
-                            s.hp[k] |= !l;
-                            s.lp[k] |= !h;
+                            let r = &mut s.r[k];
+                            *r = [r[0] | h, r[1] | l, r[2] | !l, r[3] | !h];
                         }
                     }
                     relax(c, s, 0);
                     for k in 0..nl {
-                        s.one[k] |= s.hd[k] & !s.lp[k];
-                        s.zero[k] |= s.ld[k] & !s.hp[k];
+                        let r = s.r[k];
+                        s.one[k] |= r[0] & !r[3];
+                        s.zero[k] |= r[1] & !r[2];
                     }
                 }
             }
@@ -629,62 +644,43 @@ impl Network {
 /// Spread reach through every device of level ≥ `min` until nothing changes.
 fn relax(c: &Ccc, s: &mut Scratch, min: u8) {
     let nl = c.n_local;
+    let r = &mut s.r;
+    let spread =
+        |from: [u64; 4], on: u64, mb: u64| [on & from[0], on & from[1], mb & from[2], mb & from[3]];
+    let or = |x: [u64; 4], y: [u64; 4]| [x[0] | y[0], x[1] | y[1], x[2] | y[2], x[3] | y[3]];
     if nl == 1 {
         // One node, every device joining it to a source: a single pass is exact.
-        let (mut hd, mut ld, mut hp, mut lp) = (s.hd[0], s.ld[0], s.hp[0], s.lp[0]);
-        for (i, d) in c.devs.iter().enumerate() {
+        let mut acc = r[0];
+        for (d, &(on, mb)) in c.devs.iter().zip(&s.on) {
             if d.level < min {
                 continue;
             }
-            let (on, mb) = (s.on[i], s.maybe[i]);
             let src = if d.a == 0 { d.b } else { d.a } as usize;
-            hd |= on & s.hd[src];
-            ld |= on & s.ld[src];
-            hp |= mb & s.hp[src];
-            lp |= mb & s.lp[src];
+            acc = or(acc, spread(r[src], on, mb));
         }
-        (s.hd[0], s.ld[0], s.hp[0], s.lp[0]) = (hd, ld, hp, lp);
+        r[0] = acc;
         return;
     }
     loop {
         let mut changed = false;
-        for (i, d) in c.devs.iter().enumerate() {
-            if d.level < min {
-                continue;
-            }
-            let (on, mb) = (s.on[i], s.maybe[i]);
-            if mb == 0 {
+        for (d, &(on, mb)) in c.devs.iter().zip(&s.on) {
+            if d.level < min || mb == 0 {
                 continue;
             }
             let (a, b) = (d.a as usize, d.b as usize);
+            let (ra, rb) = (r[a], r[b]);
             if b < nl {
-                let (hd, ld, hp, lp) = (
-                    s.hd[b] | (on & s.hd[a]),
-                    s.ld[b] | (on & s.ld[a]),
-                    s.hp[b] | (mb & s.hp[a]),
-                    s.lp[b] | (mb & s.lp[a]),
-                );
-                if (hd, ld, hp, lp) != (s.hd[b], s.ld[b], s.hp[b], s.lp[b]) {
+                let nb = or(rb, spread(ra, on, mb));
+                if nb != rb {
+                    r[b] = nb;
                     changed = true;
-                    s.hd[b] = hd;
-                    s.ld[b] = ld;
-                    s.hp[b] = hp;
-                    s.lp[b] = lp;
                 }
             }
             if a < nl {
-                let (hd, ld, hp, lp) = (
-                    s.hd[a] | (on & s.hd[b]),
-                    s.ld[a] | (on & s.ld[b]),
-                    s.hp[a] | (mb & s.hp[b]),
-                    s.lp[a] | (mb & s.lp[b]),
-                );
-                if (hd, ld, hp, lp) != (s.hd[a], s.ld[a], s.hp[a], s.lp[a]) {
+                let na = or(ra, spread(r[b], on, mb));
+                if na != ra {
+                    r[a] = na;
                     changed = true;
-                    s.hd[a] = hd;
-                    s.ld[a] = ld;
-                    s.hp[a] = hp;
-                    s.lp[a] = lp;
                 }
             }
         }
