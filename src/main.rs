@@ -16,6 +16,8 @@ use std::process::ExitCode;
 const RANDOM_MAX: u64 = 100_000_000;
 /// `check` runs the switch-level simulator exhaustively up to this width (2^21 vectors).
 const SWITCH_EXHAUSTIVE_MAX: usize = 10;
+/// `verify` reads netlists up to this size (a 128-bit prefix adder is about 1 MiB).
+const NETLIST_MAX_BYTES: u64 = 64 << 20;
 
 /// Generate verified adder netlists (structural Verilog and transistor-level SPICE, each
 /// with a testbench) from a short YAML spec.
@@ -85,6 +87,31 @@ enum Command {
         #[arg(long, default_value_t = sim::RANDOM_MIN as u64, value_name = "N", value_parser = parse_random)]
         random: u64,
         /// Print one JSON object instead of the table.
+        #[arg(long)]
+        json: bool,
+        /// Folder holding the GF180MCU ngspice models (else $CARRYWRIGHT_MODEL_DIR).
+        #[arg(long, value_name = "DIR")]
+        model_dir: Option<PathBuf>,
+    },
+    /// Check a transistor netlist edited by hand against the spec it came from: the
+    /// switch-level functional check, a structural comparison with the generated netlist
+    /// (devices matched by connectivity; removed, added, rewired devices and every W or L that
+    /// differs) and the sizing rules (w_min, l_min, keeper ratio) on the edited sizes. Exit 0
+    /// when it adds correctly, 1 when it does not or breaks a rule (or differs in structure
+    /// with --strict), 2 on a file it cannot read.
+    Verify {
+        /// The edited netlist (NAME.sp as written by generate, then edited).
+        netlist: PathBuf,
+        /// The adder spec the netlist was generated from.
+        #[arg(long, value_name = "SPEC")]
+        spec: PathBuf,
+        /// Structural differences are failures (exit 1), not only reported.
+        #[arg(long)]
+        strict: bool,
+        /// Random vectors above 10 bits (100000 to 100000000).
+        #[arg(long, default_value_t = sim::RANDOM_MIN as u64, value_name = "N", value_parser = parse_random)]
+        random: u64,
+        /// Print one JSON object instead of the report.
         #[arg(long)]
         json: bool,
         /// Folder holding the GF180MCU ngspice models (else $CARRYWRIGHT_MODEL_DIR).
@@ -425,6 +452,47 @@ fn run(cli: Cli) -> Result<ExitCode> {
             } else {
                 ExitCode::SUCCESS
             })
+        }
+        Command::Verify {
+            netlist,
+            spec,
+            strict,
+            random,
+            json,
+            model_dir,
+        } => {
+            let s = load_spec(&spec, &LoadOptions { model_dir })?;
+            let design = carrywright::build(&s)?;
+            let label = shown_path(&netlist);
+            let text = spec::read_source_capped(&netlist, "netlist", NETLIST_MAX_BYTES)?;
+            let reference = emit::spice::subcircuits(&s, &design)?;
+            let random = usize::try_from(random)
+                .map_err(|_| Error::Input(format!("--random: {random} is too many here")))?;
+            let opts = carrywright::switch::verify::Options {
+                strict,
+                random,
+                exhaustive_max: SWITCH_EXHAUSTIVE_MAX,
+            };
+            let v =
+                carrywright::switch::verify::verify(&text, &label, &s, &design, &reference, &opts)?;
+            if json {
+                out.line(serde_json::to_string_pretty(&v).expect("serialisable"));
+            } else {
+                for l in v.render().lines() {
+                    out.line(l);
+                }
+            }
+            if cli.quiet && v.exit_code != 0 {
+                let why = match &v.switch_level.first_failure {
+                    Some(f) => format!("does not add: {}", f.message),
+                    None => match v.broken_rules.first() {
+                        Some(b) => format!("{}: {}", b.rule, b.message),
+                        None => "differs in structure from the generated netlist (--strict)".into(),
+                    },
+                };
+                say_error(&format!("{label}: {why}"));
+            }
+            Ok(ExitCode::from(v.exit_code as u8))
         }
         Command::Simulate {
             spec,

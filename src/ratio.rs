@@ -66,6 +66,14 @@ impl Kept {
 /// The weakest pull-down path at every node a keeper holds, in the order of the flattened
 /// devices.
 pub fn survey(design: &Design, flat: &Flat) -> Vec<Kept> {
+    survey_sized(design, flat, &|_| None)
+}
+
+/// [`survey`] with per-device sizes: `size(NAME)` for a device's flattened name
+/// (`PATH.DEVICE`, as in the SPICE view) gives its W/L instead of the cell's, `Some(0.0)` for
+/// a device that is not there (it conducts nothing; a missing keeper is not surveyed).
+/// `verify` uses it on the sizes of a hand-edited netlist.
+pub fn survey_sized(design: &Design, flat: &Flat, size: &dyn Fn(&str) -> Option<f64>) -> Vec<Kept> {
     let has_keeper = |k: &crate::cells::CellKind| {
         design.cells[k]
             .devices
@@ -98,19 +106,22 @@ pub fn survey(design: &Design, flat: &Flat) -> Vec<Kept> {
                 gate_pin,
                 mos: d.mos,
                 role: d.role,
-                strength: d.strength(),
+                strength: size(&format!("{}.{}", leaf.path, d.name)).unwrap_or(d.strength()),
             });
         }
     }
     let mut adj: Vec<Vec<usize>> = vec![vec![]; names.len()];
     for (i, d) in devs.iter().enumerate() {
-        if d.mos == Mos::N {
+        if d.mos == Mos::N && d.strength > 0.0 {
             adj[d.d as usize].push(i);
             adj[d.s as usize].push(i);
         }
     }
     let mut out = vec![];
-    for keeper in devs.iter().filter(|d| d.role == Role::Keeper) {
+    for keeper in devs
+        .iter()
+        .filter(|d| d.role == Role::Keeper && d.strength > 0.0)
+    {
         let mut search = Search {
             design,
             flat,

@@ -928,6 +928,11 @@ pub fn load(path: &Path, opts: &LoadOptions) -> Result<Spec> {
 /// most [`MAX_SOURCE_BYTES`], UTF-8 text. A FIFO, a device or a folder is refused without
 /// being read.
 pub fn read_source(path: &Path, what: &str) -> Result<String> {
+    read_source_capped(path, what, MAX_SOURCE_BYTES)
+}
+
+/// [`read_source`] with another size cap (a netlist is larger than a spec).
+pub fn read_source_capped(path: &Path, what: &str, cap: u64) -> Result<String> {
     let label = shown_path(path);
     let cannot = |e: std::io::Error| Error::Input(format!("{label}: cannot read the {what}: {e}"));
     let meta = std::fs::metadata(path).map_err(cannot)?;
@@ -936,37 +941,37 @@ pub fn read_source(path: &Path, what: &str) -> Result<String> {
             "{label}: the {what} is not a regular file"
         )));
     }
-    if meta.len() > MAX_SOURCE_BYTES {
-        return Err(too_large(&label, what));
+    if meta.len() > cap {
+        return Err(too_large(&label, what, cap));
     }
     let file = std::fs::File::open(path).map_err(cannot)?;
-    read_capped(file, &label, what)
+    read_capped(file, &label, what, cap)
 }
 
 /// Read a spec from standard input, with the same size cap (label `<stdin>`).
 pub fn read_stdin(what: &str) -> Result<String> {
-    read_capped(std::io::stdin().lock(), STDIN_LABEL, what)
+    read_capped(std::io::stdin().lock(), STDIN_LABEL, what, MAX_SOURCE_BYTES)
 }
 
 /// How standard input is named in messages.
 pub const STDIN_LABEL: &str = "<stdin>";
 
-fn too_large(label: &str, what: &str) -> Error {
+fn too_large(label: &str, what: &str, cap: u64) -> Error {
     Error::Input(format!(
         "{label}: the {what} is larger than {} KiB",
-        MAX_SOURCE_BYTES / 1024
+        cap / 1024
     ))
 }
 
-fn read_capped(reader: impl std::io::Read, label: &str, what: &str) -> Result<String> {
+fn read_capped(reader: impl std::io::Read, label: &str, what: &str, cap: u64) -> Result<String> {
     use std::io::Read;
     let mut bytes = Vec::new();
     reader
-        .take(MAX_SOURCE_BYTES + 1)
+        .take(cap + 1)
         .read_to_end(&mut bytes)
         .map_err(|e| Error::Input(format!("{label}: cannot read the {what}: {e}")))?;
-    if bytes.len() as u64 > MAX_SOURCE_BYTES {
-        return Err(too_large(label, what));
+    if bytes.len() as u64 > cap {
+        return Err(too_large(label, what, cap));
     }
     String::from_utf8(bytes).map_err(|e| {
         Error::Input(format!(

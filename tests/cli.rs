@@ -1587,3 +1587,155 @@ fn describe_reports_the_keeper_check() {
     let run = st.run(&["describe", "spec.yaml"]);
     assert!(!run.stdout.contains("keeper check"), "{}", run.describe());
 }
+
+// ---------------------------------------------------------------- verify
+
+/// A sandbox holding spec.yaml (BASE) and its generated views in `out`.
+fn generated() -> (Sandbox, String) {
+    let sb = Sandbox::with_spec(BASE);
+    let run = sb.run(&["generate", "spec.yaml", "-o", "out"]);
+    assert_eq!(run.code, Some(0), "{}", run.describe());
+    let sp = String::from_utf8(sb.read("out/t8.sp")).unwrap();
+    (sb, sp)
+}
+
+/// The lines of subcircuit `sub` in `text` mapped by `f` (None drops a line).
+fn map_subckt(text: &str, sub: &str, f: impl Fn(&str) -> Option<String>) -> String {
+    let mut inside = false;
+    let mut out = vec![];
+    for l in text.lines() {
+        if l.starts_with(".subckt ") {
+            inside = l.split_whitespace().nth(1) == Some(sub);
+        }
+        let keep = if inside && !l.starts_with('.') && !l.starts_with('*') && !l.is_empty() {
+            f(l)
+        } else {
+            Some(l.to_string())
+        };
+        out.extend(keep);
+        if l.starts_with(".ends") {
+            inside = false;
+        }
+    }
+    out.join("\n") + "\n"
+}
+
+#[test]
+fn verify_accepts_the_generated_netlist_renamed_and_reordered() {
+    let (sb, sp) = generated();
+    let run = sb.run(&["verify", "out/t8.sp", "--spec", "spec.yaml", "--strict"]);
+    assert_eq!(run.code, Some(0), "{}", run.describe());
+    assert!(run.stdout.contains("adds correctly"), "{}", run.describe());
+    // Instances of the block renamed and its lines reversed: still the same structure.
+    let mut lines: Vec<String> = vec![];
+    let mut block: Vec<String> = vec![];
+    let mut inside = false;
+    for l in sp.lines() {
+        if l.starts_with(".subckt t8_blk4_i ") {
+            inside = true;
+            lines.push(l.to_string());
+            continue;
+        }
+        if inside && l.starts_with(".ends") {
+            block.reverse();
+            lines.append(&mut block);
+            inside = false;
+        }
+        if inside {
+            block.push(l.replacen('x', "xr_", 1));
+        } else {
+            lines.push(l.to_string());
+        }
+    }
+    sb.write("renamed.sp", &(lines.join("\n") + "\n"));
+    let run = sb.run(&["verify", "renamed.sp", "--spec", "spec.yaml", "--strict"]);
+    assert_eq!(run.code, Some(0), "{}", run.describe());
+    assert!(run.stdout.contains("same"), "{}", run.describe());
+}
+
+#[test]
+fn verify_reports_a_removed_device_and_fails() {
+    let (sb, sp) = generated();
+    let edited = map_subckt(&sp, "t8_sum_i", |l| {
+        (!l.starts_with("mn_s ")).then(|| l.into())
+    });
+    sb.write("edited.sp", &edited);
+    let run = sb.run(&["verify", "edited.sp", "--spec", "spec.yaml"]);
+    assert_eq!(run.code, Some(1), "{}", run.describe());
+    assert!(run.stdout.contains("FAILED"), "{}", run.describe());
+    // One removed device per instance of the sum cell, each named.
+    assert_eq!(
+        run.stdout.matches("removed: ").count(),
+        8,
+        "{}",
+        run.describe()
+    );
+    assert!(
+        run.stdout
+            .contains("removed: xblk0.xsum0.mn_s (nmos w=1 l=0.35"),
+        "{}",
+        run.describe()
+    );
+}
+
+#[test]
+fn verify_reports_an_added_device_and_fails_only_when_strict() {
+    let (sb, sp) = generated();
+    // A second inverter pull-down in parallel: the netlist still adds.
+    let edited = map_subckt(&sp, "t8_inv", |l| {
+        Some(match l.starts_with("mn_y ") {
+            true => format!("{l}\nmn_y2{}", &l[4..]),
+            false => l.to_string(),
+        })
+    });
+    sb.write("edited.sp", &edited);
+    let run = sb.run(&["verify", "edited.sp", "--spec", "spec.yaml"]);
+    assert_eq!(run.code, Some(0), "{}", run.describe());
+    assert!(
+        run.stdout.contains("added: ") && run.stdout.contains("mn_y2"),
+        "{}",
+        run.describe()
+    );
+    let run = sb.run(&["verify", "edited.sp", "--spec", "spec.yaml", "--strict"]);
+    assert_eq!(run.code, Some(1), "{}", run.describe());
+    assert!(run.stdout.contains("--strict"), "{}", run.describe());
+}
+
+#[test]
+fn verify_json_carries_every_part() {
+    let (sb, sp) = generated();
+    let edited = map_subckt(&sp, "t8_mcc_i", |l| {
+        Some(l.replace(
+            "mn_p ci p co vss cw_nch w=1u",
+            "mn_p ci p co vss cw_nch w=3u",
+        ))
+    });
+    sb.write("edited.sp", &edited);
+    let run = sb.run(&["verify", "edited.sp", "--spec", "spec.yaml", "--json"]);
+    assert_eq!(run.code, Some(0), "{}", run.describe());
+    let v: serde_json::Value = serde_json::from_str(&run.stdout).unwrap();
+    assert_eq!(v["exit_code"], 0);
+    assert_eq!(v["switch_level"]["passed"], true);
+    assert_eq!(v["switch_level"]["vectors"], 1u64 << 17);
+    assert_eq!(v["structure"]["isomorphic"], true);
+    let sizes = v["sizes"].as_array().unwrap();
+    assert_eq!(sizes.len(), 8, "one row per instance of the chain cell");
+    assert_eq!(sizes[0]["w_reference"], 1.0);
+    assert_eq!(sizes[0]["w"], 3.0);
+}
+
+#[test]
+fn verify_refuses_files_it_cannot_read_with_exit_2() {
+    let (sb, sp) = generated();
+    let run = sb.run(&["verify", "missing.sp", "--spec", "spec.yaml"]);
+    let e = one_error_line(&run);
+    assert!(e.contains("missing.sp") && e.contains("cannot read"), "{e}");
+    sb.write("stray.sp", &format!("{sp}hello world\n"));
+    let run = sb.run(&["verify", "stray.sp", "--spec", "spec.yaml"]);
+    let e = one_error_line(&run);
+    assert!(e.starts_with("error: stray.sp:"), "{e}");
+    sb.write("other.sp", &sp.replace("t8", "u8"));
+    let run = sb.run(&["verify", "other.sp", "--spec", "spec.yaml"]);
+    let e = one_error_line(&run);
+    assert!(e.contains("no subcircuit named t8"), "{e}");
+}

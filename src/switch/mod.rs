@@ -9,10 +9,10 @@
 //! s = a ⊕ b, as the logic check does), and each lane carries its charge from one vector to
 //! the next, so a node that is not precharged shows up as a stale or X value.
 
-// pub mod compare;
+pub mod compare;
 pub mod parse;
 pub mod sim;
-// pub mod verify;
+pub mod verify;
 
 use crate::emit::vectors::Vector;
 use crate::error::{Error, Result};
