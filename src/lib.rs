@@ -223,34 +223,56 @@ pub fn generate(spec: &Spec) -> Result<Generated> {
         return Err(Error::Input(why.clone()));
     }
     let (design, keepers) = build_checked(spec)?;
-    let check = sim::check_or_fail(
-        &design,
-        spec.testbench.seed,
-        GENERATE_RANDOM,
-        GENERATE_EXHAUSTIVE_MAX,
-    )?;
-    let counts = emit::summary::counts(&design);
-    // The timing engine's estimate, where the technology is characterised at these conditions.
-    // An estimate that fails (an engine fault, never bad input) does not stop the views: it
-    // is reported in NAME.json and by `generate`, and the deck falls back to the bound rule.
-    let timing = match spec.technology.timing {
-        Some(_) => timing::search::estimate(spec, &design)
-            .map_err(|e| format!("the timing estimate failed: {e}")),
-        None => Err(timing::engine::no_timing(spec)),
-    };
-    // The SPICE view is parsed back and simulated as switches over the same vectors before
-    // anything is written.
-    let switch_report = std::cell::RefCell::new(None);
-    let switch_check = |text: &str| {
-        let r = switch::check_or_fail(
+    // The three checks are independent and run side by side (rayon::join: inside a sweep they
+    // share its thread pool): the logic check, the timing estimate, and the switch-level
+    // check of the SPICE text (a pure function of spec and design, compared byte for byte
+    // with the text `render_all` is about to write, so what was checked is exactly the file).
+    let netlist = emit::spice::subcircuits(spec, &design)?;
+    let label = format!("{}.sp", spec.name);
+    let run_switch = |text: &str| {
+        switch::check_or_fail(
             text,
-            &format!("{}.sp", spec.name),
+            &label,
             &design,
             &spec.technology,
             spec.testbench.seed,
             GENERATE_RANDOM,
             GENERATE_EXHAUSTIVE_MAX,
-        )?;
+        )
+    };
+    let ((check, timing), switched) = rayon::join(
+        || {
+            rayon::join(
+                || {
+                    sim::check_or_fail(
+                        &design,
+                        spec.testbench.seed,
+                        GENERATE_RANDOM,
+                        GENERATE_EXHAUSTIVE_MAX,
+                    )
+                },
+                // The timing engine's estimate, where the technology is characterised at
+                // these conditions. An estimate that fails (an engine fault, never bad
+                // input) does not stop the views: it is reported in NAME.json and by
+                // `generate`, and the deck falls back to the bound rule.
+                || match spec.technology.timing {
+                    Some(_) => timing::search::estimate(spec, &design)
+                        .map_err(|e| format!("the timing estimate failed: {e}")),
+                    None => Err(timing::engine::no_timing(spec)),
+                },
+            )
+        },
+        || run_switch(&netlist),
+    );
+    let check = check?;
+    let counts = emit::summary::counts(&design);
+    let switch_report = std::cell::RefCell::new(None);
+    let switch_check = |text: &str| {
+        let r = if text == netlist {
+            switched.clone()?
+        } else {
+            run_switch(text)?
+        };
         *switch_report.borrow_mut() = Some(r.clone());
         Ok(r)
     };

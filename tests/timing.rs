@@ -518,3 +518,59 @@ fn pruned_search_finds_the_full_search_worst() {
     eprintln!("pairs timed: pruned {pruned_total}, full {full_total}");
     assert!(pruned_total < full_total, "pruning skipped nothing");
 }
+
+/// Stages of one class (a bit slice repeated along the adder) share their solves; that must
+/// change nothing: every architecture and style, the worst pair's arrival to the bit, its
+/// path and the delay to every output equal the search with sharing off. (A check of the
+/// engine against itself: the sharing is an optimisation, not a model.)
+#[test]
+fn shared_stage_solves_change_nothing() {
+    for a in spec::ARCHITECTURES {
+        let arch = a.as_str();
+        for style in ["static", "dynamic"] {
+            if style == "dynamic" && !a.has_dynamic() {
+                continue;
+            }
+            let buffers = if arch == "manchester" {
+                "{every: 8}"
+            } else {
+                "none"
+            };
+            let y = yaml("p", arch, style, 32, 4, buffers);
+            let s = spec_of(&y);
+            let d = carrywright::build(&s).unwrap();
+            let mut g = Graph::new(&s, &d, &timing(&s)).unwrap();
+            let classes: std::collections::HashSet<u32> = g
+                .class_of
+                .iter()
+                .copied()
+                .filter(|&c| c != u32::MAX)
+                .collect();
+            assert!(
+                classes.len() < g.stages.len(),
+                "{arch} {style}: no stage shares a class"
+            );
+            g.share_classes = false;
+            let alone = search::search(&g, small()).unwrap();
+            g.share_classes = true;
+            let shared = search::search(&g, small()).unwrap();
+            assert_eq!(alone.ps.to_bits(), shared.ps.to_bits(), "{arch} {style}");
+            assert_eq!(alone.pair, shared.pair, "{arch} {style}");
+            assert_eq!(
+                format!("{:?}", alone.path),
+                format!("{:?}", shared.path),
+                "{arch} {style}"
+            );
+            assert_eq!(
+                format!("{:?}", alone.profile),
+                format!("{:?}", shared.profile),
+                "{arch} {style}"
+            );
+            assert_eq!(
+                alone.switched_ff.to_bits(),
+                shared.switched_ff.to_bits(),
+                "{arch} {style}"
+            );
+        }
+    }
+}

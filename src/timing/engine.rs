@@ -131,6 +131,10 @@ pub fn slope_share(tm: &Timing) -> f64 {
     ((tm.fo4_ps - step) / per_k).clamp(0.0, 2.0)
 }
 
+/// Solves a stage class stores for sharing before it must show use: from then on it keeps
+/// storing only while at least one stored solve in four has been used again.
+const CLASS_TRIAL: u32 = 64;
+
 /// Largest slow-down a fight may cause (a node that barely wins is reported this much slower
 /// than without the opposing path).
 pub const FIGHT_MAX: f64 = 5.0;
@@ -208,6 +212,15 @@ pub struct Graph {
     /// The other way round: for every node, the (stage, bit) places it holds in those keys,
     /// so a simulation keeps every stage's key up to date as nodes change.
     pub key_refs: Vec<Vec<(u32, u8)>>,
+    /// Per stage, its class: stages with the same devices, sizes, node capacitances and
+    /// wiring in local terms (a bit slice repeated along the adder) solve alike for the same
+    /// key, so a timer shares their solves ([`stage_classes`]). NONE: not cached.
+    pub class_of: Vec<u32>,
+    /// Position of every device in its stage's `devs` (NONE: in no stage).
+    pub dev_pos: Vec<u32>,
+    /// Share solves between the stages of a class (on; off only to test that sharing changes
+    /// nothing).
+    pub share_classes: bool,
     /// The length every resistance was characterised at (the technology's minimum), µm: a
     /// longer device (a keeper) is proportionally weaker.
     pub l_min: f64,
@@ -408,7 +421,13 @@ impl Graph {
                 key_refs[x as usize].push((st as u32, i as u8));
             }
         }
+        let (class_of, dev_pos) = stage_classes(
+            &stages, &key_nodes, &devs, &kind, &cap_ff, &adj, &stage_of, &local,
+        );
         Ok(Graph {
+            class_of,
+            dev_pos,
+            share_classes: true,
             names,
             cap_ff,
             kind,
@@ -542,6 +561,96 @@ impl Graph {
     pub fn n_nodes(&self) -> usize {
         self.names.len()
     }
+}
+
+/// The class of every stage (see [`Graph::class_of`]) and every device's position in its
+/// stage. A stage's signature lists, in local terms, everything [`Graph::solve`] reads: each
+/// node's capacitance; each device's type, role, size, transmission-gate partner and
+/// terminals; each node's channel adjacency in order; and the key layout. A terminal is a
+/// node of the stage (its local index), a rail, or a key position (a top input or another
+/// stage's node, by where it sits in the stage's key); so two stages of one signature, given
+/// the same key, solve to the same values on corresponding nodes and devices.
+#[allow(clippy::too_many_arguments)]
+fn stage_classes(
+    stages: &[Stage],
+    key_nodes: &[Option<Vec<u32>>],
+    devs: &[Dev],
+    kind: &[NodeKind],
+    cap_ff: &[f64],
+    adj: &[Vec<(u32, u32)>],
+    stage_of: &[u32],
+    local: &[u32],
+) -> (Vec<u32>, Vec<u32>) {
+    let mut dev_pos = vec![NONE; devs.len()];
+    for st in stages {
+        for (i, &di) in st.devs.iter().enumerate() {
+            dev_pos[di as usize] = i as u32;
+        }
+    }
+    let mut classes: HashMap<Vec<u64>, u32> = HashMap::new();
+    let mut class_of = vec![NONE; stages.len()];
+    let mut sig: Vec<u64> = vec![];
+    for (si, st) in stages.iter().enumerate() {
+        let Some(keys) = &key_nodes[si] else { continue };
+        let key_pos = |x: u32| keys.binary_search(&x).map(|i| i as u64).unwrap_or(u64::MAX);
+        let enc = |x: u32| -> u64 {
+            if stage_of[x as usize] == si as u32 {
+                local[x as usize] as u64
+            } else {
+                match kind[x as usize] {
+                    NodeKind::Vss => 1 << 40,
+                    NodeKind::Vdd => 2 << 40,
+                    NodeKind::Input(_) => (3 << 40) | key_pos(x),
+                    NodeKind::Inner => (4 << 40) | key_pos(x),
+                }
+            }
+        };
+        sig.clear();
+        sig.extend([
+            st.nodes.len() as u64,
+            st.devs.len() as u64,
+            keys.len() as u64,
+        ]);
+        for &x in &st.nodes {
+            sig.push(cap_ff[x as usize].to_bits());
+        }
+        for &di in &st.devs {
+            let d = &devs[di as usize];
+            sig.extend([
+                d.mos as u64 | (d.role as u64) << 8,
+                d.w.to_bits(),
+                d.l.to_bits(),
+                enc(d.g),
+                enc(d.a),
+                enc(d.b),
+            ]);
+            if d.partner == NONE {
+                sig.push(u64::MAX);
+            } else {
+                let p = &devs[d.partner as usize];
+                let pos = dev_pos[d.partner as usize];
+                let same =
+                    stage_of[p.a as usize] == si as u32 || stage_of[p.b as usize] == si as u32;
+                sig.extend([
+                    if same { pos as u64 } else { u64::MAX - 1 },
+                    p.w.to_bits(),
+                    enc(p.g),
+                ]);
+            }
+        }
+        for &x in &st.nodes {
+            sig.push(adj[x as usize].len() as u64);
+            for &(di, y) in &adj[x as usize] {
+                sig.extend([dev_pos[di as usize] as u64, enc(y)]);
+            }
+        }
+        for &x in keys {
+            sig.push(enc(x));
+        }
+        let n = classes.len() as u32;
+        class_of[si] = *classes.entry(sig.clone()).or_insert(n);
+    }
+    (class_of, dev_pos)
 }
 
 /// Make `v` hold `m` copies of `x`, reusing its memory.
@@ -1026,6 +1135,14 @@ pub struct Sim<'g> {
     /// Solves already done: (stage, key) -> range in `solved` (see `Graph::key_nodes`).
     cache: HashMap<(u32, u128), (u32, u32), BuildKeyHasher>,
     solved: Vec<Driven>,
+    /// Solves shared by a stage class: (class, key) -> range in `canon`, whose entries hold
+    /// local node indices and device positions in the stage.
+    class_cache: HashMap<(u32, u128), (u32, u32), BuildKeyHasher>,
+    canon: Vec<Driven>,
+    /// Per class: solves stored for sharing, and shared solves used. A class whose stored
+    /// solves are seldom used again (a long chain segment, whose keys rarely repeat in another
+    /// segment) stops storing them: [`CLASS_TRIAL`].
+    class_use: Vec<(u32, u32)>,
     /// A solve of a stage too large to cache, at the end of `solved` until the next one.
     uncached_from: usize,
     /// Every stage's key: the values of its key nodes, bit i for `key_nodes[st][i]`, kept
@@ -1082,11 +1199,40 @@ impl<'g> Sim<'g> {
                 return (a as usize, (a + n) as usize);
             }
         }
-        let mut sc = std::mem::take(&mut self.sc);
-        g.solve(st, &self.val, &mut sc);
         let a = self.solved.len();
-        self.solved.extend_from_slice(&sc.out);
-        self.sc = sc;
+        let class = (key.is_some() && g.share_classes).then(|| g.class_of[st as usize]);
+        let shared = class.and_then(|c| self.class_cache.get(&(c, key.unwrap())).copied());
+        let stage = &g.stages[st as usize];
+        if let Some((ca, cn)) = shared {
+            self.class_use[class.unwrap() as usize].1 += 1;
+            for i in ca..ca + cn {
+                let d = self.canon[i as usize];
+                self.solved.push(Driven {
+                    node: stage.nodes[d.node as usize],
+                    dev: stage.devs[d.dev as usize],
+                    ..d
+                });
+            }
+        } else {
+            let mut sc = std::mem::take(&mut self.sc);
+            g.solve(st, &self.val, &mut sc);
+            self.solved.extend_from_slice(&sc.out);
+            let worth = |u: (u32, u32)| u.0 < CLASS_TRIAL || u.1 * 4 >= u.0;
+            if let Some(c) = class.filter(|&c| worth(self.class_use[c as usize])) {
+                self.class_use[c as usize].0 += 1;
+                let ca = self.canon.len() as u32;
+                for d in &sc.out {
+                    self.canon.push(Driven {
+                        node: g.local[d.node as usize],
+                        dev: g.dev_pos[d.dev as usize],
+                        ..*d
+                    });
+                }
+                self.class_cache
+                    .insert((c, key.unwrap()), (ca, sc.out.len() as u32));
+            }
+            self.sc = sc;
+        }
         let b = self.solved.len();
         if let Some(key) = key {
             self.cache.insert((st, key), (a as u32, (b - a) as u32));
@@ -1118,6 +1264,16 @@ impl<'g> Sim<'g> {
             heap: BinaryHeap::new(),
             cache: HashMap::with_hasher(BuildKeyHasher),
             solved: vec![],
+            class_cache: HashMap::with_hasher(BuildKeyHasher),
+            canon: vec![],
+            class_use: vec![
+                (0, 0);
+                g.class_of
+                    .iter()
+                    .filter(|&&c| c != NONE)
+                    .max()
+                    .map_or(0, |&c| c as usize + 1)
+            ],
             uncached_from: 0,
             keys: vec![0; g.stages.len()],
             touched: vec![],

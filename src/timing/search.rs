@@ -346,8 +346,11 @@ fn hard_set(width: usize) -> Vec<Hard> {
 /// share, is still below the worst arrival found so far. The reach is a bound of the same
 /// stage delays that ignores sensitisation, but the timed solve can exceed it a little
 /// (stacked devices, fights, slower slopes), hence the slack; `tests/timing.rs` checks the
-/// pruned search against the full one over every architecture and style.
-pub const PRUNE_SLACK: f64 = 0.1;
+/// pruned search against the full one over every architecture and style. Measured over the 11
+/// architectures and both styles at 16, 32 and 64 bits on generic, GF180MCU and SKY130 (40 fF):
+/// with no slack at all the pruned search found the full search's worst in every design; 0.02
+/// keeps a margin and times 26 % fewer pairs than 0.1 did on generic (15,451 against 20,803).
+pub const PRUNE_SLACK: f64 = 0.02;
 
 fn random_in(rng: &mut Rng, width: usize) -> In {
     let m = mask(width);
