@@ -193,3 +193,34 @@ fn corner_order_holds_in_ngspice() {
         );
     }
 }
+
+/// A transient that does not converge: ngspice's own message (from memory of ngspice 39:
+/// "doAnalyses: TRAN:  Timestep too small; ... trouble with node ...", then "run simulation(s)
+/// aborted", exit status 1) printed by a stand-in `ngspice` on PATH, since a generated deck
+/// that really fails to converge cannot be made on purpose. Exit 4, status `failed`, the
+/// message says so, and the results file is written and partial.
+#[test]
+fn a_deck_that_does_not_converge_is_reported() {
+    let dir = tempfile::tempdir().unwrap();
+    let bin = tempfile::tempdir().unwrap();
+    let fake = bin.path().join("ngspice");
+    std::fs::write(
+        &fake,
+        "#!/bin/sh\necho 'doAnalyses: TRAN:  Timestep too small; time = 1.2345e-09, timestep = 1.25e-24: trouble with node \"xblk0.c1_n\"'\necho 'run simulation(s) aborted'\nexit 1\n",
+    )
+    .unwrap();
+    use std::os::unix::fs::PermissionsExt;
+    std::fs::set_permissions(&fake, std::fs::Permissions::from_mode(0o755)).unwrap();
+    let r = simulate(
+        dir.path(),
+        RIPPLE8,
+        &["--no-icarus"],
+        Some(bin.path().to_str().unwrap()),
+    );
+    assert_eq!(r.code, Some(4), "{}\n{}", r.stdout, r.stderr);
+    assert_eq!(r.results["ngspice"]["status"], "failed", "{}", r.results);
+    let msg = r.results["ngspice"]["message"].as_str().unwrap();
+    assert!(msg.contains("did not converge"), "{msg}");
+    assert_eq!(r.results["partial"], true, "{}", r.results);
+    assert!(r.stderr.contains("did not converge"), "{}", r.stderr);
+}
