@@ -75,6 +75,7 @@ pub fn spec() -> Value {
                     "precharge": quantity("Role multiplier: precharge devices (dynamic)."),
                     "output": quantity("Role multiplier: each sum's output inverter."),
                     "carry": quantity("Role multiplier: prefix cells and the full adder's carry half."),
+                    "fanout": {"type": "boolean", "description": "Prefix cells sized by their fan-out (2x or 4x output inverters on heavy loads); default true."},
                     "input_cap": quantity("Largest capacitance an input may present, farads (e.g. 15f).")
                 }}
             ]},

@@ -139,6 +139,7 @@ impl Sizing {
             precharge: 1.0,
             output: 1.0,
             carry: 1.0,
+            fanout: true,
             input_cap: None,
             auto: None,
         }
@@ -192,6 +193,9 @@ pub struct Sizing {
     pub output: f64,
     /// Prefix cells (grey, black) as a whole and the full adder's carry half.
     pub carry: f64,
+    /// Prefix cells sized by their fan-out (`arch::prefix::size_by_fanout`); off: every grey
+    /// and black cell at drive 1.
+    pub fanout: bool,
     /// The most capacitance any one input (a, b, cin) may present, farads.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub input_cap: Option<f64>,
@@ -328,6 +332,7 @@ struct RawSizing {
     precharge: Option<Written>,
     output: Option<Written>,
     carry: Option<Written>,
+    fanout: Option<bool>,
     input_cap: Option<Written>,
 }
 
@@ -1201,6 +1206,7 @@ fn validate(raw: RawSpec, src: &Source, base: &Path, opts: &LoadOptions) -> Resu
         precharge: number("precharge", &rs.precharge, d.precharge)?,
         output: number("output", &rs.output, d.output)?,
         carry: number("carry", &rs.carry, d.carry)?,
+        fanout: rs.fanout.unwrap_or(d.fanout),
         input_cap: match &rs.input_cap {
             None => None,
             Some(w) => {

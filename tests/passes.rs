@@ -362,14 +362,23 @@ fn input_cap_refuses_manual_sizes_that_load_the_inputs_more() {
     assert!(e.to_string().contains("sizing.input_cap"), "{e}");
 }
 
-/// `buffers: auto` on a prefix network: Sklansky's high-fan-out nets (N/2 + 1 loads,
-/// Harris 2003) cost more than buffer stages, so the engine buffers them and the worst path
-/// drops; the chosen threshold is the best of those tried and the figures match the estimate.
+/// `buffers: auto` on a prefix network: with every prefix cell at drive 1
+/// (`sizing.fanout: false`), Sklansky's high-fan-out nets (N/2 + 1 loads, Harris 2003) cost
+/// more than buffer stages, so the engine buffers them and the worst path drops; the chosen
+/// threshold is the best of those tried and the figures match the estimate. With the cells
+/// sized by their fan-out (the default) the choice may be no buffers; it is never worse than
+/// none.
 #[test]
 fn prefix_buffers_auto_buffers_the_high_fanout_nets() {
-    let yaml = |b: &str| {
+    let sized = |b: &str| {
         format!("name: sk64\nwidth: 64\narchitecture: sklansky\ntechnology: gf180mcu-3v3\nbuffers: {b}\ntestbench: {{load: 50f}}\n")
     };
+    let (a, n) = (
+        parse(&sized("auto")).unwrap(),
+        parse(&sized("none")).unwrap(),
+    );
+    assert!(estimate_of(&a).worst_ps <= estimate_of(&n).worst_ps + 0.05);
+    let yaml = |b: &str| format!("{}sizing: {{fanout: false}}\n", sized(b));
     let a = parse(&yaml("auto")).unwrap();
     let n = parse(&yaml("none")).unwrap();
     let how = a.buffers.auto_fanout.clone().unwrap();
@@ -389,5 +398,152 @@ fn prefix_buffers_auto_buffers_the_high_fanout_nets() {
         how.tried.iter().all(|t| t.1 >= how.worst_ps),
         "{:?}",
         how.tried
+    );
+}
+
+// ------------------------------------------------------------- prefix cells by fan-out
+
+#[path = "common/mod.rs"]
+mod common;
+
+fn prefix_spec(arch: &str, width: usize, fanout: bool, tech: &str) -> Spec {
+    parse(&format!(
+        "name: fo\nwidth: {width}\narchitecture: {arch}\ntechnology: {tech}\nsizing: {{fanout: {fanout}}}\ntestbench: {{random: 4, load: 20f}}\n"
+    ))
+    .unwrap()
+}
+
+/// Gate width (µm) the input pins of every instance present on each top net.
+fn load_widths(d: &carrywright::netlist::Design) -> std::collections::HashMap<usize, f64> {
+    use carrywright::netlist::Master;
+    let mut out = std::collections::HashMap::new();
+    for inst in &d.top().instances {
+        let Master::Cell(k) = inst.master else {
+            continue;
+        };
+        let cell = &d.cells[&k];
+        for (pin, net) in cell.pins.iter().zip(&inst.conns) {
+            if pin.dir == carrywright::cells::Dir::In {
+                let w: f64 = cell
+                    .devices
+                    .iter()
+                    .filter(|x| x.g == pin.name)
+                    .map(|x| x.w)
+                    .sum();
+                *out.entry(net.0 as usize).or_insert(0.0) += w;
+            }
+        }
+    }
+    out
+}
+
+/// Prefix cells sized by their fan-out (logical effort, Sutherland, Sproull & Harris 1999):
+/// with `sizing.fanout` off every grey and black cell is at drive 1; on, the cells on
+/// heavily loaded nets get 2× or 4× output inverters, a cell never has a smaller drive than one
+/// with a lighter load, the inputs present the same capacitance (only output inverters grow),
+/// and the engine's worst path is shorter for every prefix family, most for Sklansky, whose
+/// fan-out doubles with each level.
+#[test]
+fn prefix_cells_are_sized_by_their_fanout() {
+    use carrywright::netlist::Master;
+    let mut gains = vec![];
+    for arch in ["kogge-stone", "brent-kung", "sklansky", "ladner-fischer"] {
+        let off = prefix_spec(arch, 32, false, "generic");
+        let on = prefix_spec(arch, 32, true, "generic");
+        let (d_off, d_on) = (
+            carrywright::build(&off).unwrap(),
+            carrywright::build(&on).unwrap(),
+        );
+        let drive = |d: &carrywright::netlist::Design| -> Vec<(f64, u8)> {
+            let loads = load_widths(d);
+            d.top()
+                .instances
+                .iter()
+                .filter_map(|i| match i.master {
+                    Master::Cell(k) => k.prefix_drive().map(|(_, dr)| {
+                        let cell = &d.cells[&k];
+                        let load = cell
+                            .pins
+                            .iter()
+                            .zip(&i.conns)
+                            .filter(|(p, _)| p.dir == carrywright::cells::Dir::Out)
+                            .map(|(_, n)| loads.get(&(n.0 as usize)).copied().unwrap_or(0.0))
+                            .fold(0.0, f64::max);
+                        (load, dr)
+                    }),
+                    _ => None,
+                })
+                .collect()
+        };
+        assert!(
+            drive(&d_off).iter().all(|&(_, dr)| dr == 1),
+            "{arch}: fanout off upsized a cell"
+        );
+        let mut cells = drive(&d_on);
+        assert!(
+            cells.iter().any(|&(_, dr)| dr > 1),
+            "{arch}: no cell upsized"
+        );
+        cells.sort_by(|a, b| a.0.total_cmp(&b.0));
+        for pair in cells.windows(2) {
+            assert!(
+                pair[0].1 <= pair[1].1,
+                "{arch}: a lighter load got a larger drive: {pair:?}"
+            );
+        }
+        let (e_off, e_on) = (
+            carrywright::timing::search::estimate(&off, &d_off).unwrap(),
+            carrywright::timing::search::estimate(&on, &d_on).unwrap(),
+        );
+        assert_eq!(
+            format!("{:?}", e_off.input_cap_ff.0),
+            format!("{:?}", e_on.input_cap_ff.0),
+            "{arch}: the inputs must present the same capacitance"
+        );
+        assert!(
+            e_on.worst_ps < e_off.worst_ps,
+            "{arch}: {} ps against {} ps",
+            e_on.worst_ps,
+            e_off.worst_ps
+        );
+        gains.push((arch, 1.0 - e_on.worst_ps / e_off.worst_ps));
+    }
+    let best = gains.iter().max_by(|a, b| a.1.total_cmp(&b.1)).unwrap();
+    assert_eq!(best.0, "sklansky", "{gains:?}");
+}
+
+/// The same in ngspice (GF180MCU typical, 20 fF; each deck measures its own design's worst
+/// pair): a 16-bit Sklansky adder with its prefix cells sized by fan-out is faster than with
+/// every cell at drive 1. Measured when this was written: 24.5 % faster at 32 bits, 9 % for
+/// Kogge-Stone and 8 % for Brent-Kung at 16.
+#[test]
+fn fanout_sizing_is_faster_in_ngspice() {
+    if !common::tools(&["ngspice"]) {
+        return;
+    }
+    let Some(models) = common::model_dir() else {
+        return;
+    };
+    let mut measured = vec![];
+    for fanout in [false, true] {
+        let yaml = format!(
+            "name: fo16\nwidth: 16\narchitecture: sklansky\ntechnology: gf180mcu-3v3\nsizing: {{fanout: {fanout}}}\ntestbench: {{random: 4, load: 20f}}\n"
+        );
+        let (dir, _, _) = common::generate(&yaml, Some(models.clone()));
+        let (ok, log) = common::ngspice(&dir.path().join("out"), "fo16");
+        assert!(ok, "the deck fails:\n{log}");
+        let t = common::printed(&log)["tworst"];
+        measured.push(t);
+    }
+    eprintln!(
+        "16-bit Sklansky, GF180MCU typical, 20 fF: worst pair {:.1} ps at drive 1, {:.1} ps sized by fan-out",
+        measured[0] * 1e12,
+        measured[1] * 1e12
+    );
+    assert!(
+        measured[1] < 0.97 * measured[0],
+        "fan-out sizing {:.1} ps against {:.1} ps",
+        measured[1] * 1e12,
+        measured[0] * 1e12
     );
 }

@@ -410,6 +410,9 @@ pub struct Report {
     /// Loads on the busiest net of the built netlist (after fan-out buffers).
     pub max_net_fanout: usize,
     pub fanout_buffers: usize,
+    /// Grey and black cells given a 2× or 4× output inverter for their load
+    /// ([`size_by_fanout`]).
+    pub upsized_cells: usize,
     /// Lookahead only: 1 (groups ripple) or 2 (a second lookahead level).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub lookahead_levels: Option<usize>,
@@ -506,6 +509,11 @@ pub fn build(spec: &Spec, lib: &Library) -> (Design, Report) {
         Some(f) => insert_fanout_buffers(&mut d, &mut top, f),
         None => 0,
     };
+    let upsized = if spec.sizing.fanout {
+        size_by_fanout(&mut d, &mut top)
+    } else {
+        0
+    };
     let max_net_fanout = loads(&d, &top).values().map(|v| v.len()).max().unwrap_or(0);
     let report = Report {
         family: spec.architecture.as_str().to_string(),
@@ -513,6 +521,7 @@ pub fn build(spec: &Spec, lib: &Library) -> (Design, Report) {
         stats: graph.stats(),
         max_net_fanout,
         fanout_buffers: buffers,
+        upsized_cells: upsized,
         lookahead_levels: la,
     };
     (d.finish(top, false), report)
@@ -531,6 +540,76 @@ fn loads(d: &DesignBuilder, m: &Module) -> BTreeMap<NetId, Vec<(usize, usize)>> 
         }
     }
     out
+}
+
+/// Gate width (µm) an input pin of a cell presents: every device its pin drives the gate of.
+fn pin_gate_width(cell: &crate::cells::Cell, pin: usize) -> f64 {
+    let name = cell.pins[pin].name;
+    cell.devices
+        .iter()
+        .filter(|d| d.g == name)
+        .map(|d| d.w)
+        .sum()
+}
+
+/// Prefix cells sized by their fan-out (logical effort, Sutherland, Sproull & Harris 1999):
+/// a grey or black cell is an AOI21 (and a NAND2) followed by an output inverter. For a load
+/// of H times the drive-1 inverter's gate width, the two-stage path is fastest with the
+/// inverter √(H / g) times wider, g ≈ 2 being the AOI21's logical effort (from memory of the
+/// book's tables: (2 + 2) / 3 on the series inputs for a P/N ratio of 2, rounded up); the
+/// inputs of the cell, and so the load it puts on its drivers, do not change. The drive is
+/// that factor rounded in octaves to 1, 2 or 4 (the cells `GreyX2`, `BlackX4`, ...); loads
+/// are the gate widths of every input pin on the cell's output nets (a black cell takes the
+/// larger of its G and P loads). Returns the number of cells upsized.
+pub fn size_by_fanout(d: &mut DesignBuilder, top: &mut Module) -> usize {
+    let load = loads(d, top);
+    let mut upsized = 0;
+    for ii in 0..top.instances.len() {
+        let Master::Cell(k) = top.instances[ii].master else {
+            continue;
+        };
+        let Some((grey, 1)) = k.prefix_drive() else {
+            continue;
+        };
+        let cell = &d.cells[&k];
+        // The drive-1 output inverter's gate width: the devices that drive pin g from gn.
+        let w1: f64 = cell
+            .devices
+            .iter()
+            .filter(|x| x.d == "g" && x.g == "gn")
+            .map(|x| x.w)
+            .sum();
+        let mut h: f64 = 0.0;
+        for (pi, pin) in cell.pins.iter().enumerate() {
+            if pin.dir != crate::cells::Dir::Out {
+                continue;
+            }
+            let net = top.instances[ii].conns[pi];
+            let w: f64 = load
+                .get(&net)
+                .into_iter()
+                .flatten()
+                .map(|&(li, lp)| match top.instances[li].master {
+                    Master::Cell(lk) => pin_gate_width(&d.cells[&lk], lp),
+                    Master::Module(_) => 0.0,
+                })
+                .sum();
+            h = h.max(w / w1);
+        }
+        let x = (h / 2.0).sqrt();
+        let drive = if x < std::f64::consts::SQRT_2 {
+            1
+        } else if x < 2.0 * std::f64::consts::SQRT_2 {
+            2
+        } else {
+            4
+        };
+        if drive > 1 {
+            top.instances[ii].master = d.cell(CellKind::prefix_cell(grey, drive));
+            upsized += 1;
+        }
+    }
+    upsized
 }
 
 /// Give every net with more than `f` loads a tree of buffers, each driving at most `f`.

@@ -49,6 +49,12 @@ pub enum CellKind {
     Grey,
     /// Black cell: G = Gh + Ph·Gl, P = Ph·Pl.
     Black,
+    /// Grey and black cells whose output inverters are 2× and 4× wider, for nets with a
+    /// heavy load (prefix cells sized by their fan-out, `arch::prefix::size_by_fanout`).
+    GreyX2,
+    GreyX4,
+    BlackX2,
+    BlackX4,
     /// Two-input AND (NAND2 and an inverter).
     And2,
     /// Two-way multiplexer y = s ? d1 : d0 (AOI22 with an inverter on s, output inverter).
@@ -434,10 +440,41 @@ impl Library {
             CellKind::SumInverted => manchester::sum(s, false, false),
             CellKind::SumInvertedTap => manchester::sum(s, false, true),
             CellKind::SumTrue => manchester::sum(s, true, false),
-            CellKind::Grey => static_cmos::grey(s),
-            CellKind::Black => static_cmos::black(s),
+            CellKind::Grey => static_cmos::grey(s, 1),
+            CellKind::Black => static_cmos::black(s, 1),
+            CellKind::GreyX2 => static_cmos::grey(s, 2),
+            CellKind::GreyX4 => static_cmos::grey(s, 4),
+            CellKind::BlackX2 => static_cmos::black(s, 2),
+            CellKind::BlackX4 => static_cmos::black(s, 4),
             CellKind::And2 => static_cmos::and2(s),
             CellKind::Mux2 => static_cmos::mux2(s),
+        }
+    }
+}
+
+impl CellKind {
+    /// A prefix cell's family (grey: true, black: false) and output drive (1, 2 or 4).
+    pub fn prefix_drive(self) -> Option<(bool, u8)> {
+        match self {
+            CellKind::Grey => Some((true, 1)),
+            CellKind::GreyX2 => Some((true, 2)),
+            CellKind::GreyX4 => Some((true, 4)),
+            CellKind::Black => Some((false, 1)),
+            CellKind::BlackX2 => Some((false, 2)),
+            CellKind::BlackX4 => Some((false, 4)),
+            _ => None,
+        }
+    }
+
+    /// The prefix cell of this family and drive (1, 2 or 4).
+    pub fn prefix_cell(grey: bool, drive: u8) -> CellKind {
+        match (grey, drive) {
+            (true, 1) => CellKind::Grey,
+            (true, 2) => CellKind::GreyX2,
+            (true, _) => CellKind::GreyX4,
+            (false, 1) => CellKind::Black,
+            (false, 2) => CellKind::BlackX2,
+            (false, _) => CellKind::BlackX4,
         }
     }
 }
@@ -461,6 +498,10 @@ pub const ALL_KINDS: &[CellKind] = &[
     CellKind::SumTrue,
     CellKind::Grey,
     CellKind::Black,
+    CellKind::GreyX2,
+    CellKind::GreyX4,
+    CellKind::BlackX2,
+    CellKind::BlackX4,
     CellKind::And2,
     CellKind::Mux2,
 ];

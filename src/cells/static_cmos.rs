@@ -103,15 +103,23 @@ pub fn mirror_full_adder(s: &Sizes) -> Cell {
 
 /// Grey cell of a prefix network: G = Gh + Ph·Gl, an AOI21 and an inverter. Also the carry
 /// operator of lookahead and of the carry-skip bypass in dynamic style.
-pub fn grey(s: &Sizes) -> Cell {
+pub fn grey(s: &Sizes, drive: u8) -> Cell {
     let mut sch = Schematic::scaled(s, s.carry);
     sch.aoi21("gn", "gh", "ph", "gl", "gn");
-    sch.inv("g", "gn", "g", 1.0);
+    sch.inv("g", "gn", "g", drive as f64);
     let (gh, ph, gl) = (v(0), v(1), v(2));
     Cell {
-        kind: CellKind::Grey,
-        base: "grey",
-        summary: "grey cell G = Gh + Ph·Gl",
+        kind: CellKind::prefix_cell(true, drive),
+        base: match drive {
+            1 => "grey",
+            2 => "grey_x2",
+            _ => "grey_x4",
+        },
+        summary: match drive {
+            1 => "grey cell G = Gh + Ph·Gl",
+            2 => "grey cell G = Gh + Ph·Gl, output inverter 2x",
+            _ => "grey cell G = Gh + Ph·Gl, output inverter 4x",
+        },
         pins: pins(&[
             ("gh", In, false),
             ("ph", In, false),
@@ -127,17 +135,25 @@ pub fn grey(s: &Sizes) -> Cell {
 }
 
 /// Black cell of a prefix network: G = Gh + Ph·Gl and P = Ph·Pl.
-pub fn black(s: &Sizes) -> Cell {
+pub fn black(s: &Sizes, drive: u8) -> Cell {
     let mut sch = Schematic::scaled(s, s.carry);
     sch.aoi21("gn", "gh", "ph", "gl", "gn");
-    sch.inv("g", "gn", "g", 1.0);
+    sch.inv("g", "gn", "g", drive as f64);
     sch.nand2("pn", "ph", "pl", "pn");
-    sch.inv("p", "pn", "p", 1.0);
+    sch.inv("p", "pn", "p", drive as f64);
     let (gh, ph, gl, pl) = (v(0), v(1), v(2), v(3));
     Cell {
-        kind: CellKind::Black,
-        base: "black",
-        summary: "black cell G = Gh + Ph·Gl, P = Ph·Pl",
+        kind: CellKind::prefix_cell(false, drive),
+        base: match drive {
+            1 => "black",
+            2 => "black_x2",
+            _ => "black_x4",
+        },
+        summary: match drive {
+            1 => "black cell G = Gh + Ph·Gl, P = Ph·Pl",
+            2 => "black cell G = Gh + Ph·Gl, P = Ph·Pl, output inverters 2x",
+            _ => "black cell G = Gh + Ph·Gl, P = Ph·Pl, output inverters 4x",
+        },
         pins: pins(&[
             ("gh", In, false),
             ("ph", In, false),

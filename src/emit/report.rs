@@ -108,6 +108,13 @@ pub fn table(spec: &Spec, design: &Design) -> String {
         if p.fanout_buffers > 0 {
             row(&mut out, "fan-out buffers", p.fanout_buffers.to_string());
         }
+        if p.upsized_cells > 0 {
+            row(
+                &mut out,
+                "sized by fan-out",
+                format!("{} cells with 2x or 4x output inverters", p.upsized_cells),
+            );
+        }
         if let Some(a) = &spec.buffers.auto_fanout {
             row(
                 &mut out,

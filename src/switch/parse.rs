@@ -199,7 +199,9 @@ pub fn parse(text: &str, label: &str, tech: &Technology) -> Result<Netlist> {
             return Err(bad(
                 label,
                 *ln,
-                format!("element {head} outside any .subckt"),
+                format!(
+                    "element {head} outside any .subckt (this reads a subcircuit file such as NAME.sp, not a deck)"
+                ),
             ));
         };
         if head.starts_with('.') {
