@@ -1400,11 +1400,36 @@ fn validate(raw: RawSpec, src: &Source, base: &Path, opts: &LoadOptions) -> Resu
             crate::passes::buffers::choose(&spec).map_err(|m| src.error("buffers", m))?;
         spec.buffers.positions = positions;
         spec.buffers.auto = Some(how);
+    } else if raw.buffers.is_none() && unbuffered_chain_fails(&spec)? {
+        // With no `buffers` key, a dynamic chain the keeper check refuses unbuffered gets the
+        // buffers `auto` would choose; an explicit `buffers: none`, or a chain no buffer
+        // positions can save (one block too long), is refused by `build` as before.
+        if let Ok((positions, mut how)) = crate::passes::buffers::choose(&spec) {
+            how.rule = DEFAULT_DYNAMIC_BUFFERS_RULE;
+            spec.buffers.positions = positions;
+            spec.buffers.auto = Some(how);
+        }
     }
     if auto_sizing {
         spec.sizing = crate::passes::sizing::choose(&spec).map_err(|m| src.error("sizing", m))?;
     }
     Ok(spec)
+}
+
+/// How the buffers of a dynamic chain without a `buffers` key were chosen, for the reports.
+pub const DEFAULT_DYNAMIC_BUFFERS_RULE: &str = "default for a dynamic chain the keeper check refuses unbuffered (no buffers key): as buffers: auto, dynamic programming over block boundaries on the timing engine's segment delays";
+
+/// A dynamic Manchester chain whose unbuffered form fails the keeper check (a front that
+/// stalls or does not fit the evaluate phase at the slow corner).
+fn unbuffered_chain_fails(spec: &Spec) -> Result<bool> {
+    if spec.style != Style::Dynamic
+        || spec.architecture != Architecture::Manchester
+        || !spec.buffers.positions.is_empty()
+    {
+        return Ok(false);
+    }
+    let d = crate::arch::build(spec);
+    Ok(crate::timing::keeper::check(spec, &d)?.is_some_and(|r| r.failure.is_some()))
 }
 
 fn parse_buffers(

@@ -172,9 +172,16 @@ fn longest_in(m: &str) -> usize {
 /// evaluate phase while 16 bits at 0.2 and 32 bits at 0.05 pass: the closing note's grid.)
 #[test]
 fn keeper_check_refuses_a_stalled_chain_and_names_the_longest_that_passes() {
+    // `buffers: none` spelled out: with no buffers key such a chain gets the buffers
+    // `buffers: auto` would choose (below).
     let spec = |w: usize, block: usize, extra: &str| {
+        let none = if extra.contains("buffers") {
+            ""
+        } else {
+            "buffers: none\n"
+        };
         parse(&format!(
-            "name: d\nwidth: {w}\narchitecture: manchester\nstyle: dynamic\nblock: {block}\n{extra}"
+            "name: d\nwidth: {w}\narchitecture: manchester\nstyle: dynamic\nblock: {block}\n{extra}{none}"
         ))
     };
     let err = carrywright::build(&spec(40, 1, "")).unwrap_err();
@@ -182,9 +189,15 @@ fn keeper_check_refuses_a_stalled_chain_and_names_the_longest_that_passes() {
     let m = err.to_string();
     assert!(!m.contains('\n'), "{m}");
     assert!(
-        m.starts_with("test: buffers: the unbuffered dynamic chain from bit 0 to bit 39 (40 bits) fails the keeper check at sizing.keeper 0.1 ("),
+        m.starts_with("test:6:1: buffers: the unbuffered dynamic chain from bit 0 to bit 39 (40 bits) fails the keeper check at sizing.keeper 0.1 ("),
         "{m}"
     );
+    // No buffers key: the same chain is buffered as `auto` would, says so, and passes.
+    let default = parse("name: d\nwidth: 40\narchitecture: manchester\nstyle: dynamic\nblock: 1\n");
+    let how = default.buffers.auto.clone().expect("buffers chosen");
+    assert_eq!(how.rule, carrywright::spec::DEFAULT_DYNAMIC_BUFFERS_RULE);
+    assert!(!default.buffers.positions.is_empty());
+    carrywright::build(&default).unwrap();
     assert!(m.contains("stalls at"), "{m}");
     let fits = longest_in(&m);
     assert!((2..40).contains(&fits), "{m}");

@@ -57,7 +57,12 @@ pub fn table(spec: &Spec, design: &Design) -> String {
         let mut at = itertools::join(&spec.buffers.positions, ",");
         if let Some(a) = &spec.buffers.auto {
             at.push_str(&format!(
-                " (buffers: auto; the model's cin -> cout {:.1} ps, {} with none{})",
+                " ({}; the model's cin -> cout {:.1} ps, {} with none{})",
+                if a.rule == crate::spec::DEFAULT_DYNAMIC_BUFFERS_RULE {
+                    "no buffers key: chosen as buffers: auto, the chain fails the keeper check unbuffered"
+                } else {
+                    "buffers: auto"
+                },
                 a.cin_cout_ps,
                 match a.unbuffered_ps {
                     Some(x) => format!("{x:.1} ps"),
