@@ -932,24 +932,25 @@ fn bench_switch() {
     let s = parse("name: k128\nwidth: 128\narchitecture: kogge-stone\n");
     let design = carrywright::build(&s).unwrap();
     let sp = spice::subcircuits(&s, &design).unwrap();
-    let mut lines: Vec<&str> = sp.lines().collect();
-    let top = lines
+    // Logical lines (a line with its `+` continuations), the top's elements reversed.
+    let mut groups: Vec<Vec<&str>> = vec![];
+    for l in sp.lines() {
+        match groups.last_mut() {
+            Some(g) if l.starts_with('+') => g.push(l),
+            _ => groups.push(vec![l]),
+        }
+    }
+    let top = groups
         .iter()
-        .position(|l| l.starts_with(".subckt k128 "))
+        .position(|g| g[0].starts_with(".subckt k128 "))
         .unwrap();
     let end = top
-        + lines[top..]
+        + groups[top..]
             .iter()
-            .position(|l| l.starts_with(".ends"))
+            .position(|g| g[0].starts_with(".ends"))
             .unwrap();
-    let body_start = top
-        + 1
-        + lines[top + 1..end]
-            .iter()
-            .take_while(|l| l.starts_with('+'))
-            .count();
-    lines[body_start..end].reverse();
-    let edited = lines.join("\n") + "\n";
+    groups[top + 1..end].reverse();
+    let edited = groups.concat().join("\n") + "\n";
     let opts = switch::verify::Options {
         strict: false,
         random: sim::RANDOM_MIN,
