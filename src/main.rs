@@ -78,8 +78,9 @@ enum Command {
         #[arg(long, value_name = "DIR")]
         model_dir: Option<PathBuf>,
     },
-    /// Build the netlist, run its structural checks and a bit-parallel logic check against
-    /// native integer addition (exhaustive up to 12 bits, else directed plus random vectors).
+    /// Build the netlist, run its structural checks, a bit-parallel logic check against
+    /// native integer addition (exhaustive up to 12 bits, else directed plus random vectors)
+    /// and the switch-level check of the SPICE text (exhaustive up to 10 bits).
     Check {
         /// The adder spec (YAML; `-` reads it from standard input).
         spec: PathBuf,
