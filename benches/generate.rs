@@ -116,7 +116,10 @@ fn main() {
         .filter(|a| !a.starts_with('-'))
         .collect();
     let run = |name: &str| picked.is_empty() || picked.iter().any(|p| p == name);
-    println!("carrywright bench (single thread, {})", build_kind());
+    println!(
+        "carrywright bench ({}; generate runs its three checks on two threads, the other figures one)",
+        build_kind()
+    );
     println!(
         "  load average at start: {} ({} CPUs)",
         loadavg(),
