@@ -167,19 +167,7 @@ fn reordered_and_renamed_netlists_are_isomorphic() {
         let s = spec_of(yaml);
         let t = sp_text(&s);
         let mut lines = joined(&t);
-        let top = body(&lines, &s.name);
-        let mut elems: Vec<String> = lines[top.clone()]
-            .iter()
-            .filter(|l| is_element(l))
-            .map(|l| {
-                let mut toks: Vec<&str> = l.split_whitespace().collect();
-                let renamed = format!("xq{}", &toks[0][1..]);
-                toks[0] = &renamed;
-                toks.join(" ")
-            })
-            .collect();
-        elems.reverse();
-        lines.splice(top, elems);
+        rename_top(&mut lines, &s.name);
         let cb = body(&lines, cell);
         let mut dev: Vec<String> = lines[cb.clone()].to_vec();
         // A fixed shuffle: odd lines first, then even ones, each reversed.
@@ -324,6 +312,7 @@ fn rename_top(lines: &mut Vec<String>, top: &str) {
     let b = body(lines, top);
     let mut elems: Vec<String> = lines[b.clone()]
         .iter()
+        .filter(|l| is_element(l))
         .map(|l| {
             let mut toks: Vec<&str> = l.split_whitespace().collect();
             let renamed = format!("xq{}", &toks[0][1..]);
@@ -575,19 +564,6 @@ fn name_cost(r: &Flat, e: &Flat) -> usize {
 #[test]
 #[ignore = "long: random edits over every architecture; run with --ignored"]
 fn stress() {
-    let archs = [
-        "ripple",
-        "manchester",
-        "carry-skip",
-        "carry-select",
-        "lookahead",
-        "kogge-stone",
-        "brent-kung",
-        "sklansky",
-        "han-carlson",
-        "ladner-fischer",
-        "knowles",
-    ];
     let mut seed: u64 = 12345;
     let mut rnd = |n: usize| {
         seed = seed
@@ -597,9 +573,10 @@ fn stress() {
     };
     let mut bad = 0;
     for width in [8usize, 13, 32] {
-        for arch in archs {
+        for a in carrywright::spec::ARCHITECTURES {
+            let arch = a.as_str();
             for style in ["static", "dynamic"] {
-                if style == "dynamic" && !["manchester", "carry-skip"].contains(&arch) {
+                if style == "dynamic" && !a.has_dynamic() {
                     continue;
                 }
                 let yaml = format!("name: t{width}\nwidth: {width}\narchitecture: {arch}\nstyle: {style}\nblock: 4\n{}",

@@ -20,31 +20,18 @@ fn sp_text(s: &Spec) -> (carrywright::netlist::Design, String) {
     (g.design, text)
 }
 
-const ARCHS: &[&str] = &[
-    "ripple",
-    "manchester",
-    "carry-skip",
-    "carry-select",
-    "lookahead",
-    "kogge-stone",
-    "brent-kung",
-    "sklansky",
-    "han-carlson",
-    "ladner-fischer",
-    "knowles",
-];
-
 #[test]
 fn every_architecture_adds_at_switch_level() {
     for width in [4usize, 8, 13, 32] {
-        for arch in ARCHS {
+        for a in spec::ARCHITECTURES {
+            let arch = a.as_str();
             for style in ["static", "dynamic"] {
-                if style == "dynamic" && !["manchester", "carry-skip"].contains(arch) {
+                if style == "dynamic" && !a.has_dynamic() {
                     continue;
                 }
                 let s = parse(&format!(
                     "name: t{width}\nwidth: {width}\narchitecture: {arch}\nstyle: {style}\nblock: 4\n{}",
-                    if *arch == "manchester" && width > 8 { "buffers: {every: 8}\n" } else { "" }
+                    if arch == "manchester" && width > 8 { "buffers: {every: 8}\n" } else { "" }
                 ));
                 let (d, text) = sp_text(&s);
                 let t = Instant::now();

@@ -328,23 +328,19 @@ fn min_sizes(edited: &Flat, label: &str, spec: &Spec) -> Vec<Broken> {
             Kind::N => "nmos",
             Kind::P => "pmos",
         };
-        if d.w + 1e-9 < t.w_min {
-            out.push(Broken {
-                rule: "w_min",
-                message: format!(
-                    "{label}:{}: {} ({kind}) is {} µm wide, below the technology's w_min {} µm",
-                    d.line, d.name, d.w, t.w_min
-                ),
-            });
-        }
-        if d.l + 1e-9 < t.l_min {
-            out.push(Broken {
-                rule: "l_min",
-                message: format!(
-                    "{label}:{}: {} ({kind}) is {} µm long, below the technology's l_min {} µm",
-                    d.line, d.name, d.l, t.l_min
-                ),
-            });
+        for (rule, size, min, what) in [
+            ("w_min", d.w, t.w_min, "wide"),
+            ("l_min", d.l, t.l_min, "long"),
+        ] {
+            if size + 1e-9 < min {
+                out.push(Broken {
+                    rule,
+                    message: format!(
+                        "{label}:{}: {} ({kind}) is {size} µm {what}, below the technology's {rule} {min} µm",
+                        d.line, d.name
+                    ),
+                });
+            }
         }
     }
     out
