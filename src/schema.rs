@@ -76,6 +76,7 @@ pub fn spec() -> Value {
                     "output": quantity("Role multiplier: each sum's output inverter."),
                     "carry": quantity("Role multiplier: prefix cells and the full adder's carry half."),
                     "fanout": {"type": "boolean", "description": "Prefix cells sized by their fan-out (2x or 4x output inverters on heavy loads); default true."},
+                    "taper": quantity("Manchester chains (manchester, carry-skip): drive of each segment's first chain cell over its last, 1 (none) to 4."),
                     "input_cap": quantity("Largest capacitance an input may present, farads (e.g. 15f).")
                 }}
             ]},

@@ -140,6 +140,7 @@ impl Sizing {
             output: 1.0,
             carry: 1.0,
             fanout: true,
+            taper: 1.0,
             input_cap: None,
             auto: None,
         }
@@ -196,6 +197,10 @@ pub struct Sizing {
     /// Prefix cells sized by their fan-out (`arch::prefix::size_by_fanout`); off: every grey
     /// and black cell at drive 1.
     pub fanout: bool,
+    /// Manchester chains (manchester, carry-skip): the drive of each segment's first chain
+    /// cell over its last, 1 (no taper) to 4; the cells between follow a geometric taper,
+    /// rounded to the levels of `cells::TAPER_DRIVES` (`arch::manchester::taper_levels`).
+    pub taper: f64,
     /// The most capacitance any one input (a, b, cin) may present, farads.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub input_cap: Option<f64>,
@@ -333,6 +338,7 @@ struct RawSizing {
     output: Option<Written>,
     carry: Option<Written>,
     fanout: Option<bool>,
+    taper: Option<Written>,
     input_cap: Option<Written>,
 }
 
@@ -1207,6 +1213,7 @@ fn validate(raw: RawSpec, src: &Source, base: &Path, opts: &LoadOptions) -> Resu
         output: number("output", &rs.output, d.output)?,
         carry: number("carry", &rs.carry, d.carry)?,
         fanout: rs.fanout.unwrap_or(d.fanout),
+        taper: number("taper", &rs.taper, d.taper)?,
         input_cap: match &rs.input_cap {
             None => None,
             Some(w) => {
@@ -1240,6 +1247,18 @@ fn validate(raw: RawSpec, src: &Source, base: &Path, opts: &LoadOptions) -> Resu
         ("carry", sizing.carry),
     ] {
         in_range(key, v, 0.25, 16.0)?;
+    }
+    in_range("taper", sizing.taper, 1.0, 4.0)?;
+    if rs.taper.is_some()
+        && !matches!(
+            architecture,
+            Architecture::Manchester | Architecture::CarrySkip
+        )
+    {
+        return Err(src.error(
+            "sizing.taper",
+            "tapering sizes Manchester chains; use it with manchester or carry-skip",
+        ));
     }
     if let Some(c) = sizing.input_cap {
         if !(c > 0.0 && c <= 1e-9) {

@@ -9,9 +9,9 @@
 
 use super::{top_module, BlockPorts};
 use crate::cells::Dir;
-use crate::cells::{CellKind, Library};
+use crate::cells::{CellKind, ChainForm, Library, TAPER_DRIVES};
 use crate::netlist::{Design, DesignBuilder, Master, Module, NetId};
-use crate::spec::Spec;
+use crate::spec::{Architecture, Spec};
 use std::collections::BTreeMap;
 
 /// Bit ranges [lo, hi) of the blocks; the last one is shorter when `block` does not divide
@@ -32,12 +32,60 @@ pub fn carry_name(k: usize, true_carry: bool) -> String {
     }
 }
 
+/// Drive levels (indices into [`TAPER_DRIVES`]) of the chain cells of one segment of `n`
+/// cells whose first cell is `taper` times as strong as its last: position j wants
+/// taper^((n-1-j)/(n-1)) (progressive sizing: a geometric taper, the head carrying the charge
+/// of every node after it), rounded to the nearest level on a log scale. `taper` 1: all 0.
+pub fn taper_levels(n: usize, taper: f64) -> Vec<u8> {
+    (0..n)
+        .map(|j| {
+            if n < 2 || taper <= 1.0 {
+                return 0;
+            }
+            let want = taper.ln() * (n - 1 - j) as f64 / (n - 1) as f64;
+            (0..TAPER_DRIVES.len())
+                .min_by(|&x, &y| {
+                    let dx = (TAPER_DRIVES[x].ln() - want).abs();
+                    let dy = (TAPER_DRIVES[y].ln() - want).abs();
+                    dx.total_cmp(&dy)
+                })
+                .unwrap_or(0) as u8
+        })
+        .collect()
+}
+
+/// The unbroken chain segments [lo, hi) that `sizing.taper` tapers: from bit 0 or a buffered
+/// boundary to the next (manchester), or each block (carry-skip); none for other
+/// architectures.
+pub fn chain_segments(spec: &Spec) -> Vec<(usize, usize)> {
+    match spec.architecture {
+        Architecture::Manchester => {
+            let mut cuts = vec![0];
+            cuts.extend(spec.buffers.positions.iter().copied());
+            cuts.push(spec.width);
+            cuts.windows(2).map(|c| (c[0], c[1])).collect()
+        }
+        Architecture::CarrySkip => spec.block_ranges(),
+        _ => vec![],
+    }
+}
+
+/// The drive level of every bit's chain cell, each segment of [`chain_segments`] tapered by
+/// `sizing.taper`.
+fn bit_levels(spec: &Spec) -> Vec<u8> {
+    chain_segments(spec)
+        .iter()
+        .flat_map(|&(lo, hi)| taper_levels(hi - lo, spec.sizing.taper))
+        .collect()
+}
+
 pub fn build(spec: &Spec, lib: &Library, dynamic: bool) -> Design {
     let mut d = DesignBuilder::new(&spec.name, lib);
     let keeper = lib.sizes.keeper.is_some() && dynamic;
     let (mut top, t) = top_module(&spec.name, spec.width, dynamic);
-    let mut made: BTreeMap<(usize, bool), Master> = BTreeMap::new();
+    let mut made: BTreeMap<(usize, bool, Vec<u8>), Master> = BTreeMap::new();
     let w = spec.width;
+    let levels = bit_levels(spec);
 
     let start = if keeper {
         CellKind::DynamicStartKeeper
@@ -62,10 +110,13 @@ pub fn build(spec: &Spec, lib: &Library, dynamic: bool) -> Design {
 
     for (k, &(lo, hi)) in blocks(w, spec.block).iter().enumerate() {
         let size = hi - lo;
-        let master = *made.entry((size, true_carry)).or_insert_with(|| {
-            let m = block_module(&mut d, &spec.name, size, true_carry, dynamic, keeper);
-            d.add_module(m)
-        });
+        let lv = levels[lo..hi].to_vec();
+        let master = *made
+            .entry((size, true_carry, lv.clone()))
+            .or_insert_with(|| {
+                let m = block_module(&mut d, &spec.name, size, true_carry, dynamic, keeper, &lv);
+                d.add_module(m)
+            });
         let co = top.net(carry_name(hi, true_carry));
         let buffered = hi < w && spec.buffers.positions.contains(&hi);
         // Dynamic with keepers: the complement of co made by co's reader (the domino inverter,
@@ -128,7 +179,8 @@ pub fn build(spec: &Spec, lib: &Library, dynamic: bool) -> Design {
     d.finish(top, dynamic)
 }
 
-/// One block subcircuit: per bit a PG cell, a chain cell and a sum cell.
+/// One block subcircuit: per bit a PG cell, a chain cell and a sum cell. `levels`: each
+/// chain cell's drive level (a tapered block's name ends in them, `_x4321`).
 fn block_module(
     d: &mut DesignBuilder,
     name: &str,
@@ -136,6 +188,7 @@ fn block_module(
     true_carry: bool,
     dynamic: bool,
     keeper: bool,
+    levels: &[u8],
 ) -> Module {
     let suffix = if dynamic {
         "d"
@@ -144,7 +197,13 @@ fn block_module(
     } else {
         "i"
     };
-    let mut m = Module::new(format!("{name}_blk{size}_{suffix}"));
+    let tapered = if levels.iter().any(|&l| l > 0) {
+        let l: String = levels.iter().map(|l| l.to_string()).collect();
+        format!("_x{l}")
+    } else {
+        String::new()
+    };
+    let mut m = Module::new(format!("{name}_blk{size}_{suffix}{tapered}"));
     let BlockPorts {
         clk,
         a,
@@ -160,7 +219,19 @@ fn block_module(
         let first = m.port("ci_r", Dir::Out);
         Taps { first, last }
     });
-    chain_bits(d, &mut m, clk, &a, &b, ci, &s, Some(co), true_carry, taps);
+    chain_bits(
+        d,
+        &mut m,
+        clk,
+        &a,
+        &b,
+        ci,
+        &s,
+        Some(co),
+        true_carry,
+        taps,
+        levels,
+    );
     m
 }
 
@@ -176,7 +247,8 @@ pub struct Taps {
 /// The bits of one unbroken chain inside module `m`: per bit a PG cell, a chain cell and a
 /// sum cell, from node `ci` on. The last node is `last` if given, else a new net. Returns the
 /// last node and the propagate nets. `clk` set means dynamic style; `taps` set means keepers,
-/// each gated by the complement its node's sum cell makes (net `<node>_r`).
+/// each gated by the complement its node's sum cell makes (net `<node>_r`). `levels`: each
+/// bit's chain cell drive level ([`taper_levels`]).
 #[allow(clippy::too_many_arguments)]
 pub fn chain_bits(
     d: &mut DesignBuilder,
@@ -189,15 +261,16 @@ pub fn chain_bits(
     last: Option<NetId>,
     true_carry: bool,
     taps: Option<Taps>,
+    levels: &[u8],
 ) -> (NetId, Vec<NetId>) {
     let size = a.len();
-    let (pg, chain, sum) = match (clk.is_some(), true_carry) {
+    let (pg, form, sum) = match (clk.is_some(), true_carry) {
         (true, _) => (
             CellKind::Pg,
             if taps.is_some() {
-                CellKind::ChainDynamicKeeper
+                ChainForm::DynamicKeeper
             } else {
-                CellKind::ChainDynamic
+                ChainForm::Dynamic
             },
             if taps.is_some() {
                 CellKind::SumInvertedTap
@@ -207,17 +280,18 @@ pub fn chain_bits(
         ),
         (false, false) => (
             CellKind::PgInverted,
-            CellKind::ChainInverted,
+            ChainForm::Inverted,
             CellKind::SumInverted,
         ),
-        (false, true) => (CellKind::PgTrue, CellKind::ChainTrue, CellKind::SumTrue),
+        (false, true) => (CellKind::PgTrue, ChainForm::True, CellKind::SumTrue),
     };
-    let (pg, chain, sum) = (d.cell(pg), d.cell(chain), d.cell(sum));
+    let (pg, sum) = (d.cell(pg), d.cell(sum));
     let mut prev = ci;
     let mut props = vec![];
     // The complement of the node each sum cell reads (`prev`), when there are keepers.
     let mut tap = taps.map(|t| t.first);
     for j in 0..size {
+        let chain = d.cell(form.at(levels[j]));
         let node = match last {
             Some(l) if j + 1 == size => l,
             _ => m.net(carry_name(j + 1, true_carry)),

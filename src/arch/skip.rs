@@ -7,7 +7,7 @@
 //! the chain's end passes a domino inverter, and the bypass is an AO21, cout = c_ripple +
 //! BP·c_in, which equals the multiplexer (BP implies c_ripple = c_in) and stays monotonic.
 
-use super::manchester::{chain_bits, Taps};
+use super::manchester::{chain_bits, taper_levels, Taps};
 use super::{top_module, BlockPorts};
 use crate::cells::{CellKind, Library};
 use crate::netlist::{Design, DesignBuilder, Master, Module, NetId};
@@ -49,6 +49,7 @@ fn skip_block(
     size: usize,
     dynamic: bool,
     keeper: bool,
+    taper: f64,
 ) -> Module {
     let mut m = Module::new(format!(
         "{name}_skip{size}_{}",
@@ -84,7 +85,11 @@ fn skip_block(
         let inv = d.cell(CellKind::Inv);
         m.inst_at(0, "xstart", inv, vec![ci, start]);
     }
-    let (end, props) = chain_bits(d, &mut m, clk, &a, &b, start, &s, None, false, taps);
+    // The block's chain is one segment, tapered from its start.
+    let levels = taper_levels(size, taper);
+    let (end, props) = chain_bits(
+        d, &mut m, clk, &a, &b, start, &s, None, false, taps, &levels,
+    );
     let inv = d.cell(CellKind::Inv);
     m.inst_at(size - 1, "xend", inv, vec![end, ripple]);
     let bp = if props.len() == 1 {
@@ -134,7 +139,7 @@ pub fn build(spec: &Spec, lib: &Library, dynamic: bool) -> Design {
     for (k, &(lo, hi)) in blocks.iter().enumerate() {
         let size = hi - lo;
         let master = *made.entry(size).or_insert_with(|| {
-            let m = skip_block(&mut d, &spec.name, size, dynamic, keeper);
+            let m = skip_block(&mut d, &spec.name, size, dynamic, keeper, spec.sizing.taper);
             d.add_module(m)
         });
         let co = if hi == spec.width {

@@ -11,7 +11,9 @@
 //! inverter): the node carries no feedback inverter of its own (pin `kb`).
 
 use super::expr::*;
-use super::{pins, Cell, CellKind, Dir::*, Expr, Role, Schematic, Sizes};
+use super::{
+    pins, taper_base, Cell, CellKind, ChainForm, Dir::*, Expr, Role, Schematic, Sizes, TAPER_DRIVES,
+};
 
 /// The transmission gate's controls no later than a chain cell's generate and kill controls
 /// (two gate delays from a and b): transmission-gate XOR and XNOR (common practice; Weste &
@@ -141,17 +143,19 @@ fn legal_static(g_on: Expr, k_on: Expr, p: Expr, pn: Expr) -> Expr {
 /// Static Manchester carry cell. `true_carry`: the node holds c (generate pulls up through a
 /// PMOS gated by gn, kill pulls down); otherwise the node holds ~c (generate pulls down, kill
 /// pulls up through a PMOS gated by kn). The transmission gate passes the previous node.
-pub fn chain_static(s: &Sizes, true_carry: bool) -> Cell {
+/// `level`: the drive of a tapered segment's cell ([`TAPER_DRIVES`]; 0 plain).
+pub fn chain_static(s: &Sizes, true_carry: bool, level: u8) -> Cell {
     let mut sch = Schematic::new(s);
+    let x = TAPER_DRIVES[level as usize];
     let (g_pin, k_pin) = if true_carry { ("gn", "k") } else { ("g", "kn") };
     if true_carry {
-        sch.p("g", "co", "gn", "vdd", s.generate, Role::Logic);
-        sch.n("k", "co", "k", "vss", s.generate, Role::Logic);
+        sch.p("g", "co", "gn", "vdd", s.generate * x, Role::Logic);
+        sch.n("k", "co", "k", "vss", s.generate * x, Role::Logic);
     } else {
-        sch.n("g", "co", "g", "vss", s.generate, Role::Logic);
-        sch.p("k", "co", "kn", "vdd", s.generate, Role::Logic);
+        sch.n("g", "co", "g", "vss", s.generate * x, Role::Logic);
+        sch.p("k", "co", "kn", "vdd", s.generate * x, Role::Logic);
     }
-    sch.tg("p", "ci", "co", "p", "pn", s.pass);
+    sch.tg("p", "ci", "co", "p", "pn", s.pass * x);
     let (ci, gx, kx, p, pn) = (v(0), v(1), v(2), v(3), v(4));
     // Where the gate passes (either device on) the node follows ci; otherwise the
     // generate/kill device sets it. Both forms reduce to ~(gx·kx) on their legal inputs.
@@ -165,17 +169,23 @@ pub fn chain_static(s: &Sizes, true_carry: bool) -> Cell {
     } else {
         legal_static(gx, not(kx), p, pn)
     };
+    let form = if true_carry {
+        ChainForm::True
+    } else {
+        ChainForm::Inverted
+    };
     Cell {
-        kind: if true_carry {
-            CellKind::ChainTrue
-        } else {
-            CellKind::ChainInverted
+        kind: form.at(level),
+        base: match (level, true_carry) {
+            (0, true) => "mcc_t",
+            (0, false) => "mcc_i",
+            _ => taper_base(form, level),
         },
-        base: if true_carry { "mcc_t" } else { "mcc_i" },
-        summary: if true_carry {
-            "static Manchester carry cell, node holds c"
-        } else {
-            "static Manchester carry cell, node holds ~c"
+        summary: match (level, true_carry) {
+            (0, true) => "static Manchester carry cell, node holds c",
+            (0, false) => "static Manchester carry cell, node holds ~c",
+            (_, true) => "static Manchester carry cell of a tapered chain, node holds c",
+            (_, false) => "static Manchester carry cell of a tapered chain, node holds ~c",
         },
         pins: pins(&[
             ("ci", In, true),
@@ -216,11 +226,14 @@ fn precharge_and_keeper(sch: &mut Schematic, node: &str, keeper: bool, footer: f
 
 /// Dynamic Manchester carry cell: the node holds ~c, precharged high while clk is low; in
 /// evaluate a generate discharges it through the footer, a propagate passes the previous node.
-pub fn chain_dynamic(s: &Sizes, keeper: bool) -> Cell {
+/// `level`: the drive of a tapered segment's cell ([`TAPER_DRIVES`]; 0 plain): pass, generate
+/// and footer widen, precharge and keeper stay.
+pub fn chain_dynamic(s: &Sizes, keeper: bool, level: u8) -> Cell {
     let mut sch = Schematic::new(s);
-    precharge_and_keeper(&mut sch, "co", keeper, PASS * s.generate);
-    sch.n("g", "co", "g", "f", PASS * s.generate, Role::Logic);
-    sch.n("p", "ci", "p", "co", PASS * s.pass, Role::Pass);
+    let x = TAPER_DRIVES[level as usize];
+    precharge_and_keeper(&mut sch, "co", keeper, PASS * s.generate * x);
+    sch.n("g", "co", "g", "f", PASS * s.generate * x, Role::Logic);
+    sch.n("p", "ci", "p", "co", PASS * s.pass * x, Role::Pass);
     let (clk, ci, g, p) = (v(0), v(1), v(2), v(3));
     let eval = not(or(vec![g.clone(), and(vec![p.clone(), not(ci)])]));
     let mut list = vec![
@@ -234,17 +247,23 @@ pub fn chain_dynamic(s: &Sizes, keeper: bool) -> Cell {
     }
     list.push(("co", Out, true));
     let co = list.len() - 1;
+    let form = if keeper {
+        ChainForm::DynamicKeeper
+    } else {
+        ChainForm::Dynamic
+    };
     Cell {
-        kind: if keeper {
-            CellKind::ChainDynamicKeeper
-        } else {
-            CellKind::ChainDynamic
+        kind: form.at(level),
+        base: match (level, keeper) {
+            (0, true) => "mcc_dk",
+            (0, false) => "mcc_d",
+            _ => taper_base(form, level),
         },
-        base: if keeper { "mcc_dk" } else { "mcc_d" },
-        summary: if keeper {
-            "dynamic Manchester carry cell with keeper"
-        } else {
-            "dynamic Manchester carry cell"
+        summary: match (level, keeper) {
+            (0, true) => "dynamic Manchester carry cell with keeper",
+            (0, false) => "dynamic Manchester carry cell",
+            (_, true) => "dynamic Manchester carry cell of a tapered chain, with keeper",
+            (_, false) => "dynamic Manchester carry cell of a tapered chain",
         },
         pins: pins(&list),
         logic: vec![(co, mux(clk, eval, Expr::Const(true)))],

@@ -55,10 +55,61 @@ pub enum CellKind {
     GreyX4,
     BlackX2,
     BlackX4,
+    /// A Manchester carry cell of a tapered segment: pass and generate devices (and the
+    /// footer, dynamic style) at `TAPER_DRIVES[level]` times their width (`level` 1 to 4;
+    /// level 0 is the plain cell). `arch::manchester::taper_levels` picks the levels.
+    ChainTapered(ChainForm, u8),
     /// Two-input AND (NAND2 and an inverter).
     And2,
     /// Two-way multiplexer y = s ? d1 : d0 (AOI22 with an inverter on s, output inverter).
     Mux2,
+}
+
+/// The four Manchester carry cells: static with the node holding ~c or c, dynamic without and
+/// with a keeper.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash, Serialize)]
+pub enum ChainForm {
+    Inverted,
+    True,
+    Dynamic,
+    DynamicKeeper,
+}
+
+impl ChainForm {
+    /// The plain (level 0) cell of this form.
+    pub fn plain(self) -> CellKind {
+        match self {
+            ChainForm::Inverted => CellKind::ChainInverted,
+            ChainForm::True => CellKind::ChainTrue,
+            ChainForm::Dynamic => CellKind::ChainDynamic,
+            ChainForm::DynamicKeeper => CellKind::ChainDynamicKeeper,
+        }
+    }
+    /// The cell of this form at a drive level (0: the plain cell).
+    pub fn at(self, level: u8) -> CellKind {
+        if level == 0 {
+            self.plain()
+        } else {
+            CellKind::ChainTapered(self, level.min(TAPER_DRIVES.len() as u8 - 1))
+        }
+    }
+}
+
+/// Width multipliers of a tapered chain's cells by level, in about half-octave steps (a
+/// segment's head carries the charge of every node after it, its tail only its own).
+pub const TAPER_DRIVES: [f64; 5] = [1.0, 1.5, 2.0, 3.0, 4.0];
+
+/// Cell names of the tapered chain cells: [form][level - 1].
+const TAPER_BASES: [[&str; 4]; 4] = [
+    ["mcc_i_x15", "mcc_i_x2", "mcc_i_x3", "mcc_i_x4"],
+    ["mcc_t_x15", "mcc_t_x2", "mcc_t_x3", "mcc_t_x4"],
+    ["mcc_d_x15", "mcc_d_x2", "mcc_d_x3", "mcc_d_x4"],
+    ["mcc_dk_x15", "mcc_dk_x2", "mcc_dk_x3", "mcc_dk_x4"],
+];
+
+/// The name of a chain cell of this form and level.
+pub fn taper_base(form: ChainForm, level: u8) -> &'static str {
+    TAPER_BASES[form as usize][level as usize - 1]
 }
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
@@ -431,10 +482,16 @@ impl Library {
             CellKind::PgInverted => manchester::pg_inverted(s),
             CellKind::PgTrue => manchester::pg_true(s),
             CellKind::Pg => manchester::pg(s),
-            CellKind::ChainInverted => manchester::chain_static(s, false),
-            CellKind::ChainTrue => manchester::chain_static(s, true),
-            CellKind::ChainDynamic => manchester::chain_dynamic(s, false),
-            CellKind::ChainDynamicKeeper => manchester::chain_dynamic(s, true),
+            CellKind::ChainInverted => manchester::chain_static(s, false, 0),
+            CellKind::ChainTrue => manchester::chain_static(s, true, 0),
+            CellKind::ChainDynamic => manchester::chain_dynamic(s, false, 0),
+            CellKind::ChainDynamicKeeper => manchester::chain_dynamic(s, true, 0),
+            CellKind::ChainTapered(form, level) => match form {
+                ChainForm::Inverted => manchester::chain_static(s, false, level),
+                ChainForm::True => manchester::chain_static(s, true, level),
+                ChainForm::Dynamic => manchester::chain_dynamic(s, false, level),
+                ChainForm::DynamicKeeper => manchester::chain_dynamic(s, true, level),
+            },
             CellKind::DynamicStart => manchester::dynamic_start(s, false),
             CellKind::DynamicStartKeeper => manchester::dynamic_start(s, true),
             CellKind::SumInverted => manchester::sum(s, false, false),
@@ -502,6 +559,10 @@ pub const ALL_KINDS: &[CellKind] = &[
     CellKind::GreyX4,
     CellKind::BlackX2,
     CellKind::BlackX4,
+    CellKind::ChainTapered(ChainForm::Inverted, 1),
+    CellKind::ChainTapered(ChainForm::True, 2),
+    CellKind::ChainTapered(ChainForm::Dynamic, 3),
+    CellKind::ChainTapered(ChainForm::DynamicKeeper, 4),
     CellKind::And2,
     CellKind::Mux2,
 ];

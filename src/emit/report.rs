@@ -85,12 +85,44 @@ pub fn table(spec: &Spec, design: &Design) -> String {
         if spec.style == Style::Dynamic {
             knobs.push_str(&format!(", precharge {}", z.precharge));
         }
+        if !crate::arch::manchester::chain_segments(spec).is_empty() {
+            knobs.push_str(&format!(", taper {}", z.taper));
+        }
         row(
             &mut out,
             "sizing: auto",
             format!(
                 "{knobs}; the engine's worst path {:.1} ps against {:.1} ps for the starting sizes, total width {:.1} um (limit {:.1}), largest input at most {:.2} fF; {} estimates",
                 a.worst_ps, a.default_worst_ps, a.width_um, a.width_limit_um, a.input_cap_limit_ff, a.evaluated
+            ),
+        );
+    }
+    if spec.sizing.taper > 1.0 {
+        // Each distinct segment length once, with its chain cells' drives from the head.
+        let mut lengths: Vec<usize> = crate::arch::manchester::chain_segments(spec)
+            .iter()
+            .map(|&(lo, hi)| hi - lo)
+            .collect();
+        lengths.sort_unstable();
+        lengths.dedup();
+        let per: Vec<String> = lengths
+            .iter()
+            .map(|&n| {
+                let drives: Vec<String> =
+                    crate::arch::manchester::taper_levels(n, spec.sizing.taper)
+                        .iter()
+                        .map(|&l| crate::spec::trim_num(crate::cells::TAPER_DRIVES[l as usize]))
+                        .collect();
+                format!("{n}-bit segment x{}", drives.join(" x"))
+            })
+            .collect();
+        row(
+            &mut out,
+            "chain taper",
+            format!(
+                "head/tail {}: pass and generate devices {}",
+                spec.sizing.taper,
+                per.join("; ")
             ),
         );
     }

@@ -4,8 +4,9 @@
 //! The knobs are the sizing keys a designer could set by hand: `unit_n` (every device),
 //! `pass` (carry-path pass devices and chain starts), `generate` (generate/kill devices and
 //! footers of chain cells), `output` (the output inverter of every sum), `buffer` (carry-path
-//! buffers and multiplexer outputs), `carry` (prefix cells, the full adder's carry half) and,
-//! in dynamic style, `precharge`. Starting from the
+//! buffers and multiplexer outputs), `carry` (prefix cells, the full adder's carry half), in
+//! dynamic style `precharge`, and on Manchester chains (manchester, carry-skip) `taper` (each
+//! segment's chain cells sized progressively, head over tail). Starting from the
 //! spec's own sizes (the defaults unless it sets some), each knob in turn is multiplied or
 //! divided by a step (1.5, then 1.25, then 1.1), and when that makes the design wider than
 //! its limit every device is shrunk (`unit_n`) back within it; a move is kept when the engine's worst path
@@ -20,11 +21,11 @@
 //!
 //! The chosen sizes are then estimated with the full search; if that is not faster than the
 //! starting sizes, the starting sizes stay. A coordinate (pattern) search over a handful of
-//! global multipliers: it finds a better point of this family, not the sizing optimum of
-//! every device (per-position sizing, tapering, is not searched).
+//! global multipliers and one taper ratio: it finds a better point of this family, not the
+//! sizing optimum of every device.
 
 use crate::error::Result;
-use crate::spec::{AutoSizing, Sizing, Spec, Style};
+use crate::spec::{Architecture, AutoSizing, Sizing, Spec, Style};
 use crate::timing::search::{estimate_with, Budget, Estimate};
 
 /// The search's figures for one sizing: worst path (ps), total width (µm), largest input
@@ -70,8 +71,16 @@ fn evaluate(spec: &Spec, sizing: &Sizing, budget: Budget) -> Result<(Point, Esti
     ))
 }
 
+/// Does the design have Manchester chains to taper?
+fn has_chains(spec: &Spec) -> bool {
+    matches!(
+        spec.architecture,
+        Architecture::Manchester | Architecture::CarrySkip
+    )
+}
+
 /// The knobs: (name, value).
-fn knobs(s: &Sizing, dynamic: bool) -> Vec<(&'static str, f64)> {
+fn knobs(s: &Sizing, dynamic: bool, chains: bool) -> Vec<(&'static str, f64)> {
     let mut v = vec![
         ("unit_n", s.unit_n),
         ("pass", s.pass),
@@ -82,6 +91,9 @@ fn knobs(s: &Sizing, dynamic: bool) -> Vec<(&'static str, f64)> {
     ];
     if dynamic {
         v.push(("precharge", s.precharge));
+    }
+    if chains {
+        v.push(("taper", s.taper));
     }
     v
 }
@@ -96,6 +108,7 @@ fn with_knob(s: &Sizing, name: &str, v: f64) -> Sizing {
         "buffer" => s.buffer = v,
         "precharge" => s.precharge = v,
         "carry" => s.carry = v,
+        "taper" => s.taper = v,
         _ => unreachable!("no knob {name}"),
     }
     s
@@ -106,6 +119,7 @@ fn range(name: &str, spec: &Spec) -> (f64, f64) {
     match name {
         "unit_n" => (spec.technology.w_min, 100.0),
         "buffer" => (1.0, 32.0),
+        "taper" => (1.0, 4.0),
         _ => (0.25, 16.0),
     }
 }
@@ -175,13 +189,14 @@ pub fn choose(spec: &Spec) -> std::result::Result<Sizing, String> {
             "the sizes that keep every input within input_cap ({input_limit:.2} fF) fail the keeper check or go below w_min; raise input_cap"
         ));
     }
-    let names: Vec<&str> = knobs(&best, dynamic).iter().map(|k| k.0).collect();
+    let chains = has_chains(spec);
+    let names: Vec<&str> = knobs(&best, dynamic, chains).iter().map(|k| k.0).collect();
     'search: for step in [1.5, 1.25, 1.1] {
         loop {
             let mut moved = false;
             for &name in &names {
                 let (lo, hi) = range(name, spec);
-                let v = knobs(&best, dynamic)
+                let v = knobs(&best, dynamic, chains)
                     .iter()
                     .find(|k| k.0 == name)
                     .expect("a knob")
@@ -234,7 +249,7 @@ pub fn choose(spec: &Spec) -> std::result::Result<Sizing, String> {
     };
     chosen.auto = Some(AutoSizing {
         rule: if keep {
-            "auto: pattern search over unit_n and the role multipliers on the timing engine's worst path, total width and largest input capacitance no more than the starting sizes' (or sizing.input_cap)"
+            "auto: pattern search over unit_n, the role multipliers and (Manchester chains) the taper on the timing engine's worst path, total width and largest input capacitance no more than the starting sizes' (or sizing.input_cap)"
         } else {
             "auto: the pattern search found nothing faster within the limits; the starting sizes stay"
         },
