@@ -132,7 +132,8 @@ pub fn technology() -> Value {
                     "lib": {"type": "array", "items": {"type": "object", "additionalProperties": false, "required": ["file", "section"], "properties": {"file": {"type": "string"}, "section": {"type": "string"}}}},
                     "device_prefix": {"type": "string"},
                     "size_suffix": {"type": "string"},
-                    "diffusion_um": {"type": "number"},
+                    "diffusion_um": {"type": "number", "minimum": 0.01, "maximum": 10, "description": "contacted diffusion length past the gate, um (device lines carry ad as pd ps)"},
+                    "diffusion_shared_um": {"type": "number", "minimum": 0.01, "maximum": 10, "description": "uncontacted diffusion between two gates in series, um (default: diffusion_um; needs it)"},
                     "conditions": conditions(),
                     "timing": timing
                 }

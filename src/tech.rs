@@ -97,11 +97,57 @@ pub struct DeviceSyntax {
     /// Written after W and L, which the tool holds in µm: `"u"` (`w=1u`) for devices that
     /// take metres, `""` (`w=1`) for devices that take µm (SKY130's subcircuits).
     pub size_suffix: String,
-    /// Source/drain diffusion length (µm) past the gate: when set, every device line carries
-    /// its diffusion areas and perimeters (`ad as pd ps`) for a device of its own (no shared
-    /// diffusion). None: the line gives none and the models decide (GF180MCU's BSIM4 cards
-    /// compute them from the width; SKY130's subcircuits would take zero).
-    pub diffusion_um: Option<f64>,
+    /// Source/drain diffusion extension: when set, every device line carries its diffusion
+    /// areas and perimeters (`ad as pd ps`), each channel end contacted or shared as
+    /// [`crate::cells::diffusion_ends`] finds it. None (a technology file without
+    /// `diffusion_um`): the lines give none and the models decide.
+    pub diffusion: Option<Diffusion>,
+}
+
+/// The diffusion a layout draws past a gate, µm: `contacted_um` from the gate edge to the
+/// diffusion's far edge over a contact (gate-to-contact space, contact, diffusion enclosure of
+/// the contact); `shared_um` between two gates in series with no contact between them (the
+/// poly-to-poly space). Technology-file keys `diffusion_um` and `diffusion_shared_um`.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct Diffusion {
+    pub contacted_um: f64,
+    pub shared_um: f64,
+}
+
+/// What one channel end (drain or source) of a device sits on.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum End {
+    /// A diffusion of its own with a contact: area W·e, perimeter 2(W + e).
+    Contacted,
+    /// Half of an uncontacted region of length s between this gate and the next one of a
+    /// series pair: area W·s/2, perimeter W + s (half the region's 2(W + s): its own gate
+    /// edge and half of each field edge), so the two halves add up to the whole region.
+    Shared,
+}
+
+/// Diffusion area (µm²) and perimeter (µm, the gate edge included, as BSIM's `permod = 1`
+/// reads PD and PS) of one channel end.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct Region {
+    pub area_um2: f64,
+    pub perim_um: f64,
+}
+
+impl Diffusion {
+    /// The region of one channel end of a device of width `w` µm.
+    pub fn region(&self, end: End, w: f64) -> Region {
+        match end {
+            End::Contacted => Region {
+                area_um2: w * self.contacted_um,
+                perim_um: 2.0 * (w + self.contacted_um),
+            },
+            End::Shared => Region {
+                area_um2: w * self.shared_um / 2.0,
+                perim_um: w + self.shared_um,
+            },
+        }
+    }
 }
 
 impl DeviceSyntax {
@@ -109,14 +155,14 @@ impl DeviceSyntax {
         DeviceSyntax {
             prefix: String::new(),
             size_suffix: "u".into(),
-            diffusion_um: None,
+            diffusion: None,
         }
     }
     pub fn subcircuit_um() -> DeviceSyntax {
         DeviceSyntax {
             prefix: "x".into(),
             size_suffix: String::new(),
-            diffusion_um: None,
+            diffusion: None,
         }
     }
 }
@@ -182,6 +228,26 @@ pub const GENERIC_MODELS: &str = "\
 .model cw_pch pmos level=1 vto=-0.7 kp=45u gamma=0.5 phi=0.8 lambda=0.06 tox=7.5n cgso=0.25n cgdo=0.25n cgbo=0.35n
 ";
 
+/// Diffusion extensions of the built-in technologies (µm; `carrywright describe` and the
+/// README list them). Generic: lambda rules of the MOSIS SCMOS kind at lambda = L/2 = 0.175 um
+/// (contact 2, contact to gate 2, active enclosure 1.5 -> 5.5 lambda; poly space 3 lambda; from
+/// memory). Its level-1 cards have no junction capacitance, so the geometry is printed but
+/// changes no delay.
+pub const GENERIC_DIFFUSION: Diffusion = Diffusion {
+    contacted_um: 0.96,
+    shared_um: 0.53,
+};
+/// GF180MCU 3.3 V: see `builtin`.
+pub const GF180_DIFFUSION: Diffusion = Diffusion {
+    contacted_um: 0.44,
+    shared_um: 0.24,
+};
+/// SKY130 1.8 V: see `builtin`.
+pub const SKY130_DIFFUSION: Diffusion = Diffusion {
+    contacted_um: 0.29,
+    shared_um: 0.21,
+};
+
 fn generic() -> Technology {
     let mut t = Technology {
         name: "generic".into(),
@@ -191,7 +257,10 @@ fn generic() -> Technology {
         w_min: 0.5,
         nmos: "cw_nch".into(),
         pmos: "cw_pch".into(),
-        device: DeviceSyntax::model(),
+        device: DeviceSyntax {
+            diffusion: Some(GENERIC_DIFFUSION),
+            ..DeviceSyntax::model()
+        },
         unit_n: 1.0,
         pn_ratio: 2.5,
         step: 20e-12,
@@ -307,7 +376,14 @@ pub fn builtin(name: &str, opts: &LoadOptions) -> Result<Technology> {
                 w_min: 0.22,
                 nmos: "nmos_3p3".into(),
                 pmos: "pmos_3p3".into(),
-                device: DeviceSyntax::model(),
+                // GF180MCU 3.3 V design rules (from memory): poly2 to contact 0.15 um, contact
+                // 0.22 um, COMP enclosure of contact 0.07 um -> 0.44 um contacted; poly2
+                // space 0.24 um between two gates. Without them the BSIM4 cards would take
+                // dmcg + dmci = 0.30 um for every end, shared or not.
+                device: DeviceSyntax {
+                    diffusion: Some(GF180_DIFFUSION),
+                    ..DeviceSyntax::model()
+                },
                 unit_n: 1.0,
                 pn_ratio: 2.0,
                 step: 20e-12,
@@ -335,11 +411,13 @@ pub fn builtin(name: &str, opts: &LoadOptions) -> Result<Technology> {
                 w_min: 0.42,
                 nmos: "sky130_fd_pr__nfet_01v8".into(),
                 pmos: "sky130_fd_pr__pfet_01v8".into(),
-                // A contacted diffusion 0.29 um long on each side (SKY130's usual netlist
-                // convention, common practice): without it the subcircuits take ad = pd = 0
-                // and the drains carry no junction capacitance.
+                // A contacted diffusion 0.29 um long (SKY130's usual netlist convention, common
+                // practice; licon-to-poly 0.055 + licon 0.17 + diff enclosure 0.06 um, from
+                // memory) and 0.21 um shared between two gates (poly space, from memory):
+                // without them the subcircuits take ad = pd = 0 and the drains carry no
+                // junction capacitance.
                 device: DeviceSyntax {
-                    diffusion_um: Some(0.29),
+                    diffusion: Some(SKY130_DIFFUSION),
                     ..DeviceSyntax::subcircuit_um()
                 },
                 unit_n: 1.0,
@@ -419,7 +497,8 @@ pub fn builtin(name: &str, opts: &LoadOptions) -> Result<Technology> {
 
 impl Technology {
     /// One transistor as a netlist line: `NAME D G S B DEVICE w=W l=L` with this
-    /// technology's prefix and size units (W and L given in µm).
+    /// technology's prefix and size units (W and L given in µm), and with a diffusion
+    /// extension `ad as pd ps` for the drain and source ends as `ends` (drain, source) says.
     #[allow(clippy::too_many_arguments)]
     pub fn device_line(
         &self,
@@ -431,6 +510,7 @@ impl Technology {
         pmos: bool,
         w: f64,
         l: f64,
+        ends: [End; 2],
     ) -> String {
         let model = if pmos { &self.pmos } else { &self.nmos };
         let u = &self.device.size_suffix;
@@ -441,12 +521,16 @@ impl Technology {
             n(w),
             n(l)
         );
-        if let Some(e) = self.device.diffusion_um {
+        if let Some(diff) = &self.device.diffusion {
             // Areas in µm² (p with metre units), perimeters in µm.
             let area_u = if u.is_empty() { "" } else { "p" };
-            let (a, p) = (n(w * e), n(2.0 * (w + e)));
+            let (dr, sr) = (diff.region(ends[0], w), diff.region(ends[1], w));
             line.push_str(&format!(
-                " ad={a}{area_u} as={a}{area_u} pd={p}{u} ps={p}{u}"
+                " ad={}{area_u} as={}{area_u} pd={}{u} ps={}{u}",
+                n(dr.area_um2),
+                n(sr.area_um2),
+                n(dr.perim_um),
+                n(sr.perim_um)
             ));
         }
         line
@@ -548,9 +632,12 @@ struct RawTech {
     /// `u` (default: W and L in metres with a micro suffix) or `none` (the devices take µm).
     #[serde(default)]
     size_suffix: Option<String>,
-    /// Diffusion length past the gate, µm (device lines then carry ad, as, pd, ps).
+    /// Contacted diffusion length past the gate, µm (device lines then carry ad, as, pd, ps).
     #[serde(default)]
     diffusion_um: Option<f64>,
+    /// Uncontacted diffusion between two gates in series, µm (default: `diffusion_um`).
+    #[serde(default)]
+    diffusion_shared_um: Option<f64>,
     #[serde(default)]
     conditions: Option<RawConditions>,
     #[serde(default)]
@@ -724,11 +811,22 @@ pub fn load_file(path: &Path, opts: &LoadOptions) -> Result<Technology> {
                 ))
             }
         },
-        diffusion_um: match raw.diffusion_um {
-            None => None,
-            Some(e) => {
+        diffusion: match (raw.diffusion_um, raw.diffusion_shared_um) {
+            (None, None) => None,
+            (None, Some(_)) => {
+                return Err(src.error(
+                    "diffusion_shared_um",
+                    "needs `diffusion_um` (the contacted length) as well",
+                ))
+            }
+            (Some(e), shared) => {
                 range("diffusion_um", e, 0.01, 10.0)?;
-                Some(e)
+                let s = shared.unwrap_or(e);
+                range("diffusion_shared_um", s, 0.01, 10.0)?;
+                Some(Diffusion {
+                    contacted_um: e,
+                    shared_um: s,
+                })
             }
         },
     };

@@ -1739,3 +1739,63 @@ fn verify_refuses_files_it_cannot_read_with_exit_2() {
     let e = one_error_line(&run);
     assert!(e.contains("no subcircuit named t8"), "{e}");
 }
+
+/// The diffusion keys of a technology file: in range they reach every device line (the
+/// shared length on a stack's inner node), out of range or `diffusion_shared_um` alone are
+/// refused with exit 2 naming the key.
+#[test]
+fn technology_file_diffusion_keys_are_read_and_checked() {
+    let sb = Sandbox::with_spec(&base_plus("technology: tech.yaml\n"));
+    sb.write("cards.lib", carrywright::tech::GENERIC_MODELS);
+    let cards = sb.path().join("cards.lib");
+    let tech = |extra: &str| {
+        format!(
+            "name: dt\nvdd: 3.3\nl_min: 0.35\nw_min: 0.5\nnmos: cw_nch\npmos: cw_pch\nunit_n: 1.0\npn_ratio: 2.5\ninclude: [\"{}\"]\n{extra}",
+            cards.display()
+        )
+    };
+    sb.write(
+        "tech.yaml",
+        &tech("diffusion_um: 0.5\ndiffusion_shared_um: 0.3\n"),
+    );
+    let run = sb.run(&["generate", "spec.yaml", "-o", "out"]);
+    assert_ok(&run);
+    let sp = String::from_utf8(sb.read("out/t8.sp")).unwrap();
+    let dev_lines: Vec<&str> = sp.lines().filter(|l| l.starts_with("mn_")).collect();
+    assert!(!dev_lines.is_empty(), "{sp}");
+    assert!(dev_lines.iter().all(|l| l.contains(" ad=")), "{sp}");
+    // W·e = 0.5 for a 1 µm contacted end; a shared end of a W µm device is W·0.3/2.
+    assert!(
+        dev_lines
+            .iter()
+            .any(|l| l.contains("w=1u ") && l.contains("ad=0.5p")),
+        "{sp}"
+    );
+    assert!(
+        dev_lines
+            .iter()
+            .any(|l| l.contains("=0.3p ") || l.contains("=0.15p ")),
+        "no shared end in\n{sp}"
+    );
+    for (extra, key, needle) in [
+        (
+            "diffusion_um: 0.5\ndiffusion_shared_um: 20\n",
+            "diffusion_shared_um",
+            "got 20",
+        ),
+        ("diffusion_um: 0\n", "diffusion_um", "got 0"),
+        (
+            "diffusion_shared_um: 0.3\n",
+            "diffusion_shared_um",
+            "needs `diffusion_um`",
+        ),
+    ] {
+        sb.write("tech.yaml", &tech(extra));
+        let run = sb.run(&["generate", "spec.yaml", "-o", "out2"]);
+        let err = one_error_line(&run);
+        assert_eq!(run.code, Some(2), "{}", run.describe());
+        assert!(err.contains(&format!("{key}: ")), "{}", run.describe());
+        assert!(err.contains(needle), "{}", run.describe());
+        assert!(err.contains("tech.yaml:"), "{}", run.describe());
+    }
+}

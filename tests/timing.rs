@@ -574,3 +574,96 @@ fn shared_stage_solves_change_nothing() {
         }
     }
 }
+
+/// Diffusion geometry (`cells::diffusion_ends`): the inner node of a grey cell's AOI21 NMOS
+/// stack (`gn_xn`: two NMOS channel ends, no gate, no pin) is one shared, uncontacted region,
+/// half to each device (W·s/2, W + s); the output inverter's drains are contacted (W·e,
+/// 2(W + e)). The SPICE text prints it and the engine's node capacitance takes the shared
+/// figure there and the contacted one elsewhere (generic: e = 0.96 µm, s = 0.53 µm).
+#[test]
+fn series_stack_shares_its_inner_diffusion_in_the_deck_and_the_engine() {
+    let s = spec_of("name: kd4\nwidth: 4\narchitecture: kogge-stone\ntestbench: {random: 2}\n");
+    let files = carrywright::generate(&s).unwrap().files;
+    let sp = &files.iter().find(|(n, _)| n == "kd4.sp").unwrap().1;
+    let grey: Vec<&str> = sp
+        .lines()
+        .skip_while(|l| !l.starts_with(".subckt kd4_grey "))
+        .take_while(|l| !l.starts_with(".ends"))
+        .collect();
+    let line = |name: &str| {
+        *grey
+            .iter()
+            .find(|l| l.starts_with(&format!("{name} ")))
+            .unwrap_or_else(|| panic!("no {name} in\n{}", grey.join("\n")))
+    };
+    // The stack (W = 2 µm): drain on the output (contacted), source on gn_xn (shared), and
+    // the reverse for the lower device.
+    assert!(
+        line("mn_gn_b").ends_with("w=2u l=0.35u ad=1.92p as=0.53p pd=5.92u ps=2.53u"),
+        "{}",
+        line("mn_gn_b")
+    );
+    assert!(
+        line("mn_gn_c").ends_with("w=2u l=0.35u ad=0.53p as=1.92p pd=2.53u ps=5.92u"),
+        "{}",
+        line("mn_gn_c")
+    );
+    // The inverter: both ends contacted.
+    assert!(
+        line("mn_g").ends_with("w=1u l=0.35u ad=0.96p as=0.96p pd=3.92u ps=3.92u"),
+        "{}",
+        line("mn_g")
+    );
+    assert!(
+        line("mp_g").ends_with("w=2.5u l=0.35u ad=2.4p as=2.4p pd=6.92u ps=6.92u"),
+        "{}",
+        line("mp_g")
+    );
+    // The engine: raise the shared figure alone, then the contacted one alone, and compare
+    // every node's capacitance with the untouched graph's.
+    let design = carrywright::build(&s).unwrap();
+    let tm = timing(&s);
+    let base = Graph::new(&s, &design, &tm).unwrap();
+    let delta = 1.0;
+    let mut shared = tm.clone();
+    shared.c_diff_shared_n_ff_um =
+        Some(tm.c_diff_ff_um(carrywright::cells::Mos::N, carrywright::tech::End::Shared) + delta);
+    let with_shared = Graph::new(&s, &design, &shared).unwrap();
+    let mut contacted = tm.clone();
+    contacted.c_diff_shared_n_ff_um =
+        Some(tm.c_diff_ff_um(carrywright::cells::Mos::N, carrywright::tech::End::Shared));
+    contacted.c_diff_n_ff_um += delta;
+    let with_contacted = Graph::new(&s, &design, &contacted).unwrap();
+    // The grey and black cells' leaves (their AOI21 has the stack).
+    let prefix_leaves: Vec<String> = design
+        .flatten()
+        .leaves
+        .iter()
+        .filter(|l| l.kind.prefix_drive().is_some())
+        .map(|l| format!("{}.", l.path))
+        .collect();
+    assert!(!prefix_leaves.is_empty());
+    let mut stacks = 0;
+    for (i, name) in base.names.iter().enumerate() {
+        if !prefix_leaves.iter().any(|p| name.starts_with(p.as_str())) {
+            continue;
+        }
+        let ds = with_shared.cap_ff[i] - base.cap_ff[i];
+        let dc = with_contacted.cap_ff[i] - base.cap_ff[i];
+        if name.ends_with(".gn_xn") {
+            // Two NMOS ends of W = 2 µm, both shared.
+            assert!((ds - 4.0 * delta).abs() < 1e-9, "{name}: {ds}");
+            assert!(dc.abs() < 1e-9, "{name}: {dc}");
+            stacks += 1;
+        } else if name.ends_with(".gn") {
+            // The AOI's output: NMOS drains of 1 and 2 µm, contacted.
+            assert!(ds.abs() < 1e-9, "{name}: {ds}");
+            assert!((dc - 3.0 * delta).abs() < 1e-9, "{name}: {dc}");
+        }
+    }
+    assert!(
+        stacks > 0,
+        "no grey cell stack node among {:?}",
+        &base.names[..base.names.len().min(40)]
+    );
+}

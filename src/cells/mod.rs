@@ -8,8 +8,9 @@ pub mod static_cmos;
 pub mod switch;
 
 use crate::spec::Sizing;
-use crate::tech::Technology;
+use crate::tech::{End, Technology};
 use serde::Serialize;
+use std::collections::{BTreeMap, BTreeSet};
 
 /// Every cell the generator can place. The order is the order cells are printed in.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash, Serialize)]
@@ -253,6 +254,19 @@ impl Cell {
         }
         read
     }
+    /// Each device's (drain, source) diffusion ends ([`diffusion_ends`] over the cell's
+    /// devices, with its pins and the rails outside). The SPICE view prints them, the timing
+    /// engine gives each end its capacitance from them.
+    pub fn diffusion_ends(&self) -> Vec<[End; 2]> {
+        let devs: Vec<(Mos, &str, &str, &str)> = self
+            .devices
+            .iter()
+            .map(|d| (d.mos, d.d.as_str(), d.g.as_str(), d.s.as_str()))
+            .collect();
+        diffusion_ends(&devs, &|n| {
+            n == "vdd" || n == "vss" || self.pins.iter().any(|p| p.name == n)
+        })
+    }
     pub fn inputs(&self) -> impl Iterator<Item = usize> + '_ {
         self.pins
             .iter()
@@ -260,6 +274,48 @@ impl Cell {
             .filter(|(_, p)| p.dir == Dir::In)
             .map(|(i, _)| i)
     }
+}
+
+/// The diffusion end (drain, source) of every device in a list of `(type, drain, gate,
+/// source)`: a node for which `outside` is false (internal to the cell: no pin, no rail) that
+/// joins exactly two channel ends, of two devices of the same type, and no gate, is the
+/// uncontacted diffusion a layout shares between two gates in series ([`End::Shared`], each
+/// device taking half); every other end is contacted. Computed once per cell (and per
+/// characterisation netlist) and read by every view.
+pub fn diffusion_ends(
+    devices: &[(Mos, &str, &str, &str)],
+    outside: &dyn Fn(&str) -> bool,
+) -> Vec<[End; 2]> {
+    // Per node: channel ends (device index, type), gates.
+    let mut ends: BTreeMap<&str, Vec<(usize, Mos)>> = BTreeMap::new();
+    let mut gated: BTreeSet<&str> = BTreeSet::new();
+    for (i, &(mos, d, g, s)) in devices.iter().enumerate() {
+        ends.entry(d).or_default().push((i, mos));
+        ends.entry(s).or_default().push((i, mos));
+        gated.insert(g);
+    }
+    let shared = |n: &str| -> bool {
+        if outside(n) || gated.contains(n) {
+            return false;
+        }
+        match ends.get(n).map(Vec::as_slice) {
+            Some([(i, a), (j, b)]) => i != j && a == b,
+            _ => false,
+        }
+    };
+    devices
+        .iter()
+        .map(|&(_, d, _, s)| {
+            let end = |n: &str| {
+                if shared(n) {
+                    End::Shared
+                } else {
+                    End::Contacted
+                }
+            };
+            [end(d), end(s)]
+        })
+        .collect()
 }
 
 /// Resolved device sizes for one design (µm).

@@ -9,6 +9,7 @@ use crate::cells::Mos;
 use crate::error::{Error, Result};
 use crate::netlist::{Design, Master};
 use crate::spec::{fmt_si, trim_num, Architecture, Spec, Style};
+use crate::tech::End;
 use crate::timing::search::Estimate;
 use serde::Serialize;
 
@@ -90,12 +91,13 @@ pub fn subcircuits(spec: &Spec, design: &Design) -> Result<String> {
             devices: c
                 .devices
                 .iter()
-                .map(|d| {
+                .zip(c.diffusion_ends())
+                .map(|(d, ends)| {
                     let (bulk, pmos) = match d.mos {
                         Mos::N => ("vss", false),
                         Mos::P => ("vdd", true),
                     };
-                    tech.device_line(&d.name, &d.d, &d.g, &d.s, bulk, pmos, d.w, d.l)
+                    tech.device_line(&d.name, &d.d, &d.g, &d.s, bulk, pmos, d.w, d.l, ends)
                 })
                 .collect(),
         })
@@ -806,6 +808,7 @@ pub fn deck(spec: &Spec, design: &Design, plan: &DeckPlan, netlist: &str) -> Res
                     false,
                     wn,
                     l,
+                    [End::Contacted; 2],
                 ));
                 driver_lines.push(tech.device_line(
                     &format!("mp_drv_{pin}_{i}"),
@@ -816,6 +819,7 @@ pub fn deck(spec: &Spec, design: &Design, plan: &DeckPlan, netlist: &str) -> Res
                     true,
                     (wn * spec.sizing.pn_ratio * 1000.0).round() / 1000.0,
                     l,
+                    [End::Contacted; 2],
                 ));
             }
         }

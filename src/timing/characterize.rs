@@ -17,16 +17,22 @@
 //! - Pass NMOS (gate at VDD) and transmission gate: an ideal source ramps one side, the
 //!   other side drives the swept load; the same fit.
 //! - Capacitances by charge: a source ramps the terminal 0 to VDD (VDD to 0 for PMOS) with the
-//!   other terminals at their rail; C = |∫ i dt| / VDD / W over 8 unit devices.
+//!   other terminals at their rail; C = |∫ i dt| / VDD / W over 8 unit devices. The drain
+//!   twice when the technology has a diffusion extension: a contacted end, and half of the
+//!   diffusion two gates in series share.
+//! - Diffusion geometry: every device line carries the extension's areas and perimeters,
+//!   each end contacted or shared by [`crate::cells::diffusion_ends`], the rule the cells'
+//!   SPICE view uses (a stack's inner nodes are shared).
 //! - Logical effort (Sutherland, Sproull & Harris 1999): for h = 1, 2, 3, 4, 6, 8 a chain of
 //!   inverters in which each drives h copies of itself; the third stage's mean of rise and
 //!   fall delay is fitted to d = τ·h + τ·p_inv. FO4 is that delay at h = 4 (measured, not
 //!   the fit); τ·(4 + p_inv) against it shows how straight the line is.
 
 use super::{At, Timing};
+use crate::cells::Mos;
 use crate::error::{Error, Result};
 use crate::spec::{printable, trim_num};
-use crate::tech::{Models, Technology};
+use crate::tech::{End, Models, Technology};
 use std::collections::BTreeMap;
 use std::fmt::Write as _;
 use std::path::Path;
@@ -91,26 +97,84 @@ pub fn fit_line(x: &[f64], y: &[f64]) -> Fit {
     }
 }
 
+/// One device of the characterisation netlist; `ends` forces its diffusion ends (the
+/// shared-drain charge circuits), else [`crate::cells::diffusion_ends`] decides.
+struct BenchDev {
+    name: String,
+    d: String,
+    g: String,
+    s: String,
+    pmos: bool,
+    w: f64,
+    ends: Option<[End; 2]>,
+}
+
 /// The characterisation netlist and the names of the measurements it prints.
 struct Bench {
     lines: Vec<String>,
+    devs: Vec<BenchDev>,
     meas: Vec<String>,
     w_n: f64,
     w_p: f64,
 }
 
 impl Bench {
-    #[allow(clippy::too_many_arguments)]
-    fn dev(&mut self, t: &Technology, name: &str, d: &str, g: &str, s: &str, pmos: bool, w: f64) {
-        let b = if pmos { "vdd" } else { "vss" };
-        let name = format!("{}_{name}", if pmos { "mp" } else { "mn" });
-        self.lines
-            .push(t.device_line(&name, d, g, s, b, pmos, w, t.l_min));
+    fn dev(&mut self, name: &str, d: &str, g: &str, s: &str, pmos: bool, w: f64) {
+        self.dev_ends(name, d, g, s, pmos, w, None);
     }
-    fn inv(&mut self, t: &Technology, name: &str, a: &str, y: &str) {
+    #[allow(clippy::too_many_arguments)]
+    fn dev_ends(
+        &mut self,
+        name: &str,
+        d: &str,
+        g: &str,
+        s: &str,
+        pmos: bool,
+        w: f64,
+        ends: Option<[End; 2]>,
+    ) {
+        self.devs.push(BenchDev {
+            name: format!("{}_{name}", if pmos { "mp" } else { "mn" }),
+            d: d.into(),
+            g: g.into(),
+            s: s.into(),
+            pmos,
+            w,
+            ends,
+        });
+    }
+    /// The device lines, each channel end contacted or shared by the rule the cells' SPICE
+    /// view uses (a stack's inner nodes are shared), nodes with a source or a load outside.
+    fn device_lines(&self, t: &Technology) -> Vec<String> {
+        let mut outside: std::collections::BTreeSet<&str> = ["vdd", "vss", "0"].into();
+        for l in &self.lines {
+            if l.starts_with('v') || l.starts_with('c') {
+                outside.extend(l.split_whitespace().skip(1).take(2));
+            }
+        }
+        let list: Vec<(Mos, &str, &str, &str)> = self
+            .devs
+            .iter()
+            .map(|d| {
+                let mos = if d.pmos { Mos::P } else { Mos::N };
+                (mos, d.d.as_str(), d.g.as_str(), d.s.as_str())
+            })
+            .collect();
+        let ends = crate::cells::diffusion_ends(&list, &|n| outside.contains(n));
+        self.devs
+            .iter()
+            .zip(ends)
+            .map(|(d, e)| {
+                let b = if d.pmos { "vdd" } else { "vss" };
+                let e = d.ends.unwrap_or(e);
+                t.device_line(&d.name, &d.d, &d.g, &d.s, b, d.pmos, d.w, t.l_min, e)
+            })
+            .collect()
+    }
+    fn inv(&mut self, name: &str, a: &str, y: &str) {
         let (wn, wp) = (self.w_n, self.w_p);
-        self.dev(t, name, y, a, "vss", false, wn);
-        self.dev(t, name, y, a, "vdd", true, wp);
+        self.dev(name, y, a, "vss", false, wn);
+        self.dev(name, y, a, "vdd", true, wp);
     }
     /// A stack of k equal devices from `out` to its rail, every gate on the input (`in` for
     /// NMOS, `inb` for PMOS), one opposite device setting the starting level, a load of
@@ -122,7 +186,6 @@ impl Bench {
             ("in", "vss", "vdd", self.w_n, self.w_p)
         };
         self.dev(
-            t,
             &format!("{out}_start"),
             out,
             input,
@@ -141,7 +204,6 @@ impl Bench {
         };
         for j in 0..k {
             self.dev(
-                t,
                 &format!("{out}_{j}"),
                 &node(j),
                 input,
@@ -202,6 +264,7 @@ fn bench(t: &Technology, model_lines: &[String]) -> Bench {
     let w_p = (t.unit_n * t.pn_ratio * 1000.0).round() / 1000.0;
     let mut b = Bench {
         lines: vec![format!("* carrywright characterisation of {}", t.name)],
+        devs: vec![],
         meas: vec![],
         w_n,
         w_p,
@@ -228,9 +291,9 @@ fn bench(t: &Technology, model_lines: &[String]) -> Bench {
         for kind in ["pn", "tg"] {
             for (edge, src) in [("f", "inb"), ("r", "in")] {
                 let out = format!("{kind}{edge}_{li}");
-                b.dev(t, &out, &out, "vdd", src, false, w_n);
+                b.dev(&out, &out, "vdd", src, false, w_n);
                 if kind == "tg" {
-                    b.dev(t, &out, &out, "vss", src, true, w_p);
+                    b.dev(&out, &out, "vss", src, true, w_p);
                 }
                 b.lines.push(format!("c{out} {out} 0 {}f", trim_num(*c)));
                 let e = if edge == "f" { "fall" } else { "rise" };
@@ -243,13 +306,12 @@ fn bench(t: &Technology, model_lines: &[String]) -> Bench {
     for n in LADDERS {
         for (edge, input) in [("f", "in"), ("r", "inb")] {
             let node = |j: usize| format!("lad{n}{edge}_{j}");
-            b.inv(t, &format!("lad{n}{edge}_drv"), input, &node(0));
+            b.inv(&format!("lad{n}{edge}_drv"), input, &node(0));
             for j in 1..=n {
                 let tg = format!("lad{n}{edge}_tg{j}");
-                b.dev(t, &tg, &node(j - 1), "vdd", &node(j), false, w_n);
-                b.dev(t, &tg, &node(j - 1), "vss", &node(j), true, w_p);
+                b.dev(&tg, &node(j - 1), "vdd", &node(j), false, w_n);
+                b.dev(&tg, &node(j - 1), "vss", &node(j), true, w_p);
                 b.inv(
-                    t,
                     &format!("lad{n}{edge}_rd{j}"),
                     &node(j),
                     &format!("{}_y", node(j)),
@@ -270,11 +332,10 @@ fn bench(t: &Technology, model_lines: &[String]) -> Bench {
     // rising input turns off, and read by an inverter.
     for n in LADDERS {
         let node = |j: usize| format!("plad{n}_{j}");
-        b.inv(t, &format!("plad{n}_drv"), "in", &node(0));
+        b.inv(&format!("plad{n}_drv"), "in", &node(0));
         let w_n = b.w_n;
         for j in 1..=n {
             b.dev(
-                t,
                 &format!("plad{n}_p{j}"),
                 &node(j - 1),
                 "vdd",
@@ -282,17 +343,8 @@ fn bench(t: &Technology, model_lines: &[String]) -> Bench {
                 false,
                 w_n,
             );
-            b.dev(
-                t,
-                &format!("plad{n}_pre{j}"),
-                &node(j),
-                "in",
-                "vdd",
-                true,
-                w_n,
-            );
+            b.dev(&format!("plad{n}_pre{j}"), &node(j), "in", "vdd", true, w_n);
             b.inv(
-                t,
                 &format!("plad{n}_rd{j}"),
                 &node(j),
                 &format!("{}_y", node(j)),
@@ -309,24 +361,37 @@ fn bench(t: &Technology, model_lines: &[String]) -> Bench {
             );
         }
     }
-    // Charge: gate (N from 0 up, P from VDD down) and drain of an off device.
-    let sources = [
-        ("qgn", "in", false, true),
-        ("qgp", "inb", true, true),
-        ("qdn", "in", false, false),
-        ("qdp", "inb", true, false),
+    // Charge: gate (N from 0 up, P from VDD down) and drain of an off device, the drain a
+    // contacted end (an isolated device) and, with a diffusion extension, half of a shared
+    // one (the inner node of a series pair).
+    let mut sources = vec![
+        ("qgn", "in", false, None),
+        ("qgp", "inb", true, None),
+        ("qdn", "in", false, Some(End::Contacted)),
+        ("qdp", "inb", true, Some(End::Contacted)),
     ];
-    for (q, shape, pmos, gate) in sources {
+    if t.device.diffusion.is_some() {
+        sources.push(("qsn", "in", false, Some(End::Shared)));
+        sources.push(("qsp", "inb", true, Some(End::Shared)));
+    }
+    for (q, shape, pmos, drain) in sources {
         let node = format!("{q}_node");
         b.lines
             .push(format!("v{q} {node} 0 {}", pwl(vdd, shape == "in", t.slew)));
         let rail = if pmos { "vdd" } else { "vss" };
         for j in 0..CHARGE_DEVICES {
             let w = w_n;
-            if gate {
-                b.dev(t, &format!("{q}{j}"), rail, &node, rail, pmos, w);
-            } else {
-                b.dev(t, &format!("{q}{j}"), &node, rail, rail, pmos, w);
+            match drain {
+                None => b.dev(&format!("{q}{j}"), rail, &node, rail, pmos, w),
+                Some(end) => b.dev_ends(
+                    &format!("{q}{j}"),
+                    &node,
+                    rail,
+                    rail,
+                    pmos,
+                    w,
+                    Some([end, End::Contacted]),
+                ),
             }
         }
         b.meas.push(format!(
@@ -340,7 +405,6 @@ fn bench(t: &Technology, model_lines: &[String]) -> Bench {
     // at VDD through a source the current is read from.
     b.lines.push(format!("vlk lk_d 0 {}", trim_num(vdd)));
     b.dev(
-        t,
         "lk",
         "lk_d",
         "vss",
@@ -361,11 +425,10 @@ fn bench(t: &Technology, model_lines: &[String]) -> Bench {
         let mut prev = "in".to_string();
         for st in 1..=5 {
             let next = format!("le{hi}_{st}");
-            b.inv(t, &format!("le{hi}_{st}"), &prev, &next);
+            b.inv(&format!("le{hi}_{st}"), &prev, &next);
             if st > 1 {
                 for j in 1..(*h as usize) {
                     b.inv(
-                        t,
                         &format!("le{hi}_{st}_ld{j}"),
                         &prev,
                         &format!("le{hi}_{st}_z{j}"),
@@ -385,7 +448,7 @@ fn bench(t: &Technology, model_lines: &[String]) -> Bench {
 /// The deck ngspice runs (a plain netlist with a control block).
 fn deck_text(t: &Technology, b: &Bench) -> String {
     let mut s = String::new();
-    for l in &b.lines {
+    for l in b.lines.iter().chain(&b.device_lines(t)) {
         let _ = writeln!(s, "{l}");
     }
     let _ = writeln!(s, ".temp {}", trim_num(t.temp));
@@ -601,6 +664,16 @@ fn fit_all(
         c_gate_p_ff_um: r4(cgp),
         c_diff_n_ff_um: r4(cdn),
         c_diff_p_ff_um: r4(cdp),
+        c_diff_shared_n_ff_um: if t.device.diffusion.is_some() {
+            Some(r4(per_um("qsn")?))
+        } else {
+            None
+        },
+        c_diff_shared_p_ff_um: if t.device.diffusion.is_some() {
+            Some(r4(per_um("qsp")?))
+        } else {
+            None
+        },
         fo4_ps: r4(fo4),
         tau_ps: r4(le.slope),
         p_inv: r4(le.intercept / le.slope),
@@ -751,6 +824,10 @@ fn render_yaml(t: &Technology, tm: &Timing, fits: &BTreeMap<String, Fit>) -> Str
     let _ = writeln!(w, "#   and PMOS W_p in parallel, per um of NMOS width.");
     let _ = writeln!(w, "# Capacitances by charge: |integral of i dt| / VDD / W over {CHARGE_DEVICES} devices of W_n; gate: gate ramped");
     let _ = writeln!(w, "#   over the full swing, drain, source and bulk at the rail; drain: drain ramped, device off.");
+    if let Some(d) = &t.device.diffusion {
+        let _ = writeln!(w, "# Diffusion: {} um contacted past the gate (area W e, perimeter 2 (W + e)); {} um shared between", num(d.contacted_um), num(d.shared_um));
+        let _ = writeln!(w, "#   two gates in series (each device W s / 2 and W + s), as the generated decks draw them.");
+    }
     let _ = writeln!(
         w,
         "# Logical effort (Sutherland, Sproull & Harris 1999): for h = {} a chain of inverters",
@@ -851,6 +928,14 @@ fn render_yaml(t: &Technology, tm: &Timing, fits: &BTreeMap<String, Fit>) -> Str
     let _ = writeln!(w, "  c_gate_p_ff_um: {}", num(tm.c_gate_p_ff_um));
     let _ = writeln!(w, "  c_diff_n_ff_um: {}", num(tm.c_diff_n_ff_um));
     let _ = writeln!(w, "  c_diff_p_ff_um: {}", num(tm.c_diff_p_ff_um));
+    if let (Some(n), Some(p)) = (tm.c_diff_shared_n_ff_um, tm.c_diff_shared_p_ff_um) {
+        let _ = writeln!(
+            w,
+            "  # a drain on half of the diffusion two gates in series share (no contact)"
+        );
+        let _ = writeln!(w, "  c_diff_shared_n_ff_um: {}", num(n));
+        let _ = writeln!(w, "  c_diff_shared_p_ff_um: {}", num(p));
+    }
     let _ = writeln!(w, "  fo4_ps: {}", num(tm.fo4_ps));
     let _ = writeln!(w, "  tau_ps: {}", num(tm.tau_ps));
     let _ = writeln!(w, "  p_inv: {}", num(tm.p_inv));
@@ -891,8 +976,9 @@ fn file_keys(w: &mut String, t: &Technology) {
             "u"
         }
     );
-    if let Some(e) = t.device.diffusion_um {
-        let _ = writeln!(w, "diffusion_um: {}", num(e));
+    if let Some(e) = &t.device.diffusion {
+        let _ = writeln!(w, "diffusion_um: {}", num(e.contacted_um));
+        let _ = writeln!(w, "diffusion_shared_um: {}", num(e.shared_um));
     }
     if let Models::Files { include, lib, .. } = &t.models {
         let inc: Vec<String> = include.iter().map(|f| path(&f.deck)).collect();

@@ -23,12 +23,13 @@
 //!   traces back to its input: the critical path with each stage's share.
 
 use super::Timing;
-use crate::cells::{Dir, Mos, Role};
+use crate::cells::{CellKind, Dir, Mos, Role};
 use crate::error::{Error, Result};
 use crate::netlist::Design;
 use crate::spec::Spec;
+use crate::tech::End;
 use std::cmp::Ordering;
-use std::collections::{BinaryHeap, HashMap, VecDeque};
+use std::collections::{BTreeMap, BinaryHeap, HashMap, VecDeque};
 
 /// Step response 50 % point of a single pole, in time constants (ln 2; Rabaey et al. §6.2.3).
 pub const LN2: f64 = 0.69;
@@ -257,9 +258,17 @@ impl Graph {
         }
         let mut devs: Vec<Dev> = vec![];
         let mut leaf_paths = vec![];
+        // Each cell's diffusion ends, as the SPICE view prints them.
+        let ends_of: BTreeMap<CellKind, Vec<[End; 2]>> = design
+            .cells
+            .iter()
+            .map(|(k, c)| (*k, c.diffusion_ends()))
+            .collect();
+        let mut dev_ends: Vec<[End; 2]> = vec![];
         for (li, leaf) in flat.leaves.iter().enumerate() {
             leaf_paths.push(leaf.path.clone());
             let cell = &design.cells[&leaf.kind];
+            dev_ends.extend(ends_of[&leaf.kind].iter().copied());
             let mut nodes = flat.leaf_nodes(design, li, vss, vdd);
             let first = devs.len();
             for d in &cell.devices {
@@ -304,16 +313,17 @@ impl Graph {
         let is_source = |k: NodeKind| !matches!(k, NodeKind::Inner);
         // Capacitance of every node, fF.
         let mut cap_ff = vec![0.0; n];
-        for d in &devs {
-            let (cg, cd) = match d.mos {
-                Mos::N => (tm.c_gate_n_ff_um, tm.c_diff_n_ff_um),
-                Mos::P => (tm.c_gate_p_ff_um, tm.c_diff_p_ff_um),
+        debug_assert_eq!(devs.len(), dev_ends.len());
+        for (d, ends) in devs.iter().zip(&dev_ends) {
+            let cg = match d.mos {
+                Mos::N => tm.c_gate_n_ff_um,
+                Mos::P => tm.c_gate_p_ff_um,
             };
             // Gate capacitance grows with the channel's area (characterised at the minimum
-            // length), diffusion with the width alone.
+            // length), diffusion with the width alone, per end as contacted or shared.
             cap_ff[d.g as usize] += cg * d.w * d.l / spec.technology.l_min;
-            cap_ff[d.a as usize] += cd * d.w;
-            cap_ff[d.b as usize] += cd * d.w;
+            cap_ff[d.a as usize] += tm.c_diff_ff_um(d.mos, ends[0]) * d.w;
+            cap_ff[d.b as usize] += tm.c_diff_ff_um(d.mos, ends[1]) * d.w;
         }
         for &o in &outputs {
             cap_ff[o as usize] += spec.testbench.load * 1e15;

@@ -45,6 +45,13 @@ pub struct Timing {
     /// over a full drain swing), fF/µm.
     pub c_diff_n_ff_um: f64,
     pub c_diff_p_ff_um: f64,
+    /// The same for a drain on half of a diffusion shared between two gates in series
+    /// ([`crate::tech::End::Shared`]), fF/µm. Absent (older files, technologies without a
+    /// diffusion extension): the contacted figure stands in.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub c_diff_shared_n_ff_um: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub c_diff_shared_p_ff_um: Option<f64>,
     /// Fan-out-of-4 inverter delay in a chain of FO4 inverters (mean of rise and fall), ps.
     pub fo4_ps: f64,
     /// Logical effort's τ (slope of inverter delay against electrical fan-out), ps, and the
@@ -88,6 +95,18 @@ pub struct At {
 }
 
 impl Timing {
+    /// Diffusion capacitance of one channel end of a device, fF per µm of its width.
+    pub fn c_diff_ff_um(&self, mos: crate::cells::Mos, end: crate::tech::End) -> f64 {
+        use crate::cells::Mos;
+        use crate::tech::End;
+        match (mos, end) {
+            (Mos::N, End::Contacted) => self.c_diff_n_ff_um,
+            (Mos::P, End::Contacted) => self.c_diff_p_ff_um,
+            (Mos::N, End::Shared) => self.c_diff_shared_n_ff_um.unwrap_or(self.c_diff_n_ff_um),
+            (Mos::P, End::Shared) => self.c_diff_shared_p_ff_um.unwrap_or(self.c_diff_p_ff_um),
+        }
+    }
+
     /// These values were characterised at the technology's present conditions.
     pub fn matches(&self, t: &Technology) -> bool {
         self.at.corner == t.corner
@@ -121,6 +140,12 @@ impl Timing {
         }
         if let Some(v) = self.r_pass_ladder_fall_kohm_um {
             named.push(("r_pass_ladder_fall_kohm_um", v));
+        }
+        if let Some(v) = self.c_diff_shared_n_ff_um {
+            named.push(("c_diff_shared_n_ff_um", v));
+        }
+        if let Some(v) = self.c_diff_shared_p_ff_um {
+            named.push(("c_diff_shared_p_ff_um", v));
         }
         if let Some(v) = self.pass_ladder_visible {
             if !(0.0..=1.0).contains(&v) {
