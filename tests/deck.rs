@@ -175,7 +175,9 @@ fn deck_finds_the_models_when_it_runs() {
         Some(models.clone()),
     );
     let deck = dir.path().join("out/m4_tb.sp");
+    // Run in the test's folder: the deck writes m4_path.dat where it runs.
     let o = Command::new("ngspice")
+        .current_dir(dir.path())
         .arg("-b")
         .arg(&deck)
         .env_remove("CARRYWRIGHT_MODEL_DIR")
@@ -186,6 +188,7 @@ fn deck_finds_the_models_when_it_runs() {
     assert!(log.contains("FAIL models"), "{log}");
     let define = format!("cw_models={}", models.display());
     let o = Command::new("ngspice")
+        .current_dir(dir.path())
         .args(["-D", &define, "-b"])
         .arg(&deck)
         .env_remove("CARRYWRIGHT_MODEL_DIR")
@@ -472,6 +475,7 @@ fn late_carry_is_a_failed_measurement() {
     );
     let out = dir.path().join("out");
     let o = Command::new("ngspice")
+        .current_dir(&out)
         .arg("-b")
         .arg(out.join("late16_tb.sp"))
         .output()
