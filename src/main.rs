@@ -890,6 +890,11 @@ fn usage_error(e: &clap::Error, args: &[std::ffi::OsString]) -> String {
 }
 
 fn main() -> ExitCode {
+    // Worker threads never take SIGINT/SIGTERM/SIGHUP: the main thread does, so a deferred
+    // write sees them at its next step (output::block_deferred_signals).
+    let _ = rayon::ThreadPoolBuilder::new()
+        .start_handler(|_| carrywright::output::block_deferred_signals())
+        .build_global();
     let args: Vec<std::ffi::OsString> = std::env::args_os().collect();
     let cli = match Cli::try_parse_from(&args) {
         Ok(cli) => cli,

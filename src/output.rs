@@ -607,6 +607,22 @@ fn interrupted(sig: i32, dir: &Path) -> Error {
     )
 }
 
+/// Block the deferred signals (SIGINT, SIGTERM, SIGHUP) in the calling thread. The CLI calls
+/// it in every worker thread it starts, so only the thread that writes takes them: a signal
+/// taken by a worker could otherwise run its handler after the write's steps had looked, or
+/// after `restore`, and end the process mid-write.
+pub fn block_deferred_signals() {
+    // SAFETY: a plain pthread_sigmask on a zero-initialised, filled-in set.
+    unsafe {
+        let mut set: libc::sigset_t = std::mem::zeroed();
+        libc::sigemptyset(&mut set);
+        for sig in DEFERRED {
+            libc::sigaddset(&mut set, sig);
+        }
+        libc::pthread_sigmask(libc::SIG_BLOCK, &set, std::ptr::null_mut());
+    }
+}
+
 /// SIGINT, SIGTERM and SIGHUP noted instead of acted on, until `restore`.
 struct Signals {
     old: Vec<(libc::c_int, libc::sigaction)>,
