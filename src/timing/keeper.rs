@@ -286,20 +286,10 @@ pub fn check(spec: &Spec, design: &Design) -> Result<Option<Report>> {
 /// runs from one buffer (a domino boundary) to the next, a dynamic carry-skip chain restarts
 /// at every block. Empty for other designs.
 pub fn dynamic_chains(spec: &Spec) -> Vec<(usize, usize)> {
-    use crate::spec::Architecture;
     if spec.style != Style::Dynamic {
         return vec![];
     }
-    match spec.architecture {
-        Architecture::Manchester => {
-            let mut cuts = vec![0];
-            cuts.extend(spec.buffers.positions.iter().copied());
-            cuts.push(spec.width);
-            cuts.windows(2).map(|w| (w[0], w[1])).collect()
-        }
-        Architecture::CarrySkip => spec.block_ranges(),
-        _ => vec![],
-    }
+    crate::arch::manchester::chain_segments(spec)
 }
 
 /// Does one unbroken dynamic chain of `len` bits, built as `spec` builds its chains (same
