@@ -6,7 +6,7 @@
 //! engine, the worst of the hard transitions (cin, a0 and b0 toggled with every other bit
 //! propagating, both edges) measured in ngspice, which the engine's worst path must not fall
 //! more than 10 % below. A CI test asserts a looser bound (20 %) on a few small designs; the
-//! ignored `accuracy_benchmark` runs the whole table (about 90 minutes of ngspice) and writes
+//! ignored `accuracy_benchmark` runs the whole table (about 30 minutes of ngspice) and writes
 //! `target/accuracy.md`.
 //!
 //! One ngspice at a time, one thread each (`set num_threads=1`, EDA-RECIPES: Debian's ngspice
@@ -833,7 +833,8 @@ fn median(mut v: Vec<f64>) -> f64 {
 /// device count), so SKY130 runs every 8- and 16-bit design (all 11 architectures) and two at
 /// 32 bits (the dynamic Manchester chain and the carry-skip adder). Measured (2026-12-02, one
 /// ngspice on a shared two-core machine): with la32, sl32 and bk64 on SKY130 as well, 86
-/// minutes of ngspice CPU in all, GF180 13, SKY130 73 of which bk64 alone took 27.
+/// minutes of ngspice CPU in all, GF180 13, SKY130 73 of which bk64 alone took 27. With this
+/// list (2026-12-02): GF180 7.0 minutes, SKY130 22.5.
 /// CARRYWRIGHT_ACCURACY_ONLY / CARRYWRIGHT_ACCURACY_TECH run a part.
 const DESIGNS: &[(Dut, bool)] = &[
     (dut("rc8", 8, "ripple", "static", None, "none"), true),
@@ -937,13 +938,13 @@ fn selection() -> (Option<Vec<String>>, Option<String>) {
     (only, std::env::var("CARRYWRIGHT_ACCURACY_TECH").ok())
 }
 
-/// The table of issue 7 §5 (not run by default: about 90 minutes of ngspice on one core).
+/// The table of issue 7 §5 (not run by default: about 30 minutes of ngspice on one core).
 /// `cargo test --release --test accuracy -- --ignored --nocapture accuracy_benchmark`;
 /// CARRYWRIGHT_ACCURACY_ONLY=rc8,ks32 runs only those designs, CARRYWRIGHT_ACCURACY_TECH=sky130-1v8
 /// only that technology, CARRYWRIGHT_ACCURACY_KEEP=1 keeps the decks and logs in
 /// target/accuracy-decks/.
 #[test]
-#[ignore = "a benchmark, not a check: 90 minutes of ngspice over 24 designs, 2 technologies, 2 loads (cargo test --release --test accuracy -- --ignored --nocapture accuracy_benchmark)"]
+#[ignore = "a benchmark, not a check: about 30 minutes of ngspice over 24 designs, 2 technologies, 2 loads (cargo test --release --test accuracy -- --ignored --nocapture accuracy_benchmark)"]
 fn accuracy_benchmark() {
     if !common::tools(&["ngspice"]) {
         return;

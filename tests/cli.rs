@@ -1799,3 +1799,34 @@ fn technology_file_diffusion_keys_are_read_and_checked() {
         assert!(err.contains("tech.yaml:"), "{}", run.describe());
     }
 }
+
+/// NAME.json's `spec_hash` says it covers the technology's values: two technology files that
+/// differ only in the diffusion geometry (the deck's `ad as pd ps` differ) hash apart, and the
+/// same file again hashes alike.
+#[test]
+fn spec_hash_covers_the_technology_files_diffusion_geometry() {
+    let sb = Sandbox::with_spec(&base_plus("technology: tech.yaml\n"));
+    sb.write("cards.lib", carrywright::tech::GENERIC_MODELS);
+    let cards = sb.path().join("cards.lib");
+    let hash_with = |extra: &str, out: &str| -> String {
+        sb.write(
+            "tech.yaml",
+            &format!(
+                "name: dt\nvdd: 3.3\nl_min: 0.35\nw_min: 0.5\nnmos: cw_nch\npmos: cw_pch\nunit_n: 1.0\npn_ratio: 2.5\ninclude: [\"{}\"]\n{extra}",
+                cards.display()
+            ),
+        );
+        let run = sb.run(&["generate", "spec.yaml", "-o", out]);
+        assert_ok(&run);
+        let v: serde_json::Value =
+            serde_json::from_slice(&sb.read(&format!("{out}/t8.json"))).unwrap();
+        v["spec_hash"].as_str().unwrap().to_string()
+    };
+    let a = hash_with("diffusion_um: 0.5\ndiffusion_shared_um: 0.3\n", "o1");
+    let b = hash_with("diffusion_um: 0.6\ndiffusion_shared_um: 0.3\n", "o2");
+    let none = hash_with("", "o3");
+    let again = hash_with("diffusion_um: 0.5\ndiffusion_shared_um: 0.3\n", "o4");
+    assert_ne!(a, b, "diffusion_um not in the hash");
+    assert_ne!(a, none, "the diffusion extension not in the hash");
+    assert_eq!(a, again);
+}

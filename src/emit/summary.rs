@@ -316,7 +316,7 @@ pub fn round_floats(v: &mut serde_json::Value, digits: usize) {
 }
 
 /// What `spec_hash` covers, as said in `NAME.json`.
-pub const SPEC_HASH_COVERS: &str = "sha256 of the validated spec as the tool resolved it (name, width, architecture, style, block and block sizes, buffer positions, sizing, testbench, and the technology's values, corner, temperature and supply included, except where its model files are; numbers to 12 significant digits), whatever the YAML's formatting";
+pub const SPEC_HASH_COVERS: &str = "sha256 of the validated spec as the tool resolved it (name, width, architecture, style, block and block sizes, buffer positions, sizing, testbench, and the technology's values, corner, temperature and supply, device syntax, diffusion geometry and characterised timing included, except where its model files are; numbers to 12 significant digits), whatever the YAML's formatting";
 
 /// SHA-256 of a canonical form of the validated spec: the resolved values (defaults filled
 /// in, quantities in SI units, floats to 12 significant digits so that `10f` and `1e-14` are
@@ -327,7 +327,7 @@ pub fn spec_hash(spec: &Spec) -> String {
     use sha2::{Digest, Sha256};
     let t = &spec.technology;
     let mut canonical = serde_json::json!({
-        "form": "carrywright spec hash 1",
+        "form": "carrywright spec hash 2",
         "name": spec.name,
         "width": spec.width,
         "architecture": spec.architecture,
@@ -353,6 +353,10 @@ pub fn spec_hash(spec: &Spec) -> String {
             "step": t.step,
             "slew": t.slew,
             "origin": t.origin,
+            // How device lines are written (prefix, size unit, diffusion geometry) and the
+            // characterised timing: both change the deck or the estimate.
+            "device": t.device,
+            "timing": t.timing,
         },
     });
     round_floats(&mut canonical, 12);
