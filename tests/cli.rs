@@ -1740,6 +1740,15 @@ fn verify_refuses_files_it_cannot_read_with_exit_2() {
     assert!(e.contains("no subcircuit named t8"), "{e}");
 }
 
+/// A technology file on the embedded generic model cards (written to `cards`), with `extra`
+/// keys appended.
+fn generic_tech_file(cards: &std::path::Path, extra: &str) -> String {
+    format!(
+        "name: dt\nvdd: 3.3\nl_min: 0.35\nw_min: 0.5\nnmos: cw_nch\npmos: cw_pch\nunit_n: 1.0\npn_ratio: 2.5\ninclude: [\"{}\"]\n{extra}",
+        cards.display()
+    )
+}
+
 /// The diffusion keys of a technology file: in range they reach every device line (the
 /// shared length on a stack's inner node), out of range or `diffusion_shared_um` alone are
 /// refused with exit 2 naming the key.
@@ -1748,12 +1757,7 @@ fn technology_file_diffusion_keys_are_read_and_checked() {
     let sb = Sandbox::with_spec(&base_plus("technology: tech.yaml\n"));
     sb.write("cards.lib", carrywright::tech::GENERIC_MODELS);
     let cards = sb.path().join("cards.lib");
-    let tech = |extra: &str| {
-        format!(
-            "name: dt\nvdd: 3.3\nl_min: 0.35\nw_min: 0.5\nnmos: cw_nch\npmos: cw_pch\nunit_n: 1.0\npn_ratio: 2.5\ninclude: [\"{}\"]\n{extra}",
-            cards.display()
-        )
-    };
+    let tech = |extra: &str| generic_tech_file(&cards, extra);
     sb.write(
         "tech.yaml",
         &tech("diffusion_um: 0.5\ndiffusion_shared_um: 0.3\n"),
@@ -1809,13 +1813,7 @@ fn spec_hash_covers_the_technology_files_diffusion_geometry() {
     sb.write("cards.lib", carrywright::tech::GENERIC_MODELS);
     let cards = sb.path().join("cards.lib");
     let hash_with = |extra: &str, out: &str| -> String {
-        sb.write(
-            "tech.yaml",
-            &format!(
-                "name: dt\nvdd: 3.3\nl_min: 0.35\nw_min: 0.5\nnmos: cw_nch\npmos: cw_pch\nunit_n: 1.0\npn_ratio: 2.5\ninclude: [\"{}\"]\n{extra}",
-                cards.display()
-            ),
-        );
+        sb.write("tech.yaml", &generic_tech_file(&cards, extra));
         let run = sb.run(&["generate", "spec.yaml", "-o", out]);
         assert_ok(&run);
         let v: serde_json::Value =
