@@ -78,6 +78,78 @@ fn estimate_only_sweep_writes_rows_and_answers() {
     assert!(r.stdout.contains("| 16 |"), "{}", r.stdout);
 }
 
+/// Close calls: beside each width's fastest design the answer names every other design at
+/// the same conditions whose estimate is within `ESTIMATE_CLOSE` of it, and no other. The
+/// list is checked against the CSV's own delays; at 32 bits Han-Carlson (one more logic level
+/// than Kogge-Stone, half its black cells: Han & Carlson 1987, from memory) is such a call,
+/// while ripple never is (linear against logarithmic depth).
+#[test]
+fn the_answer_names_the_close_calls_to_the_fastest() {
+    use carrywright::sweep::answer::ESTIMATE_CLOSE;
+    let dir = tempfile::tempdir().unwrap();
+    let yaml = "base:\n  name: acc\n  width: 16\n  architecture: ripple\n  technology: gf180mcu-3v3\n  testbench: {load: 20f, random: 0}\nvary:\n  width: [16, 32]\n  architecture: [ripple, kogge-stone, sklansky, han-carlson, brent-kung, carry-skip]\n  corner: [typical, ss]\n";
+    let r = sweep(dir.path(), yaml, &["--estimate-only"]);
+    assert_eq!(r.code, Some(0), "{}\n{}", r.stdout, r.stderr);
+    let j: serde_json::Value = serde_json::from_str(&read(dir.path(), "results.json")).unwrap();
+    let points = j["points"].as_array().unwrap();
+    // A point's varied values: a list of [key, value].
+    let field = |i: usize, k: &str| {
+        points[i]["values"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .find(|kv| kv[0] == k)
+            .map(|kv| kv[1].as_str().unwrap().to_string())
+            .unwrap()
+    };
+    let mut calls = 0;
+    for a in j["answer"].as_array().unwrap() {
+        let f = a["fastest"].as_u64().unwrap() as usize;
+        let df = points[f]["worst_ps"].as_f64().unwrap();
+        let mut want: Vec<usize> = (0..points.len())
+            .filter(|&i| {
+                i != f
+                    && points[i]["width"] == points[f]["width"]
+                    && field(i, "corner") == field(f, "corner")
+                    && field(i, "architecture") != field(f, "architecture")
+                    && points[i]["worst_ps"].as_f64().unwrap() <= df * (1.0 + ESTIMATE_CLOSE)
+            })
+            .collect();
+        want.sort_by(|&x, &y| {
+            points[x]["worst_ps"]
+                .as_f64()
+                .unwrap()
+                .total_cmp(&points[y]["worst_ps"].as_f64().unwrap())
+        });
+        let got: Vec<usize> = a["close_to_fastest"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|x| x.as_u64().unwrap() as usize)
+            .collect();
+        assert_eq!(got, want, "{a}");
+        for &i in &got {
+            assert_ne!(field(i, "architecture"), "ripple", "{a}");
+        }
+        if a["width"] == 32 {
+            assert!(
+                got.iter()
+                    .any(|&i| field(i, "architecture") == "han-carlson"),
+                "{a}"
+            );
+        }
+        calls += got.len();
+    }
+    assert!(calls > 0);
+    let report = read(dir.path(), "report.md");
+    assert!(
+        report.contains("close call, confirm in ngspice: #") && report.contains("han-carlson"),
+        "{report}"
+    );
+    let html = read(dir.path(), "report.html");
+    assert!(html.contains("close call, confirm in ngspice"));
+}
+
 /// A point the tool refuses (dynamic style on ripple) is recorded with its reason; the
 /// sweep goes on. An unknown `vary` key is a sweep-file error: exit 2, the key named.
 #[test]

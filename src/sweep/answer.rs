@@ -1,15 +1,33 @@
 //! The sweep's answer: for each width, the fastest, the smallest and the lowest-energy
 //! design, and the smallest design that meets the target delay at every corner listed.
+//! Beside the fastest it names the close calls: other designs at the same conditions whose
+//! delay is too near the fastest's for the ranking to be trusted ([`ESTIMATE_CLOSE`],
+//! [`MEASURED_CLOSE`]), so a reader confirms them in ngspice instead of taking the first row.
 
 use super::{label, PointResult, Sweep, Target, CONDITION_KEYS};
 use serde::Serialize;
 use std::collections::BTreeMap;
+
+/// Two estimated delays this close (relative to the faster) are a close call: the accuracy
+/// benchmark (`tests/accuracy.rs`, GF180MCU typical, 2026-12-03) saw the engine put designs in
+/// the wrong order when ngspice measured them up to 7.7 % apart (16-bit dynamic carry-skip
+/// against Han-Carlson), and its errors run from about −7 % to +16 % by architecture.
+pub const ESTIMATE_CLOSE: f64 = 0.10;
+/// The same for two delays both measured in ngspice: within this the order is one the
+/// layout's own parasitics (not in the deck) can easily reverse.
+pub const MEASURED_CLOSE: f64 = 0.02;
+/// Close calls named in a table cell; the rest are counted.
+const CLOSE_SHOWN: usize = 3;
 
 /// One width's answer; each entry a point index.
 #[derive(Debug, Clone, Serialize)]
 pub struct Answer {
     pub width: usize,
     pub fastest: Option<usize>,
+    /// Close calls to the fastest: points of other designs at the fastest's conditions
+    /// (corner, temperature, supply, load) within [`ESTIMATE_CLOSE`] of its delay
+    /// ([`MEASURED_CLOSE`] when both are measured), fastest first.
+    pub close_to_fastest: Vec<usize>,
     pub smallest: Option<usize>,
     pub lowest_energy: Option<usize>,
     /// The smallest design whose every corner's point meets the target with the margin:
@@ -35,6 +53,43 @@ fn design_key(p: &PointResult) -> String {
         .map(|(k, v)| format!("{k}={v}"))
         .collect::<Vec<_>>()
         .join(" ")
+}
+
+/// The conditions a point is evaluated at, load included: its varied values among them.
+fn conditions_key(p: &PointResult) -> String {
+    p.values
+        .iter()
+        .filter(|(k, _)| CONDITION_KEYS.contains(&k.as_str()) || k == "load")
+        .map(|(k, v)| format!("{k}={v}"))
+        .collect::<Vec<_>>()
+        .join(" ")
+}
+
+/// Points of other designs at the fastest's conditions whose delay is within the close-call
+/// share of the fastest's, in order of delay (then index).
+fn close_calls(points: &[&PointResult], fastest: usize) -> Vec<usize> {
+    let Some(f) = points.iter().find(|p| p.index == fastest) else {
+        return vec![];
+    };
+    let Some(df) = f.delay_ps() else {
+        return vec![];
+    };
+    let (design, at) = (design_key(f), conditions_key(f));
+    let mut close: Vec<(f64, usize)> = points
+        .iter()
+        .filter(|p| p.index != fastest && conditions_key(p) == at && design_key(p) != design)
+        .filter_map(|p| {
+            let d = p.delay_ps()?;
+            let share = if f.sim_worst_ps.is_some() && p.sim_worst_ps.is_some() {
+                MEASURED_CLOSE
+            } else {
+                ESTIMATE_CLOSE
+            };
+            (d <= df * (1.0 + share)).then_some((d, p.index))
+        })
+        .collect();
+    close.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)));
+    close.into_iter().map(|(_, i)| i).collect()
 }
 
 pub fn answer(points: &[PointResult], target: Option<Target>) -> Vec<Answer> {
@@ -81,9 +136,11 @@ pub fn answer(points: &[PointResult], target: Option<Target>) -> Vec<Answer> {
                 }
                 best.map(|(_, i, g)| (i, g))
             });
+            let fastest = min_by(&ps, |p| p.delay_ps());
             Answer {
                 width: w,
-                fastest: min_by(&ps, |p| p.delay_ps()),
+                fastest,
+                close_to_fastest: fastest.map(|f| close_calls(&ps, f)).unwrap_or_default(),
                 smallest: min_by(&ps, |p| p.gate_area_um2),
                 lowest_energy: min_by(&ps, |p| p.energy_fj),
                 meets_target,
@@ -117,6 +174,36 @@ fn describe(p: &PointResult) -> String {
     )
 }
 
+/// The close calls of an answer as they follow the fastest in a table cell: nothing when
+/// there are none, else "; close call, confirm in ngspice: ..." with at most [`CLOSE_SHOWN`]
+/// named (each by `name`) and the rest counted.
+pub fn close_text(
+    points: &[PointResult],
+    a: &Answer,
+    name: impl Fn(&PointResult) -> String,
+) -> String {
+    if a.close_to_fastest.is_empty() {
+        return String::new();
+    }
+    let named: Vec<String> = a
+        .close_to_fastest
+        .iter()
+        .take(CLOSE_SHOWN)
+        .filter_map(|&i| points.iter().find(|p| p.index == i))
+        .map(name)
+        .collect();
+    let more = a.close_to_fastest.len().saturating_sub(CLOSE_SHOWN);
+    format!(
+        "; close call, confirm in ngspice: {}{}",
+        named.join(", "),
+        if more > 0 {
+            format!(" and {more} more")
+        } else {
+            String::new()
+        }
+    )
+}
+
 /// The answer as a Markdown table (the report's head and the command's last lines).
 pub fn table(sweep: &Sweep, points: &[PointResult], answers: &[Answer]) -> String {
     let by = |i: usize| points.iter().find(|p| p.index == i);
@@ -137,9 +224,10 @@ pub fn table(sweep: &Sweep, points: &[PointResult], answers: &[Answer]) -> Strin
     s.push('\n');
     for a in answers {
         s.push_str(&format!(
-            "| {} | {} | {} | {} |",
+            "| {} | {}{} | {} | {} |",
             a.width,
             cell(a.fastest),
+            close_text(points, a, describe),
             cell(a.smallest),
             cell(a.lowest_energy)
         ));

@@ -636,7 +636,10 @@ impl Outcome {
 
 /// What the answer's figures are, and the target, for the reports (plain text).
 pub fn figures_note(sweep: &Sweep) -> String {
-    let mut s = String::from("Delays are the timing engine's worst path (measured in ngspice where the sweep simulated); energy is the engine's per addition at random activity; area is the sum of W·L.");
+    let mut s = format!("Delays are the timing engine's worst path (measured in ngspice where the sweep simulated); energy is the engine's per addition at random activity; area is the sum of W·L. A close call is another design at the same conditions within {:.0} % of the fastest's estimate ({:.0} % when both are measured): nearer than the engine can rank them, so measure both.",
+        answer::ESTIMATE_CLOSE * 100.0,
+        answer::MEASURED_CLOSE * 100.0
+    );
     if let Some(t) = sweep.target {
         s.push_str(&format!(
             " Target: {} at every corner listed, with a {:.0} % margin.",

@@ -38,9 +38,15 @@ pub fn html(sweep: &Sweep, o: &Outcome, answers: &[Answer], plots: &[(String, St
     h.push_str("</tr>\n");
     for a in answers {
         h.push_str(&format!(
-            "<tr><td>{}</td><td>{}</td><td>{}</td><td>{}</td>",
+            "<tr><td>{}</td><td>{}{}</td><td>{}</td><td>{}</td>",
             a.width,
             cell(a.fastest),
+            esc(&super::answer::close_text(&o.points, a, |p| format!(
+                "#{} {} ({:.0} ps)",
+                p.index,
+                label(p),
+                p.delay_ps().unwrap_or(0.0)
+            ))),
             cell(a.smallest),
             cell(a.lowest_energy)
         ));
