@@ -36,22 +36,40 @@ pub const LN2: f64 = 0.69;
 /// 10–90 % transition of a single pole, in time constants (ln 9).
 pub const SLEW_PER_TAU: f64 = 2.2;
 /// Input-slope term: a stage whose input moves in t_in (10–90 %) is slower than its step
-/// delay t_step by k · t_in · t_step / (t_in + t_step): about k · t_in for a fast input and at
-/// most k · t_step for a slow one (a stage switching near mid-supply sees only part of a slow
-/// ramp). The share k is fitted per technology so that the model reproduces the technology's
-/// own characterised FO4 delay (see [`slope_share`]); no constant is tuned on adders.
-pub fn stage_delay(step: f64, t_in: f64, k: f64) -> f64 {
+/// delay t_step by the harmonic combination of two limits, `fast` · t_in (a fast input: the
+/// term grows with the input's transition, whatever the load) and `cap` · t_step (a slow
+/// input: a stage switching near mid-supply sees only part of the ramp):
+/// 1 / (1 / (fast · t_in) + 1 / (cap · t_step)). With fast = cap = k this is
+/// k · t_in · t_step / (t_in + t_step). The shares come from the technology's own
+/// characterisation ([`slope_share`]); no constant is tuned on adders.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Slope {
+    pub fast: f64,
+    pub cap: f64,
+}
+
+impl Slope {
+    pub fn term(&self, t_in: f64, step: f64) -> f64 {
+        let (a, b) = (self.fast * t_in, self.cap * step);
+        if a <= 0.0 || b <= 0.0 {
+            return 0.0;
+        }
+        a * b / (a + b)
+    }
+}
+
+pub fn stage_delay(step: f64, t_in: f64, k: Slope) -> f64 {
     if step + t_in <= 0.0 {
         return 0.0;
     }
-    step + k * t_in * step / (t_in + step)
+    step + k.term(t_in, step)
 }
 
 /// The delay of a node whose stage is triggered by an input of transition time t_in. The
 /// input's slope acts on the devices whose gates it drives, the logic devices of the path
 /// (driver, pull-up or pull-down stack), whose share of the step is `logic`; the pass devices
 /// and transmission gates beyond them add their RC delay unchanged (their gates are steady).
-pub fn node_delay(step: f64, logic: f64, t_in: f64, k: f64) -> f64 {
+pub fn node_delay(step: f64, logic: f64, t_in: f64, k: Slope) -> f64 {
     let logic = logic.min(step);
     stage_delay(logic, t_in, k) + (step - logic)
 }
@@ -83,7 +101,7 @@ pub fn ladder_delays(
     visible: f64,
     caps: &[f64],
     t_in: f64,
-    k: f64,
+    k: Slope,
 ) -> Vec<f64> {
     let n = caps.len();
     let order: Vec<u32> = (0..n as u32).collect();
@@ -117,19 +135,42 @@ pub fn ladder_delays(
         .collect()
 }
 
-/// The slope share k that makes this model's FO4 inverter (the characterised NMOS and PMOS
+/// The slope shares that make this model's FO4 inverter (the characterised NMOS and PMOS
 /// widths, four copies of itself as load, driven by an identical stage) as slow as the
-/// characterised `fo4_ps`, clamped to 0..2.
-pub fn slope_share(tm: &Timing) -> f64 {
+/// characterised `fo4_ps`. With the technology's fast-input share (`slope_fast`) the cap is
+/// solved for ([`slope_with_fast`]); without one, or when no cap reproduces the FO4 with it,
+/// one share serves both limits (clamped to 0..2).
+pub fn slope_share(tm: &Timing) -> Slope {
+    if let Some(s) = tm.slope_fast.and_then(|f| slope_with_fast(tm, f)) {
+        return s;
+    }
+    let (step, t_in) = fo4_model(tm);
+    let per_k = t_in * step / (t_in + step);
+    let k = ((tm.fo4_ps - step) / per_k).clamp(0.0, 2.0);
+    Slope { fast: k, cap: k }
+}
+
+/// The model's FO4 stage: its step delay and its input's transition, ps.
+fn fo4_model(tm: &Timing) -> (f64, f64) {
     let (wn, wp) = (tm.n_width_um, tm.p_width_um);
     let c_in = wn * tm.c_gate_n_ff_um + wp * tm.c_gate_p_ff_um;
     let c_self = wn * tm.c_diff_n_ff_um + wp * tm.c_diff_p_ff_um;
     let c = 4.0 * c_in + c_self;
     let tau = 0.5 * (tm.r_n_fall_kohm_um[0] / wn + tm.r_p_rise_kohm_um[0] / wp) * c;
-    let step = LN2 * tau;
-    let t_in = SLEW_PER_TAU * tau;
-    let per_k = t_in * step / (t_in + step);
-    ((tm.fo4_ps - step) / per_k).clamp(0.0, 2.0)
+    (LN2 * tau, SLEW_PER_TAU * tau)
+}
+
+/// The slope shares with the fast-input share given and the cap solved from the FO4:
+/// 1 / (fo4 − step) = 1 / (fast · t_in) + 1 / (cap · step). None when the fast share alone
+/// cannot reach the FO4 (no finite cap does).
+pub fn slope_with_fast(tm: &Timing, fast: f64) -> Option<Slope> {
+    let (step, t_in) = fo4_model(tm);
+    let extra = tm.fo4_ps - step;
+    let inv = 1.0 / extra - 1.0 / (fast * t_in);
+    (extra > 0.0 && fast > 0.0 && inv > 0.0).then(|| Slope {
+        fast,
+        cap: 1.0 / (inv * step),
+    })
 }
 
 /// Solves a stage class stores for sharing before it must show use: from then on it keeps
@@ -203,8 +244,8 @@ pub struct Graph {
     pub input_slew_ps: f64,
     /// Per node, the transition an input edge starts with (ps); `input_slew_ps` elsewhere.
     pub input_slews: Vec<f64>,
-    /// The input-slope share fitted to the technology's FO4 ([`slope_share`]).
-    pub slope_k: f64,
+    /// The input-slope shares fitted to the technology's FO4 ([`slope_share`]).
+    pub slope_k: Slope,
     pub tm: Timing,
     /// Per stage, the nodes whose values decide its solve (its devices' gates, the top
     /// inputs its channels touch, its own nodes), when there are at most 128 of them: a

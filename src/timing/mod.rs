@@ -76,6 +76,13 @@ pub struct Timing {
     /// threshold), 0..1, fitted with `r_pass_ladder_fall_kohm_um`. Absent: 1 (all of it).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub pass_ladder_visible: Option<f64>,
+    /// Input-slope share for a fast input ([`crate::timing::engine::Slope::fast`]): the
+    /// delay a stage adds per ps of its input's 10–90 % transition while that is short
+    /// against the stage's own step. Fitted on the single-device load sweeps together with
+    /// the FO4 (which then sets the slow-input cap). Absent in older files: one share for
+    /// both limits, fitted to the FO4 alone.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub slope_fast: Option<f64>,
     /// Off-state leakage of an NMOS (gate and source at 0, drain at VDD), nA per µm of width,
     /// for the keeper's holding rule. Absent in older files: the rule is not checked.
     #[serde(default, skip_serializing_if = "Option::is_none")]
@@ -146,6 +153,9 @@ impl Timing {
         }
         if let Some(v) = self.c_diff_shared_p_ff_um {
             named.push(("c_diff_shared_p_ff_um", v));
+        }
+        if let Some(v) = self.slope_fast {
+            named.push(("slope_fast", v));
         }
         if let Some(v) = self.pass_ladder_visible {
             if !(0.0..=1.0).contains(&v) {
