@@ -10,8 +10,8 @@ use std::collections::BTreeMap;
 
 /// Two estimated delays this close (relative to the faster) are a close call: the accuracy
 /// benchmark (`tests/accuracy.rs`, GF180MCU typical, 2026-12-03) saw the engine put designs in
-/// the wrong order when ngspice measured them up to 7.7 % apart (16-bit dynamic carry-skip
-/// against Han-Carlson), and its errors run from about −7 % to +16 % by architecture.
+/// the wrong order when ngspice measured them up to 10 % apart (16-bit dynamic carry-skip
+/// against Han-Carlson), and its errors run from about −9 % to +16 % by architecture.
 pub const ESTIMATE_CLOSE: f64 = 0.10;
 /// The same for two delays both measured in ngspice: within this the order is one the
 /// layout's own parasitics (not in the deck) can easily reverse.
