@@ -45,24 +45,24 @@ fn min_by(points: &[&PointResult], f: impl Fn(&PointResult) -> Option<f64>) -> O
         .map(|(_, i)| i)
 }
 
-/// The design a point belongs to: its varied values other than the conditions.
-fn design_key(p: &PointResult) -> String {
+/// A point's varied values whose keys pass `keep`, as one string.
+fn values_key(p: &PointResult, keep: impl Fn(&str) -> bool) -> String {
     p.values
         .iter()
-        .filter(|(k, _)| !CONDITION_KEYS.contains(&k.as_str()))
+        .filter(|(k, _)| keep(k))
         .map(|(k, v)| format!("{k}={v}"))
         .collect::<Vec<_>>()
         .join(" ")
 }
 
+/// The design a point belongs to: its varied values other than the conditions.
+fn design_key(p: &PointResult) -> String {
+    values_key(p, |k| !CONDITION_KEYS.contains(&k))
+}
+
 /// The conditions a point is evaluated at, load included: its varied values among them.
 fn conditions_key(p: &PointResult) -> String {
-    p.values
-        .iter()
-        .filter(|(k, _)| CONDITION_KEYS.contains(&k.as_str()) || k == "load")
-        .map(|(k, v)| format!("{k}={v}"))
-        .collect::<Vec<_>>()
-        .join(" ")
+    values_key(p, |k| CONDITION_KEYS.contains(&k) || k == "load")
 }
 
 /// Points of other designs at the fastest's conditions whose delay is within the close-call

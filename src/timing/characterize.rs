@@ -711,41 +711,24 @@ fn fit_all(
                 sweeps.push((r, *c, need(&format!("t_{tag}_{li}"))? * 1e12));
             }
         }
-        let err = |fast: f64| -> f64 {
-            let Some(k) = super::engine::slope_with_fast(&timing, fast) else {
-                return f64::INFINITY;
-            };
+        // The stage model's miss on every sweep point (ps).
+        let misses = |k: super::engine::Slope| -> Vec<f64> {
             sweeps
                 .iter()
-                .map(|&(r, c, d)| {
-                    let m = super::engine::stage_delay(LN2 * r * (c + own), t_in, k);
-                    (m - d) * (m - d)
-                })
-                .sum()
+                .map(|&(r, c, d)| super::engine::stage_delay(LN2 * r * (c + own), t_in, k) - d)
+                .collect()
+        };
+        let err = |fast: f64| -> f64 {
+            super::engine::slope_with_fast(&timing, fast)
+                .map_or(f64::INFINITY, |k| misses(k).iter().map(|e| e * e).sum())
         };
         // The fast share is below the single share (the cap above it); search 0.02 up to it.
         let single = super::engine::slope_share(&timing).fast;
-        let (mut lo, mut hi) = (0.02f64, single.max(0.03));
-        let g = (5f64.sqrt() - 1.0) / 2.0;
-        for _ in 0..60 {
-            let (x1, x2) = (hi - g * (hi - lo), lo + g * (hi - lo));
-            if err(x1) <= err(x2) {
-                hi = x2;
-            } else {
-                lo = x1;
-            }
-        }
-        let fast = r4(0.5 * (lo + hi));
+        let fast = r4(golden_min(0.02, single.max(0.03), err));
         let (k, worst) = match super::engine::slope_with_fast(&timing, fast) {
             Some(k) if err(fast) <= err(single) => {
                 timing.slope_fast = Some(fast);
-                let worst = sweeps
-                    .iter()
-                    .map(|&(r, c, d)| {
-                        (super::engine::stage_delay(LN2 * r * (c + own), t_in, k) - d).abs()
-                    })
-                    .fold(0.0, f64::max);
-                (k, worst)
+                (k, misses(k).iter().fold(0.0f64, |m, e| m.max(e.abs())))
             }
             _ => (super::engine::slope_share(&timing), f64::NAN),
         };
@@ -1151,6 +1134,21 @@ pub fn run(o: &Options) -> Result<Characterized> {
     Ok(r)
 }
 
+/// The minimum of a unimodal `f` on [lo, hi] by golden-section search (80 steps).
+fn golden_min(mut lo: f64, mut hi: f64, f: impl Fn(f64) -> f64) -> f64 {
+    let phi = 0.618_033_988_7;
+    for _ in 0..80 {
+        let a = hi - phi * (hi - lo);
+        let c = lo + phi * (hi - lo);
+        if f(a) < f(c) {
+            hi = c;
+        } else {
+            lo = a;
+        }
+    }
+    0.5 * (lo + hi)
+}
+
 /// Fit the resistance R_L of the gates beyond the first in a ladder: the engine's own ladder
 /// model ([`super::engine::ladder_delays`]: driver `r_drv`, first gate `r_single`, the rest at
 /// R_L, node capacitances in `data`) against the measured arrival at every node beyond the
@@ -1177,20 +1175,7 @@ fn fit_ladder(
             .collect()
     };
     let cost = |r_l: f64, vis: f64| residuals(r_l, vis).iter().map(|e| e * e).sum::<f64>();
-    let golden = |vis: f64| -> f64 {
-        let (mut lo, mut hi) = (0.2 * r_single, 8.0 * r_single);
-        let phi = 0.618_033_988_7;
-        for _ in 0..80 {
-            let a = hi - phi * (hi - lo);
-            let c = lo + phi * (hi - lo);
-            if cost(a, vis) < cost(c, vis) {
-                hi = c;
-            } else {
-                lo = a;
-            }
-        }
-        0.5 * (lo + hi)
-    };
+    let golden = |vis: f64| golden_min(0.2 * r_single, 8.0 * r_single, |r_l| cost(r_l, vis));
     let shares: Vec<f64> = if with_visible {
         (0..=20).map(|i| i as f64 / 20.0).collect()
     } else {
