@@ -892,9 +892,13 @@ fn usage_error(e: &clap::Error, args: &[std::ffi::OsString]) -> String {
 fn main() -> ExitCode {
     // Worker threads never take SIGINT/SIGTERM/SIGHUP: the main thread does, so a deferred
     // write sees them at its next step (output::block_deferred_signals).
+    // The workers inherit the blocked mask from this thread as they are created; the start
+    // handler blocks them again in case a pool is ever built lazily elsewhere.
+    carrywright::output::block_deferred_signals();
     let _ = rayon::ThreadPoolBuilder::new()
         .start_handler(|_| carrywright::output::block_deferred_signals())
         .build_global();
+    carrywright::output::unblock_deferred_signals();
     let args: Vec<std::ffi::OsString> = std::env::args_os().collect();
     let cli = match Cli::try_parse_from(&args) {
         Ok(cli) => cli,

@@ -612,6 +612,18 @@ fn interrupted(sig: i32, dir: &Path) -> Error {
 /// taken by a worker could otherwise run its handler after the write's steps had looked, or
 /// after `restore`, and end the process mid-write.
 pub fn block_deferred_signals() {
+    deferred_mask(libc::SIG_BLOCK);
+}
+
+/// Undo [`block_deferred_signals`] in the calling thread. The CLI blocks the signals before
+/// it starts its worker threads, so they start with them blocked (a new thread inherits its
+/// creator's mask; blocking them only in the thread's start handler leaves a window in which
+/// a busy machine can deliver one to a worker), then unblocks them in the main thread.
+pub fn unblock_deferred_signals() {
+    deferred_mask(libc::SIG_UNBLOCK);
+}
+
+fn deferred_mask(how: libc::c_int) {
     // SAFETY: a plain pthread_sigmask on a zero-initialised, filled-in set.
     unsafe {
         let mut set: libc::sigset_t = std::mem::zeroed();
@@ -619,7 +631,7 @@ pub fn block_deferred_signals() {
         for sig in DEFERRED {
             libc::sigaddset(&mut set, sig);
         }
-        libc::pthread_sigmask(libc::SIG_BLOCK, &set, std::ptr::null_mut());
+        libc::pthread_sigmask(how, &set, std::ptr::null_mut());
     }
 }
 
