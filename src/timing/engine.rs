@@ -28,7 +28,7 @@ use crate::error::{Error, Result};
 use crate::netlist::Design;
 use crate::spec::Spec;
 use crate::tech::End;
-use std::cmp::Ordering;
+use std::cmp::{Ordering, Reverse};
 use std::collections::{BTreeMap, BinaryHeap, HashMap, VecDeque};
 
 /// Step response 50 % point of a single pole, in time constants (ln 2; Rabaey et al. §6.2.3).
@@ -718,15 +718,23 @@ struct Cost {
 }
 
 impl Cost {
-    fn at(t: f64) -> Cost {
-        Cost { weak: false, r: t }
-    }
     const INF: Cost = Cost {
         weak: true,
         r: f64::INFINITY,
     };
     fn cmp(&self, o: &Cost) -> Ordering {
         self.weak.cmp(&o.weak).then(self.r.total_cmp(&o.r))
+    }
+}
+
+/// An f64 as a u64 of the same order (IEEE total order), a cheap heap key.
+#[inline]
+fn time_key(t: f64) -> u64 {
+    let b = t.to_bits();
+    if b >> 63 == 1 {
+        !b
+    } else {
+        b | 1 << 63
     }
 }
 
@@ -1182,7 +1190,8 @@ pub struct Sim<'g> {
     pub last: Vec<u32>,
     /// Capacitance switched by the events applied in the latest timed run (fF).
     switched_ff: f64,
-    heap: BinaryHeap<HeapItem>,
+    /// Pending events, earliest first, then by event index (a deterministic order).
+    heap: BinaryHeap<Reverse<(u64, u32)>>,
     /// Solves already done: (stage, key) -> range in `solved` (see `Graph::key_nodes`).
     cache: HashMap<(u32, u128), (u32, u32), BuildKeyHasher>,
     solved: Vec<Driven>,
@@ -1448,12 +1457,13 @@ impl<'g> Sim<'g> {
                 });
                 self.pending[x as usize] = id;
                 self.proj[x as usize] = v;
-                self.heap.push(HeapItem(Cost::at(0.0), id));
+                self.heap.push(Reverse((time_key(0.0), id)));
             }
         }
         let limit = 200 * (g.n_nodes() + 10);
-        while let Some(HeapItem(Cost { r: t, .. }, id)) = self.heap.pop() {
+        while let Some(Reverse((_, id))) = self.heap.pop() {
             let e = self.events[id as usize];
+            let t = e.time_ps;
             let x = e.node as usize;
             if self.pending[x] != id {
                 continue;
@@ -1501,7 +1511,7 @@ impl<'g> Sim<'g> {
                     });
                     self.pending[y] = nid;
                     self.proj[y] = d.value;
-                    self.heap.push(HeapItem(Cost::at(t + delay), nid));
+                    self.heap.push(Reverse((time_key(t + delay), nid)));
                 }
             }
         }
