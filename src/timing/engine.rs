@@ -1546,6 +1546,11 @@ pub fn topological_bound(g: &Graph) -> Result<(f64, Vec<f64>)> {
 /// `Graph::inputs`: the topological bound seen from one input. It orders and prunes the
 /// worst-pair search ([`super::search`]); like the bound it ignores sensitisation.
 pub fn input_reach(g: &Graph) -> Result<Vec<f64>> {
+    Ok(bound_and_reach(g)?.1)
+}
+
+/// [`topological_bound`] and [`input_reach`] from one walk of the stage graph.
+pub fn bound_and_reach(g: &Graph) -> Result<(f64, Vec<f64>)> {
     let t = Topo::new(g)?;
     // tail[x]: longest path from node x's change to an output.
     let mut tail = vec![f64::NEG_INFINITY; g.n_nodes()];
@@ -1573,10 +1578,12 @@ pub fn input_reach(g: &Graph) -> Result<Vec<f64>> {
             }
         }
     }
-    Ok(g.inputs
+    let reach = g
+        .inputs
         .iter()
         .map(|&x| tail[x as usize].max(0.0))
-        .collect())
+        .collect();
+    Ok((t.bound, reach))
 }
 
 /// The stage graph in topological order with each node's delay through its stage.

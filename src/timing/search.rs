@@ -395,6 +395,8 @@ pub struct Worst {
     /// Mean switched capacitance over the random pairs, fF.
     pub switched_ff: f64,
     pub pairs_timed: usize,
+    /// The topological bound ([`engine::topological_bound`]), ps.
+    pub bound_ps: f64,
 }
 
 /// Search for the worst pair.
@@ -434,8 +436,9 @@ pub fn search(g: &Graph, budget: Budget) -> Result<Worst> {
     let mut seen: HashSet<Pair> = HashSet::new();
     let mut hard = hard_set(w);
     // Reach of every input bit (a, b, cin order; clk left out).
+    let (bound_ps, all_reach) = engine::bound_and_reach(g)?;
     let reach: Vec<f64> = {
-        let r = engine::input_reach(g)?;
+        let r = all_reach;
         g.inputs
             .iter()
             .zip(r)
@@ -565,6 +568,7 @@ pub fn search(g: &Graph, budget: Budget) -> Result<Worst> {
         cin_cout_ps: cin_cout,
         switched_ff,
         pairs_timed: t.pairs_timed,
+        bound_ps,
     })
 }
 
@@ -679,7 +683,7 @@ pub fn estimate_with(
 ) -> Result<Estimate> {
     let g = Graph::new(spec, design, tm)?;
     let worst = search(&g, budget)?;
-    let (bound, _) = engine::topological_bound(&g)?;
+    let bound = worst.bound_ps;
     let (transistors, area, width) = engine::device_totals(&g);
     let out_names: Vec<String> = g
         .outputs
