@@ -364,21 +364,24 @@ fn bench(t: &Technology, model_lines: &[String]) -> Bench {
     // Charge: gate (N from 0 up, P from VDD down) and drain of an off device, the drain a
     // contacted end (an isolated device) and, with a diffusion extension, half of a shared
     // one (the inner node of a series pair).
+    // The gate again with drain and source at the other rail (bulk at its own): the channel
+    // of a pass device whose ends sit high (NMOS) or low (PMOS) never forms.
     let mut sources = vec![
-        ("qgn", "in", false, None),
-        ("qgp", "inb", true, None),
-        ("qdn", "in", false, Some(End::Contacted)),
-        ("qdp", "inb", true, Some(End::Contacted)),
+        ("qgn", "in", false, None, "vss"),
+        ("qgp", "inb", true, None, "vdd"),
+        ("qgnh", "in", false, None, "vdd"),
+        ("qgpl", "inb", true, None, "vss"),
+        ("qdn", "in", false, Some(End::Contacted), "vss"),
+        ("qdp", "inb", true, Some(End::Contacted), "vdd"),
     ];
     if t.device.diffusion.is_some() {
-        sources.push(("qsn", "in", false, Some(End::Shared)));
-        sources.push(("qsp", "inb", true, Some(End::Shared)));
+        sources.push(("qsn", "in", false, Some(End::Shared), "vss"));
+        sources.push(("qsp", "inb", true, Some(End::Shared), "vdd"));
     }
-    for (q, shape, pmos, drain) in sources {
+    for (q, shape, pmos, drain, rail) in sources {
         let node = format!("{q}_node");
         b.lines
             .push(format!("v{q} {node} 0 {}", pwl(vdd, shape == "in", t.slew)));
-        let rail = if pmos { "vdd" } else { "vss" };
         for j in 0..CHARGE_DEVICES {
             let w = w_n;
             match drain {
@@ -674,6 +677,8 @@ fn fit_all(
         } else {
             None
         },
+        c_gate_pass_n_ff_um: Some(r4((cgn + per_um("qgnh")?) / 2.0)),
+        c_gate_pass_p_ff_um: Some(r4((cgp + per_um("qgpl")?) / 2.0)),
         fo4_ps: r4(fo4),
         tau_ps: r4(le.slope),
         p_inv: r4(le.intercept / le.slope),
@@ -873,7 +878,11 @@ fn render_yaml(t: &Technology, tm: &Timing, fits: &BTreeMap<String, Fit>) -> Str
     let _ = writeln!(w, "#   starting level. Pass NMOS: gate at VDD, an ideal ramp on one side. Transmission gate: NMOS W_n");
     let _ = writeln!(w, "#   and PMOS W_p in parallel, per um of NMOS width.");
     let _ = writeln!(w, "# Capacitances by charge: |integral of i dt| / VDD / W over {CHARGE_DEVICES} devices of W_n; gate: gate ramped");
-    let _ = writeln!(w, "#   over the full swing, drain, source and bulk at the rail; drain: drain ramped, device off.");
+    let _ = writeln!(w, "#   over the full swing, drain, source and bulk at the rail (a pass device's gate: the mean of that and of");
+    let _ = writeln!(
+        w,
+        "#   drain and source at the other rail); drain: drain ramped, device off."
+    );
     if let Some(d) = &t.device.diffusion {
         let _ = writeln!(w, "# Diffusion: {} um contacted past the gate (area W e, perimeter 2 (W + e)); {} um shared between", num(d.contacted_um), num(d.shared_um));
         let _ = writeln!(w, "#   two gates in series (each device W s / 2 and W + s), as the generated decks draw them.");
@@ -995,6 +1004,14 @@ fn render_yaml(t: &Technology, tm: &Timing, fits: &BTreeMap<String, Fit>) -> Str
     }
     let _ = writeln!(w, "  c_gate_n_ff_um: {}", num(tm.c_gate_n_ff_um));
     let _ = writeln!(w, "  c_gate_p_ff_um: {}", num(tm.c_gate_p_ff_um));
+    if let (Some(n), Some(p)) = (tm.c_gate_pass_n_ff_um, tm.c_gate_pass_p_ff_um) {
+        let _ = writeln!(
+            w,
+            "  # a pass device's gate: mean of channel ends at its own rail and at the other"
+        );
+        let _ = writeln!(w, "  c_gate_pass_n_ff_um: {}", num(n));
+        let _ = writeln!(w, "  c_gate_pass_p_ff_um: {}", num(p));
+    }
     let _ = writeln!(w, "  c_diff_n_ff_um: {}", num(tm.c_diff_n_ff_um));
     let _ = writeln!(w, "  c_diff_p_ff_um: {}", num(tm.c_diff_p_ff_um));
     if let (Some(n), Some(p)) = (tm.c_diff_shared_n_ff_um, tm.c_diff_shared_p_ff_um) {

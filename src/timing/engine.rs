@@ -356,10 +356,15 @@ impl Graph {
         let mut cap_ff = vec![0.0; n];
         debug_assert_eq!(devs.len(), dev_ends.len());
         for (d, ends) in devs.iter().zip(&dev_ends) {
-            let cg = match d.mos {
-                Mos::N => tm.c_gate_n_ff_um,
-                Mos::P => tm.c_gate_p_ff_um,
+            // A device with neither channel end at its own rail (a pass device, the upper
+            // devices of a stack) forms its channel only when the data lets it: the
+            // data-averaged gate figure.
+            let rail = match d.mos {
+                Mos::N => NodeKind::Vss,
+                Mos::P => NodeKind::Vdd,
             };
+            let at_rail = kind[d.a as usize] == rail || kind[d.b as usize] == rail;
+            let cg = tm.c_gate_ff_um(d.mos, d.role == Role::Pass || !at_rail);
             // Gate capacitance grows with the channel's area (characterised at the minimum
             // length), diffusion with the width alone, per end as contacted or shared.
             cap_ff[d.g as usize] += cg * d.w * d.l / spec.technology.l_min;

@@ -52,6 +52,14 @@ pub struct Timing {
     pub c_diff_shared_n_ff_um: Option<f64>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub c_diff_shared_p_ff_um: Option<f64>,
+    /// Gate capacitance of a pass device (a transmission-gate half, a pass NMOS) per µm: the
+    /// mean of the gate charge with the channel's ends at the device's own rail (the channel
+    /// forms) and at the other rail (it never does), for data at either value with equal odds,
+    /// fF/µm. Absent (older files): the full figure stands in.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub c_gate_pass_n_ff_um: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub c_gate_pass_p_ff_um: Option<f64>,
     /// Fan-out-of-4 inverter delay in a chain of FO4 inverters (mean of rise and fall), ps.
     pub fo4_ps: f64,
     /// Logical effort's τ (slope of inverter delay against electrical fan-out), ps, and the
@@ -114,6 +122,18 @@ impl Timing {
         }
     }
 
+    /// Gate capacitance of a device, fF per µm of its width at the minimum length: a pass
+    /// device's (`pass`) is the data-averaged figure where the file has one.
+    pub fn c_gate_ff_um(&self, mos: crate::cells::Mos, pass: bool) -> f64 {
+        use crate::cells::Mos;
+        match (mos, pass) {
+            (Mos::N, true) => self.c_gate_pass_n_ff_um.unwrap_or(self.c_gate_n_ff_um),
+            (Mos::P, true) => self.c_gate_pass_p_ff_um.unwrap_or(self.c_gate_p_ff_um),
+            (Mos::N, false) => self.c_gate_n_ff_um,
+            (Mos::P, false) => self.c_gate_p_ff_um,
+        }
+    }
+
     /// These values were characterised at the technology's present conditions.
     pub fn matches(&self, t: &Technology) -> bool {
         self.at.corner == t.corner
@@ -156,6 +176,12 @@ impl Timing {
         }
         if let Some(v) = self.slope_fast {
             named.push(("slope_fast", v));
+        }
+        if let Some(v) = self.c_gate_pass_n_ff_um {
+            named.push(("c_gate_pass_n_ff_um", v));
+        }
+        if let Some(v) = self.c_gate_pass_p_ff_um {
+            named.push(("c_gate_pass_p_ff_um", v));
         }
         if let Some(v) = self.pass_ladder_visible {
             if !(0.0..=1.0).contains(&v) {

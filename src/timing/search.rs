@@ -218,6 +218,7 @@ impl<'g> Timer<'g> {
                 edge: if ev.value { "rise" } else { "fall" },
                 arrival_ps: round1(ev.time_ps),
                 stage_ps: round1(ev.time_ps - prev_t),
+                slew_ps: ev.slew_ps,
             });
             e = ev.cause;
         }
@@ -236,6 +237,9 @@ pub struct PathStep {
     pub arrival_ps: f64,
     /// This stage's share of the delay.
     pub stage_ps: f64,
+    /// The transition's 10–90 % time in the engine's model (not in the reports).
+    #[serde(skip)]
+    pub slew_ps: f64,
 }
 
 fn round1(x: f64) -> f64 {
