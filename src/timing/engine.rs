@@ -1547,14 +1547,10 @@ pub fn topological_bound(g: &Graph) -> Result<(f64, Vec<f64>)> {
     Ok((t.bound, t.arrival))
 }
 
-/// The longest stage path from every top input to any output (ps), in the order of
-/// `Graph::inputs`: the topological bound seen from one input. It orders and prunes the
-/// worst-pair search ([`super::search`]); like the bound it ignores sensitisation.
-pub fn input_reach(g: &Graph) -> Result<Vec<f64>> {
-    Ok(bound_and_reach(g)?.1)
-}
-
-/// [`topological_bound`] and [`input_reach`] from one walk of the stage graph.
+/// [`topological_bound`]'s figure and each input's reach: the longest stage path from every
+/// top input to any output (ps), in the order of `Graph::inputs` (the bound seen from one
+/// input), from one walk of the stage graph. The reach orders and prunes the worst-pair search
+/// ([`super::search`]); like the bound it ignores sensitisation.
 pub fn bound_and_reach(g: &Graph) -> Result<(f64, Vec<f64>)> {
     let t = Topo::new(g)?;
     // tail[x]: longest path from node x's change to an output.

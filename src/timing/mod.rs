@@ -52,10 +52,11 @@ pub struct Timing {
     pub c_diff_shared_n_ff_um: Option<f64>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub c_diff_shared_p_ff_um: Option<f64>,
-    /// Gate capacitance of a pass device (a transmission-gate half, a pass NMOS) per µm: the
-    /// mean of the gate charge with the channel's ends at the device's own rail (the channel
-    /// forms) and at the other rail (it never does), for data at either value with equal odds,
-    /// fF/µm. Absent (older files): the full figure stands in.
+    /// Gate capacitance per µm of a device with neither channel end at its own rail (a pass
+    /// device, a transmission-gate half, the upper devices of a stack): the mean of the gate
+    /// charge with the channel's ends at the device's own rail (the channel forms) and at the
+    /// other rail (it never does), for data at either value with equal odds, fF/µm. Absent
+    /// (older files): the full figure stands in.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub c_gate_pass_n_ff_um: Option<f64>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
@@ -122,11 +123,12 @@ impl Timing {
         }
     }
 
-    /// Gate capacitance of a device, fF per µm of its width at the minimum length: a pass
-    /// device's (`pass`) is the data-averaged figure where the file has one.
-    pub fn c_gate_ff_um(&self, mos: crate::cells::Mos, pass: bool) -> f64 {
+    /// Gate capacitance of a device, fF per µm of its width at the minimum length: one whose
+    /// channel may not form (`floating`: no end at its own rail) takes the data-averaged
+    /// figure where the file has one.
+    pub fn c_gate_ff_um(&self, mos: crate::cells::Mos, floating: bool) -> f64 {
         use crate::cells::Mos;
-        match (mos, pass) {
+        match (mos, floating) {
             (Mos::N, true) => self.c_gate_pass_n_ff_um.unwrap_or(self.c_gate_n_ff_um),
             (Mos::P, true) => self.c_gate_pass_p_ff_um.unwrap_or(self.c_gate_p_ff_um),
             (Mos::N, false) => self.c_gate_n_ff_um,

@@ -50,7 +50,7 @@ pub struct Budget {
     pub flips: usize,
     pub seed: u64,
     /// Skip hard pairs whose inputs cannot reach an output within [`PRUNE_SLACK`] of the
-    /// worst arrival found so far (by the topological reach, [`engine::input_reach`]).
+    /// worst arrival found so far (by the topological reach, [`engine::bound_and_reach`]).
     pub prune: bool,
 }
 
@@ -218,7 +218,6 @@ impl<'g> Timer<'g> {
                 edge: if ev.value { "rise" } else { "fall" },
                 arrival_ps: round1(ev.time_ps),
                 stage_ps: round1(ev.time_ps - prev_t),
-                slew_ps: ev.slew_ps,
             });
             e = ev.cause;
         }
@@ -237,9 +236,6 @@ pub struct PathStep {
     pub arrival_ps: f64,
     /// This stage's share of the delay.
     pub stage_ps: f64,
-    /// The transition's 10–90 % time in the engine's model (not in the reports).
-    #[serde(skip)]
-    pub slew_ps: f64,
 }
 
 fn round1(x: f64) -> f64 {
@@ -441,15 +437,13 @@ pub fn search(g: &Graph, budget: Budget) -> Result<Worst> {
     let mut hard = hard_set(w);
     // Reach of every input bit (a, b, cin order; clk left out).
     let (bound_ps, all_reach) = engine::bound_and_reach(g)?;
-    let reach: Vec<f64> = {
-        let r = all_reach;
-        g.inputs
-            .iter()
-            .zip(r)
-            .filter(|(&x, _)| Some(x) != g.clk)
-            .map(|(_, r)| r)
-            .collect()
-    };
+    let reach: Vec<f64> = g
+        .inputs
+        .iter()
+        .zip(all_reach)
+        .filter(|(&x, _)| Some(x) != g.clk)
+        .map(|(_, r)| r)
+        .collect();
     let reach_of = |h: &Hard| reach[h.bits[0]].max(reach[h.bits[1]]);
     // The first two pairs (cin toggled with every bit propagating, a all ones) stay first;
     // the others go in order of falling reach, so the pruning can stop early.
@@ -484,8 +478,9 @@ pub fn search(g: &Graph, budget: Budget) -> Result<Worst> {
         }
         if let Some((x, _)) = pt.worst {
             best = best.max(x);
-            if reach_of(h) > 0.0 {
-                share = share.max(x / reach_of(h));
+            let r = reach_of(h);
+            if r > 0.0 {
+                share = share.max(x / r);
             }
         }
         record(&pt, *p, &mut scored);
