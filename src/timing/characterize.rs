@@ -43,6 +43,13 @@ pub const LOADS_FF: [f64; 4] = [4.0, 8.0, 16.0, 32.0];
 pub const FANOUTS: [f64; 6] = [1.0, 2.0, 3.0, 4.0, 6.0, 8.0];
 /// Transmission-gate ladder lengths for the ladder resistance fit.
 pub const LADDERS: [usize; 2] = [4, 8];
+/// Input ramps (0–100 %, ps) and loads (fF) of the slow-input sweep: an inverter of the
+/// characterised widths driven by an ideal ramp (up at the first edge, down at the second).
+pub const RAMPS_PS: [f64; 6] = [50.0, 100.0, 200.0, 400.0, 800.0, 1600.0];
+pub const RAMP_LOADS_FF: [f64; 3] = [4.0, 8.0, 32.0];
+/// The skewed inverter of the slow-input sweep: its PMOS this many times the characterised
+/// width.
+pub const SKEW_P: f64 = 3.0;
 /// Unit devices in parallel for the charge measurements.
 pub const CHARGE_DEVICES: usize = 8;
 /// Elmore's step-response factor ln 2 (Rabaey et al. §6.2.3).
@@ -360,6 +367,45 @@ fn bench(t: &Technology, model_lines: &[String]) -> Bench {
                 vdd,
             );
         }
+    }
+    // Slow inputs: an inverter into each load, driven by ramps from fast to slower than any
+    // stage of an adder gives; delay and output transition (10–90 %) of both edges.
+    for (ri, ramp) in RAMPS_PS.iter().enumerate() {
+        let src = format!("ramp{ri}");
+        b.lines
+            .push(format!("v{src} {src} 0 {}", pwl(vdd, true, ramp * 1e-12)));
+        for (li, c) in RAMP_LOADS_FF.iter().enumerate() {
+            let out = format!("rmp{ri}_{li}");
+            b.inv(&out, &src, &out);
+            b.lines.push(format!("c{out} {out} 0 {}f", trim_num(*c)));
+            b.delay(&format!("t_{out}_f"), &src, "rise", &out, "fall", vdd);
+            b.delay(&format!("t_{out}_r"), &src, "fall", &out, "rise", vdd);
+            for (e, edge) in [("f", "fall"), ("r", "rise")] {
+                let (a, z) = if e == "f" { (0.9, 0.1) } else { (0.1, 0.9) };
+                let name = format!("s_{out}_{e}");
+                b.meas.push(format!(
+                    "meas tran {name} trig v({out}) val={} {edge}=1 targ v({out}) val={} {edge}=1",
+                    trim_num(a * vdd),
+                    trim_num(z * vdd)
+                ));
+                b.meas.push(name);
+            }
+        }
+    }
+    // Switching thresholds: an inverter with its input tied to its output settles at its
+    // switching threshold VM (common practice), the characterised one and one whose PMOS is
+    // SKEW_P times as wide (skewed to switch early on a falling input, as a domino stage's
+    // reader is).
+    for (name, wp) in [("vm0", b.w_p), ("vmk", SKEW_P * b.w_p)] {
+        let node = format!("{name}_x");
+        let w_n = b.w_n;
+        b.dev(name, &node, &node, "vss", false, w_n);
+        b.dev(name, &node, &node, "vdd", true, wp);
+        b.meas.push(format!(
+            "meas tran {name} find v({node}) at={:.4e}",
+            T1 - 0.2e-9
+        ));
+        b.meas.push(name.to_string());
     }
     // Charge: gate (N from 0 up, P from VDD down) and drain of an off device, the drain a
     // contacted end (an isolated device) and, with a diffusion extension, half of a shared
@@ -686,7 +732,13 @@ fn fit_all(
         r_tg_ladder_rise_kohm_um: None,
         r_pass_ladder_fall_kohm_um: None,
         pass_ladder_visible: None,
+        tg_ladder_visible_fall: None,
+        tg_ladder_visible_rise: None,
         slope_fast: None,
+        slew_per_step: None,
+        slew_input_share: None,
+        slope_threshold: None,
+        slope_threshold_gain: None,
         // A to nA per µm of width.
         i_off_n_na_um: Some(r4(
             need("ilk")?.abs() / (CHARGE_DEVICES as f64 * b.w_n) * 1e9
@@ -697,52 +749,131 @@ fn fit_all(
             vdd: t.vdd,
         },
     };
-    // Input-slope share for a fast input: the engine's stage model (0.69·R·(C + C_own) and
-    // the slope term, its cap solved from the FO4) fitted to the single-device load sweeps
-    // (NMOS falling, PMOS rising; the technology's input ramp), by golden-section search on
-    // the squared error. R comes from the same sweeps' slope, so what is fitted is how the
-    // ramp's share depends on the load: one share for both limits (the FO4 alone) makes
-    // that too steep.
-    {
-        let t_in = t.slew * 1e12 * 0.8;
-        let own = b.w_n * timing.c_diff_ff_um(Mos::N, End::Contacted)
-            + b.w_p * timing.c_diff_ff_um(Mos::P, End::Contacted);
-        let mut sweeps = vec![];
-        for (r, tag) in [
-            (timing.r_n_fall_kohm_um[0] / b.w_n, "nd1"),
-            (timing.r_p_rise_kohm_um[0] / b.w_p, "pu1"),
-        ] {
-            for (li, c) in LOADS_FF.iter().enumerate() {
-                sweeps.push((r, *c, need(&format!("t_{tag}_{li}"))? * 1e12));
+    // Slow inputs, part 1: the output transition s = slew_per_step · step + slew_input_share
+    // · t_in (step the engine's 0.69·R·(C + C_own) of the inverter, t_in the ramp's 10–90 %),
+    // least squares on the relative miss over every ramp, load and edge.
+    let own = b.w_n * timing.c_diff_ff_um(Mos::N, End::Contacted)
+        + b.w_p * timing.c_diff_ff_um(Mos::P, End::Contacted);
+    let mut ramps = vec![];
+    for (ri, ramp) in RAMPS_PS.iter().enumerate() {
+        for (li, c) in RAMP_LOADS_FF.iter().enumerate() {
+            for (e, r, sense) in [
+                ("f", timing.r_n_fall_kohm_um[0] / b.w_n, -1.0),
+                ("r", timing.r_p_rise_kohm_um[0] / b.w_p, 1.0),
+            ] {
+                ramps.push(RampPoint {
+                    t_in: 0.8 * ramp,
+                    step: LN2 * r * (c + own),
+                    sense,
+                    delay: need(&format!("t_rmp{ri}_{li}_{e}"))? * 1e12,
+                    slew: need(&format!("s_rmp{ri}_{li}_{e}"))? * 1e12,
+                });
             }
         }
-        // The stage model's miss on every sweep point (ps).
-        let misses = |k: super::engine::Slope| -> Vec<f64> {
-            sweeps
+    }
+    {
+        let (rho, gamma) = fit_two(
+            ramps
                 .iter()
-                .map(|&(r, c, d)| super::engine::stage_delay(LN2 * r * (c + own), t_in, k) - d)
-                .collect()
-        };
-        let err = |fast: f64| -> f64 {
-            super::engine::slope_with_fast(&timing, fast)
-                .map_or(f64::INFINITY, |k| misses(k).iter().map(|e| e * e).sum())
-        };
-        // The fast share is below the single share (the cap above it); search 0.02 up to it.
-        let single = super::engine::slope_share(&timing).fast;
-        let fast = r4(golden_min(0.02, single.max(0.03), err));
-        let (k, worst) = match super::engine::slope_with_fast(&timing, fast) {
-            Some(k) if err(fast) <= err(single) => {
-                timing.slope_fast = Some(fast);
-                (k, misses(k).iter().fold(0.0f64, |m, e| m.max(e.abs())))
-            }
-            _ => (super::engine::slope_share(&timing), f64::NAN),
-        };
+                .map(|p| (p.step / p.slew, p.t_in / p.slew, 1.0)),
+        );
+        timing.slew_per_step = Some(r4(rho));
+        timing.slew_input_share = Some(r4(gamma.clamp(0.0, 0.9)));
+        let worst = ramps.iter().fold(0.0f64, |m, p| {
+            m.max(((rho * p.step + gamma * p.t_in) / p.slew - 1.0).abs())
+        });
         fits.insert(
-            "slope_fast".into(),
+            "slew".into(),
+            Fit {
+                slope: rho,
+                intercept: gamma,
+                worst: 100.0 * worst,
+            },
+        );
+    }
+    // Switching threshold: v = (0.5 − VM / VDD) / 0.8 (the lead of the threshold crossing on
+    // the 50 % point per ps of 10–90 % input transition), and how far VM moves per unit of the
+    // pull-up's share of the drive, G_p / (G_p + G_n) with G = W / R, from the skewed one.
+    {
+        let (vm0, vmk) = (need("vm0")? / t.vdd, need("vmk")? / t.vdd);
+        timing.slope_threshold = Some(r4((0.5 - vm0) / 0.8));
+        let share = |wp: f64| {
+            let gp = wp / timing.r_p_rise_kohm_um[0];
+            let gn = b.w_n / timing.r_n_fall_kohm_um[0];
+            gp / (gp + gn)
+        };
+        let gain = (vmk - vm0) / (share(SKEW_P * b.w_p) - share(b.w_p));
+        timing.slope_threshold_gain = Some(r4(gain.clamp(0.0, 1.0)));
+        fits.insert(
+            "slope_threshold_gain".into(),
+            Fit {
+                slope: gain,
+                intercept: vm0,
+                worst: vmk,
+            },
+        );
+    }
+    // Input slope, part 2: the slow-input share fitted on the ramps and the single-device
+    // load sweeps (the technology's own input ramp), the fast-input share solved at each so
+    // that the model's FO4 equals the measured one, and the switching threshold by least
+    // squares at each; the share with the least squared relative miss wins (a grid of 0.01,
+    // then golden section around the best).
+    {
+        let t_in = t.slew * 1e12 * 0.8;
+        let mut points = ramps;
+        for (r, tag, sense) in [
+            (timing.r_n_fall_kohm_um[0] / b.w_n, "nd1", -1.0),
+            (timing.r_p_rise_kohm_um[0] / b.w_p, "pu1", 1.0),
+        ] {
+            for (li, c) in LOADS_FF.iter().enumerate() {
+                points.push(RampPoint {
+                    t_in,
+                    step: LN2 * r * (c + own),
+                    sense,
+                    delay: need(&format!("t_{tag}_{li}"))? * 1e12,
+                    slew: f64::NAN,
+                });
+            }
+        }
+        let model = |k: super::engine::Slope, p: &RampPoint| {
+            super::engine::node_delay(p.step, p.step, p.t_in, k, p.sense)
+        };
+        // At one slow-input share: the shares with the threshold fitted, and the misses.
+        let at = |cap: f64| -> Option<(super::engine::Slope, Vec<f64>)> {
+            let k = super::engine::slope_for_cap(&timing, cap)?;
+            let miss = points.iter().map(|p| model(k, p) / p.delay - 1.0).collect();
+            Some((k, miss))
+        };
+        let cost =
+            |cap: f64| at(cap).map_or(f64::INFINITY, |(_, m)| m.iter().map(|e| e * e).sum::<f64>());
+        let grid = (5..=300)
+            .map(|i| i as f64 * 0.01)
+            .min_by(|x, y| cost(*x).total_cmp(&cost(*y)))
+            .expect("a grid");
+        let cap = golden_min((grid - 0.01).max(0.01), grid + 0.01, cost);
+        let (k, miss) = at(cap).ok_or_else(|| {
+            Error::Check(format!(
+                "characterize {}: no input-slope shares reproduce the FO4 of {} ps",
+                t.name, timing.fo4_ps
+            ))
+        })?;
+        let threshold = k.ramp.map_or(0.0, |r| r.threshold);
+        timing.slope_fast = Some(r4(k.fast));
+        let k = super::engine::slope_share(&timing);
+        fits.insert(
+            "slope".into(),
             Fit {
                 slope: k.fast,
                 intercept: k.cap,
-                worst,
+                worst: 100.0 * miss.iter().fold(0.0f64, |m, e| m.max(e.abs())),
+            },
+        );
+        fits.insert(
+            "slope_threshold".into(),
+            Fit {
+                slope: threshold,
+                intercept: 0.0,
+                worst: f64::NAN,
             },
         );
     }
@@ -778,7 +909,9 @@ fn fit_all(
                 .collect::<Result<_>>()?;
             data.push((caps, meas));
         }
-        let (r_l, _, worst) = fit_ladder(&data, r_drv, r_single, t_in, k, false);
+        // The driver's input rises for a falling ladder and falls for a rising one.
+        let sense = if rising { 1.0 } else { -1.0 };
+        let (r_l, visible, worst) = fit_ladder(&data, r_drv, r_single, t_in, k, sense, true);
         let v = r4(r_l * wn);
         fits.insert(
             format!("tg_ladder_{edge}"),
@@ -790,8 +923,10 @@ fn fit_all(
         );
         if rising {
             timing.r_tg_ladder_rise_kohm_um = Some(v);
+            timing.tg_ladder_visible_rise = Some(visible);
         } else {
             timing.r_tg_ladder_fall_kohm_um = Some(v);
+            timing.tg_ladder_visible_fall = Some(visible);
         }
     }
     {
@@ -816,7 +951,7 @@ fn fit_all(
                 .collect::<Result<_>>()?;
             data.push((caps, meas));
         }
-        let (r_l, visible, worst) = fit_ladder(&data, r_drv, r_single, t_in, k, true);
+        let (r_l, visible, worst) = fit_ladder(&data, r_drv, r_single, t_in, k, -1.0, true);
         let v = r4(r_l * wn);
         fits.insert(
             "pass_ladder_f".into(),
@@ -897,17 +1032,59 @@ fn render_yaml(t: &Technology, tm: &Timing, fits: &BTreeMap<String, Fit>) -> Str
         w,
         "#   d = tau h + tau p_inv. FO4 is the measured delay at h = 4."
     );
-    let _ = writeln!(w, "# Input slope: a stage adds 1 / (1 / (fast t_in) + 1 / (cap t_step)) to its step delay; fast is");
-    let _ = writeln!(w, "#   fitted to the single-device load sweeps above with cap solved so the model's FO4 equals the");
-    let _ = writeln!(w, "#   measured one (both limits of Hedenstierna & Jeppson 1987 / Sakurai & Newton 1990 in form).");
+    if tm.slew_per_step.is_some() {
+        let _ = writeln!(w, "# Input slope: a stage adds 1 / (1 / (fast t_in) + 1 / (cap sqrt(t_in t_step))) to its step delay,");
+        let _ = writeln!(w, "#   plus or minus slope_threshold x t_in (a falling input reaches the switching threshold later,");
+        let _ = writeln!(
+            w,
+            "#   a rising one sooner). Ramps: an inverter driven by ideal ramps of {} ps (0-100 %;",
+            RAMPS_PS.map(num).join(", ")
+        );
+        let _ = writeln!(w, "#   10-90 % = 0.8 of it) into {} fF, both edges. Output transition slew_per_step x t_step +", RAMP_LOADS_FF.map(num).join(", "));
+        let _ = writeln!(w, "#   slew_input_share x t_in, least squares on the relative miss. Threshold: (0.5 - VM / VDD) / 0.8,");
+        let _ = writeln!(w, "#   VM where an inverter with input tied to output settles; slope_threshold_gain: VM's move per unit");
+        let _ = writeln!(w, "#   of the pull-up's drive share Gp / (Gp + Gn) (G = W / R), from one with a {}x PMOS. cap fitted on", num(SKEW_P));
+        let _ = writeln!(w, "#   the ramps and the single-device load sweeps with fast solved so the model's FO4 equals the measured one.");
+    } else {
+        let _ = writeln!(w, "# Input slope: a stage adds 1 / (1 / (fast t_in) + 1 / (cap t_step)) to its step delay; fast is");
+        let _ = writeln!(w, "#   fitted to the single-device load sweeps above with cap solved so the model's FO4 equals the");
+        let _ = writeln!(w, "#   measured one (both limits of Hedenstierna & Jeppson 1987 / Sakurai & Newton 1990 in form).");
+    }
     let _ = writeln!(w, "# Fits (intercept d0 and worst residual, ps):");
     for (k, f) in fits {
-        if k == "slope_fast" {
-            // Not a line fit: the two slope shares and the stage model's worst miss.
+        if k == "slew" {
             let _ = writeln!(
                 w,
-                "#   {k}: fast-input share {:.3}, slow-input cap {:.3} (from the FO4), worst residual {:.2}",
+                "#   slew: {:.3} x step + {:.3} x t_in, worst residual {:.1} %",
                 f.slope, f.intercept, f.worst
+            );
+            continue;
+        }
+        if k == "slope" {
+            let threshold = fits.get("slope_threshold").map_or(0.0, |f| f.slope);
+            let _ = writeln!(
+                w,
+                "#   slope: fast-input share {:.3} (from the FO4), slow-input share {:.3}, threshold {:.4} x t_in,",
+                f.slope, f.intercept, threshold
+            );
+            let _ = writeln!(
+                w,
+                "#     worst residual {:.1} % over the ramps and the single-device load sweeps",
+                f.worst
+            );
+            continue;
+        }
+        if k == "slope_threshold" {
+            continue;
+        }
+        if k == "slope_threshold_gain" {
+            let _ = writeln!(
+                w,
+                "#   slope_threshold_gain: {:.3} (VM {:.3} VDD, {:.3} VDD with a {}x PMOS)",
+                f.slope,
+                f.intercept,
+                f.worst,
+                num(SKEW_P)
             );
             continue;
         }
@@ -973,6 +1150,14 @@ fn render_yaml(t: &Technology, tm: &Timing, fits: &BTreeMap<String, Fit>) -> Str
         );
         let _ = writeln!(w, "  r_tg_ladder_fall_kohm_um: {}", num(f));
         let _ = writeln!(w, "  r_tg_ladder_rise_kohm_um: {}", num(r));
+        if let (Some(f), Some(r)) = (tm.tg_ladder_visible_fall, tm.tg_ladder_visible_rise) {
+            let _ = writeln!(
+                w,
+                "  tg_ladder_visible_fall: {}   # share of the next gate's downstream a node sees",
+                num(f)
+            );
+            let _ = writeln!(w, "  tg_ladder_visible_rise: {}", num(r));
+        }
     }
     if let Some(f) = tm.r_pass_ladder_fall_kohm_um {
         let _ = writeln!(
@@ -991,8 +1176,36 @@ fn render_yaml(t: &Technology, tm: &Timing, fits: &BTreeMap<String, Fit>) -> Str
     if let Some(f) = tm.slope_fast {
         let _ = writeln!(
             w,
-            "  slope_fast: {}   # input-slope share for a fast input (the FO4 sets the slow-input cap)",
+            "  slope_fast: {}   # input-slope share for a fast input (with the FO4 it sets the slow-input share)",
             num(f)
+        );
+    }
+    if let Some(r) = tm.slew_per_step {
+        let _ = writeln!(
+            w,
+            "  slew_per_step: {}   # output 10-90 % per ps of step delay",
+            num(r)
+        );
+    }
+    if let Some(g) = tm.slew_input_share {
+        let _ = writeln!(
+            w,
+            "  slew_input_share: {}   # share of the input's transition the output's gains",
+            num(g)
+        );
+    }
+    if let Some(v) = tm.slope_threshold {
+        let _ = writeln!(
+            w,
+            "  slope_threshold: {}   # switching threshold below mid-supply, per ps of input transition",
+            num(v)
+        );
+    }
+    if let Some(v) = tm.slope_threshold_gain {
+        let _ = writeln!(
+            w,
+            "  slope_threshold_gain: {}   # threshold's move (share of VDD) per unit of the pull-up's drive share",
+            num(v)
         );
     }
     if let Some(i) = tm.i_off_n_na_um {
@@ -1168,8 +1381,8 @@ fn golden_min(mut lo: f64, mut hi: f64, f: impl Fn(f64) -> f64) -> f64 {
 
 /// Fit the resistance R_L of the gates beyond the first in a ladder: the engine's own ladder
 /// model ([`super::engine::ladder_delays`]: driver `r_drv`, first gate `r_single`, the rest at
-/// R_L, node capacitances in `data`) against the measured arrival at every node beyond the
-/// first, by golden-section search on the squared error. With `with_visible` the share of
+/// R_L, node capacitances in `data`) against the measured arrival at every node past the
+/// driver, by golden-section search on the squared error. With `with_visible` the share of
 /// the next gate's downstream a node sees is fitted too, over 0, 0.05, .., 1 (R_L by
 /// golden section at each). Returns R_L (kΩ), that share (1 without) and the worst
 /// residual (ps).
@@ -1179,13 +1392,15 @@ fn fit_ladder(
     r_single: f64,
     t_in: f64,
     k: super::engine::Slope,
+    sense: f64,
     with_visible: bool,
 ) -> (f64, f64, f64) {
     let residuals = |r_l: f64, vis: f64| -> Vec<f64> {
         data.iter()
             .flat_map(|(caps, meas)| {
-                let model = super::engine::ladder_delays(r_drv, r_single, r_l, vis, caps, t_in, k);
-                (2..meas.len() + 1)
+                let model =
+                    super::engine::ladder_delays(r_drv, r_single, r_l, vis, caps, t_in, k, sense);
+                (1..meas.len() + 1)
                     .map(|j| model[j] - meas[j - 1])
                     .collect::<Vec<_>>()
             })
@@ -1207,4 +1422,29 @@ fn fit_ladder(
         .iter()
         .fold(0.0f64, |m, e| m.max(e.abs()));
     (r_l, vis, worst)
+}
+
+/// One point of the slow-input sweep (ps): the ramp's 10–90 %, the engine's step delay of the
+/// inverter, the sense of the edge ([`super::engine::sense`]), and what ngspice measured.
+struct RampPoint {
+    t_in: f64,
+    step: f64,
+    sense: f64,
+    delay: f64,
+    slew: f64,
+}
+
+/// Least squares 1 ≈ a·x + b·y over (x, y, weight) rows: the (a, b) that minimise
+/// Σ w (a x + b y − 1)² (a relative fit when x and y are divided by the measured value).
+fn fit_two(rows: impl Iterator<Item = (f64, f64, f64)>) -> (f64, f64) {
+    let (mut sxx, mut sxy, mut syy, mut sx, mut sy) = (0.0, 0.0, 0.0, 0.0, 0.0);
+    for (x, y, w) in rows {
+        sxx += w * x * x;
+        sxy += w * x * y;
+        syy += w * y * y;
+        sx += w * x;
+        sy += w * y;
+    }
+    let det = sxx * syy - sxy * sxy;
+    ((sx * syy - sy * sxy) / det, (sy * sxx - sx * sxy) / det)
 }

@@ -10,7 +10,9 @@
 //!
 //! The timing engine starts each input's edge with the slew this driver gives it: the last
 //! stage's switching resistance (the characterised single-device values, mean of rise and
-//! fall) into the pin's capacitance plus its own drains, 2.2·R·C (10–90 % of a single pole).
+//! fall) into the pin's capacitance plus its own drains: 2.2·R·C (10–90 % of a single pole),
+//! or with a ramp characterisation the transition of a chain of like stages
+//! ([`super::engine::Slope::chain_slew`]).
 //! Deck and engine both time from the pin's 50 % crossing.
 
 use super::Timing;
@@ -57,7 +59,7 @@ pub fn pin_slew_ps(spec: &Spec, tm: &Timing, c_pin_ff: f64) -> f64 {
     let wp = wn * spec.sizing.pn_ratio;
     let r = 0.5 * (tm.r_n_fall_kohm_um[0] / wn + tm.r_p_rise_kohm_um[0] / wp);
     let cap = c_pin_ff + wn * tm.c_diff_n_ff_um + wp * tm.c_diff_p_ff_um;
-    super::engine::SLEW_PER_TAU * r * cap
+    super::engine::slope_share(tm).chain_slew(r * cap)
 }
 
 /// The chain's delay from its source's edge to the pin's 50 % (ps), for the deck's timing

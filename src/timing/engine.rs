@@ -37,24 +37,89 @@ pub const LN2: f64 = 0.69;
 pub const SLEW_PER_TAU: f64 = 2.2;
 /// Input-slope term: a stage whose input moves in t_in (10–90 %) is slower than its step
 /// delay t_step by the harmonic combination of two limits, `fast` · t_in (a fast input: the
-/// term grows with the input's transition, whatever the load) and `cap` · t_step (a slow
-/// input: a stage switching near mid-supply sees only part of the ramp):
-/// 1 / (1 / (fast · t_in) + 1 / (cap · t_step)). With fast = cap = k this is
-/// k · t_in · t_step / (t_in + t_step). The shares come from the technology's own
-/// characterisation ([`slope_share`]); no constant is tuned on adders.
+/// term grows with the input's transition, whatever the load) and a slow-input limit (a
+/// stage switching near mid-supply sees only part of the ramp): `cap` · t_step in the
+/// saturating form, `cap` · √(t_in · t_step) with a characterised ramp ([`Ramp`]), whose
+/// delay keeps growing with the input's transition as a real gate's does (the square-root
+/// growth of Horowitz's slow-ramp limit, "Timing models for MOS circuits", Stanford 1983,
+/// from memory). The shares come from the technology's own characterisation
+/// ([`slope_share`]); no constant is tuned on adders.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Slope {
     pub fast: f64,
     pub cap: f64,
+    pub ramp: Option<Ramp>,
+}
+
+/// What the ramp sweep of `characterize` adds to the slope model: output transitions and
+/// the switching threshold.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Ramp {
+    /// Output 10–90 % per ps of step delay (`slew_per_step`).
+    pub slew_per_step: f64,
+    /// Share of the input's transition the output's gains (`slew_input_share`).
+    pub input_share: f64,
+    /// Switching threshold below mid-supply per ps of input transition (`slope_threshold`).
+    pub threshold: f64,
 }
 
 impl Slope {
+    /// The saturating form with one share (no fast share, no ramp).
+    pub fn single(k: f64) -> Slope {
+        Slope {
+            fast: k,
+            cap: k,
+            ramp: None,
+        }
+    }
+
+    /// The slow-input limit per unit of `cap`.
+    fn slow_unit(&self, t_in: f64, step: f64) -> f64 {
+        if self.ramp.is_some() {
+            (t_in * step).max(0.0).sqrt()
+        } else {
+            step
+        }
+    }
+
     pub fn term(&self, t_in: f64, step: f64) -> f64 {
-        let (a, b) = (self.fast * t_in, self.cap * step);
+        let (a, b) = (self.fast * t_in, self.cap * self.slow_unit(t_in, step));
         if a <= 0.0 || b <= 0.0 {
             return 0.0;
         }
         a * b / (a + b)
+    }
+
+    /// The output transition (10–90 %, ps) of a node whose impulse response has the mean
+    /// `tau` (its Elmore delay) and the spread `spread` (both equal for a single pole), the
+    /// logic devices' share of its step `logic`, triggered by an input moving in `t_in`:
+    /// 2.2 × Elmore without a ramp characterisation; else `slew_per_step` × 0.69 × spread
+    /// (the characterised transition of a lumped stage per ps of its step delay, the spread
+    /// standing for the mean so that a ladder's far node, whose response is narrower than its
+    /// delay, is not given the whole delay as its edge: the second-moment spread, Kashyap,
+    /// Alpert, Liu & Devgan, IEEE TCAD 2004, from memory), plus `slew_input_share` × t_in
+    /// when the input drives the node's logic devices.
+    pub fn slew(&self, tau: f64, spread: f64, logic: f64, t_in: f64) -> f64 {
+        match self.ramp {
+            None => SLEW_PER_TAU * tau,
+            Some(r) => {
+                let passed = if logic > 0.0 {
+                    r.input_share * t_in
+                } else {
+                    0.0
+                };
+                r.slew_per_step * LN2 * spread + passed
+            }
+        }
+    }
+
+    /// The transition in a chain of like stages, each driven by the one before (an FO4
+    /// chain, a tapered driver), of a stage whose Elmore delay is `tau`.
+    pub fn chain_slew(&self, tau: f64) -> f64 {
+        match self.ramp {
+            None => SLEW_PER_TAU * tau,
+            Some(r) => r.slew_per_step * LN2 * tau / (1.0 - r.input_share),
+        }
     }
 }
 
@@ -69,9 +134,27 @@ pub fn stage_delay(step: f64, t_in: f64, k: Slope) -> f64 {
 /// input's slope acts on the devices whose gates it drives, the logic devices of the path
 /// (driver, pull-up or pull-down stack), whose share of the step is `logic`; the pass devices
 /// and transmission gates beyond them add their RC delay unchanged (their gates are steady).
-pub fn node_delay(step: f64, logic: f64, t_in: f64, k: Slope) -> f64 {
+/// `sense` is +1 for a falling input driving a rising node, −1 for a rising input driving a
+/// falling one, 0 otherwise: with a ramp characterisation the switching threshold's offset
+/// from mid-supply moves the delay by `threshold` × t_in that way (never below the step).
+pub fn node_delay(step: f64, logic: f64, t_in: f64, k: Slope, sense: f64) -> f64 {
     let logic = logic.min(step);
-    stage_delay(logic, t_in, k) + (step - logic)
+    let shift = match k.ramp {
+        Some(r) if logic > 0.0 => sense * r.threshold * t_in,
+        _ => 0.0,
+    };
+    let slope = stage_delay(logic, t_in, k) - logic;
+    logic + (slope + shift).max(0.0) + (step - logic)
+}
+
+/// The sense of a stage's response for [`node_delay`]: +1 input falling and node rising, −1
+/// input rising and node falling, 0 otherwise.
+pub fn sense(input_rises: bool, node_rises: bool) -> f64 {
+    match (input_rises, node_rises) {
+        (false, true) => 1.0,
+        (true, false) => -1.0,
+        _ => 0.0,
+    }
 }
 
 /// The two-moment step delay of an RC tree node (D2M: ln 2 · m1² / √m2; Alpert, Devgan &
@@ -91,9 +174,11 @@ pub fn d2m(m1: f64, m2: f64) -> f64 {
 /// (a logic device whose input moves in `t_in`) into node 0, then a gate of `r_first` (node 0
 /// to 1) and gates of `r_rest` (each further one); `caps` holds the node capacitances 0..=N,
 /// every node switching; each node sees the share `visible` of what lies one gate further
-/// ([`Graph::solve`]'s per-target view; 1 for transmission gates). It is the model
+/// ([`Graph::solve`]'s per-target view: the technology's `pass_ladder_visible` or
+/// `tg_ladder_visible_*`, 1 without). It is the model
 /// [`Graph::solve`] and [`node_delay`] apply to any tree, written out for a ladder:
 /// `characterize` fits `r_rest` (and `visible`) with it.
+#[allow(clippy::too_many_arguments)]
 pub fn ladder_delays(
     r_drv: f64,
     r_first: f64,
@@ -102,6 +187,7 @@ pub fn ladder_delays(
     caps: &[f64],
     t_in: f64,
     k: Slope,
+    sense: f64,
 ) -> Vec<f64> {
     let n = caps.len();
     let order: Vec<u32> = (0..n as u32).collect();
@@ -131,7 +217,7 @@ pub fn ladder_delays(
         &order, &pred, &alpha, &rpath, &cm, &mut d, &mut a, &mut b, &mut m2,
     );
     (0..n)
-        .map(|i| node_delay(d2m(m1[i], m2[i]), logic, t_in, k))
+        .map(|i| node_delay(d2m(m1[i], m2[i]), logic, t_in, k, sense))
         .collect()
 }
 
@@ -139,37 +225,132 @@ pub fn ladder_delays(
 /// widths, four copies of itself as load, driven by an identical stage) as slow as the
 /// characterised `fo4_ps`. With the technology's fast-input share (`slope_fast`) the cap is
 /// solved for ([`slope_with_fast`]); without one, or when no cap reproduces the FO4 with it,
-/// one share serves both limits (clamped to 0..2).
+/// one share serves both limits (clamped to 0..2). A ramp characterisation (`slew_per_step`,
+/// `slew_input_share`, `slope_threshold`) selects the growing slow-input limit and the
+/// transitions of [`Slope::slew`].
 pub fn slope_share(tm: &Timing) -> Slope {
     if let Some(s) = tm.slope_fast.and_then(|f| slope_with_fast(tm, f)) {
         return s;
     }
-    let (step, t_in) = fo4_model(tm);
-    let per_k = t_in * step / (t_in + step);
+    let ramp = ramp_of(tm);
+    let (step, t_in) = fo4_model(tm, ramp);
+    let unit = Slope {
+        ramp,
+        ..Slope::single(1.0)
+    };
+    let per_k = unit.term(t_in, step);
     let k = ((tm.fo4_ps - step) / per_k).clamp(0.0, 2.0);
-    Slope { fast: k, cap: k }
+    Slope {
+        ramp,
+        ..Slope::single(k)
+    }
+}
+
+/// The ramp characterisation of a technology, when its file has one.
+pub fn ramp_of(tm: &Timing) -> Option<Ramp> {
+    Some(Ramp {
+        slew_per_step: tm.slew_per_step?,
+        input_share: tm.slew_input_share.unwrap_or(0.0),
+        threshold: tm.slope_threshold.unwrap_or(0.0),
+    })
 }
 
 /// The model's FO4 stage: its step delay and its input's transition, ps.
-fn fo4_model(tm: &Timing) -> (f64, f64) {
+fn fo4_model(tm: &Timing, ramp: Option<Ramp>) -> (f64, f64) {
     let (wn, wp) = (tm.n_width_um, tm.p_width_um);
     let c_in = wn * tm.c_gate_n_ff_um + wp * tm.c_gate_p_ff_um;
     let c_self = wn * tm.c_diff_n_ff_um + wp * tm.c_diff_p_ff_um;
     let c = 4.0 * c_in + c_self;
     let tau = 0.5 * (tm.r_n_fall_kohm_um[0] / wn + tm.r_p_rise_kohm_um[0] / wp) * c;
-    (LN2 * tau, SLEW_PER_TAU * tau)
+    let k = Slope {
+        ramp,
+        ..Slope::single(1.0)
+    };
+    (LN2 * tau, k.chain_slew(tau))
 }
 
 /// The slope shares with the fast-input share given and the cap solved from the FO4:
-/// 1 / (fo4 − step) = 1 / (fast · t_in) + 1 / (cap · step). None when the fast share alone
-/// cannot reach the FO4 (no finite cap does).
+/// 1 / (fo4 − step) = 1 / (fast · t_in) + 1 / (cap · slow), slow = step (saturating) or
+/// √(t_in · step) (with a ramp characterisation). None when the fast share alone cannot
+/// reach the FO4 (no finite cap does).
 pub fn slope_with_fast(tm: &Timing, fast: f64) -> Option<Slope> {
-    let (step, t_in) = fo4_model(tm);
+    let ramp = ramp_of(tm);
+    let (step, t_in) = fo4_model(tm, ramp);
     let extra = tm.fo4_ps - step;
     let inv = 1.0 / extra - 1.0 / (fast * t_in);
+    let unit = Slope {
+        ramp,
+        ..Slope::single(1.0)
+    };
     (extra > 0.0 && fast > 0.0 && inv > 0.0).then(|| Slope {
         fast,
-        cap: 1.0 / (inv * step),
+        cap: 1.0 / (inv * unit.slow_unit(t_in, step)),
+        ramp,
+    })
+}
+
+/// The slope shares an edge on node `x` meets in stage `st`: the switching threshold moved
+/// from the plain inverter's by the technology's `slope_threshold_gain` times the change in
+/// the pull-up's share of the drive, G_p / (G_p + G_n), G = W / R over the devices `x` gates
+/// with a channel end at their own rail (a gate skewed to a strong pull-up switches early on
+/// a falling input: Rabaey, Chandrakasan & Nikolić §5.3 on the switching threshold, common
+/// practice). Where `x` gates devices at only one rail (a clocked foot, a pass device) the
+/// plain inverter's threshold stands.
+pub fn gate_slope(
+    tm: &Timing,
+    k: Slope,
+    devs: &[Dev],
+    kind: &[NodeKind],
+    st: &Stage,
+    x: u32,
+) -> Slope {
+    let (Some(mut ramp), Some(gain)) = (k.ramp, tm.slope_threshold_gain) else {
+        return k;
+    };
+    let (rp, rn) = (tm.r_p_rise_kohm_um[0], tm.r_n_fall_kohm_um[0]);
+    let (mut gp, mut gn) = (0.0, 0.0);
+    for &di in &st.devs {
+        let d = &devs[di as usize];
+        if d.g != x || d.role == Role::Keeper {
+            continue;
+        }
+        let at = |r: NodeKind| kind[d.a as usize] == r || kind[d.b as usize] == r;
+        match d.mos {
+            Mos::P if at(NodeKind::Vdd) => gp += d.w / (rp * d.l),
+            Mos::N if at(NodeKind::Vss) => gn += d.w / (rn * d.l),
+            _ => {}
+        }
+    }
+    if gp <= 0.0 || gn <= 0.0 {
+        return k;
+    }
+    let h0 = {
+        let (p, n) = (tm.p_width_um / rp, tm.n_width_um / rn);
+        p / (p + n)
+    };
+    // v = (0.5 − VM) / 0.8 (the threshold's lead on the 50 % point per ps of 10–90 %).
+    ramp.threshold -= gain * (gp / (gp + gn) - h0) / 0.8;
+    Slope {
+        ramp: Some(ramp),
+        ..k
+    }
+}
+
+/// The slope shares with the slow-input share `cap` given and the fast one solved from the
+/// FO4 (the inverse of [`slope_with_fast`]). None when no fast share reaches the FO4 with it.
+pub fn slope_for_cap(tm: &Timing, cap: f64) -> Option<Slope> {
+    let ramp = ramp_of(tm);
+    let (step, t_in) = fo4_model(tm, ramp);
+    let extra = tm.fo4_ps - step;
+    let unit = Slope {
+        ramp,
+        ..Slope::single(1.0)
+    };
+    let inv = 1.0 / extra - 1.0 / (cap * unit.slow_unit(t_in, step));
+    (extra > 0.0 && cap > 0.0 && inv > 0.0).then(|| Slope {
+        fast: 1.0 / (inv * t_in),
+        cap,
+        ramp,
     })
 }
 
@@ -230,6 +411,9 @@ pub struct Graph {
     pub local: Vec<u32>,
     /// Stages whose devices a node gates.
     pub fanout: Vec<Vec<u32>>,
+    /// The slope shares a node's edge meets in each of those stages: `slope_k` with the
+    /// switching threshold of the devices it gates there ([`gate_slope`]).
+    pub fanout_slope: Vec<Vec<Slope>>,
     /// Devices whose channel touches a node: (device, other end).
     pub adj: Vec<Vec<(u32, u32)>>,
     pub inputs: Vec<u32>,
@@ -452,6 +636,18 @@ impl Graph {
                 }
             }
         }
+        let slope_k = slope_share(tm);
+        let fanout_slope = fanout
+            .iter()
+            .enumerate()
+            .map(|(x, sts)| {
+                sts.iter()
+                    .map(|&si| {
+                        gate_slope(tm, slope_k, &devs, &kind, &stages[si as usize], x as u32)
+                    })
+                    .collect()
+            })
+            .collect();
         let width = spec.width;
         let key_nodes = stages
             .iter()
@@ -492,6 +688,7 @@ impl Graph {
             stage_of,
             local,
             fanout,
+            fanout_slope,
             adj,
             inputs,
             outputs,
@@ -503,7 +700,7 @@ impl Graph {
             // The deck's sources ramp 0–100 % in `slew`; 10–90 % is 0.8 of it.
             input_slew_ps: ideal_slew,
             input_slews,
-            slope_k: slope_share(tm),
+            slope_k,
             tm: tm.clone(),
             key_nodes,
             key_refs,
@@ -597,10 +794,20 @@ impl Graph {
     /// Share of the downstream beyond device `d` that the node feeding it sees while it
     /// crosses: a lone pass NMOS passing a 0 into precharged nodes conducts only once its
     /// source has fallen by a threshold, so what lies beyond it is partly hidden (the
-    /// technology's fitted `pass_ladder_visible`); every other device shows all of it.
+    /// technology's fitted `pass_ladder_visible`); a transmission gate shows the share fitted
+    /// on transmission-gate ladders (`tg_ladder_visible_fall/rise`); every other device shows
+    /// all of it.
     fn visibility(&self, d: &Dev, v: bool) -> f64 {
-        if !v && d.role == Role::Pass && d.mos == Mos::N && d.partner == NONE {
-            self.tm.pass_ladder_visible.unwrap_or(1.0)
+        let t = &self.tm;
+        if d.partner != NONE {
+            if v {
+                t.tg_ladder_visible_rise
+            } else {
+                t.tg_ladder_visible_fall
+            }
+            .unwrap_or(1.0)
+        } else if !v && d.role == Role::Pass && d.mos == Mos::N {
+            t.pass_ladder_visible.unwrap_or(1.0)
         } else {
             1.0
         }
@@ -765,8 +972,13 @@ impl Ord for HeapItem {
 pub struct Driven {
     pub node: u32,
     pub value: bool,
-    /// Elmore delay (ps) times the fight factor (the output slew is 2.2 × this).
+    /// Elmore delay (ps) times the fight factor (2.2 × this is the output slew without a
+    /// ramp characterisation).
     pub tau_ps: f64,
+    /// Spread of the impulse response (ps): √(2·m2 − m1²), the standard deviation of the
+    /// node's response (equal to the Elmore delay for a single pole, smaller at the far end
+    /// of a ladder), times the fight factor.
+    pub spread_ps: f64,
     /// Step delay (ps, the two-moment metric [`d2m`]) times the fight factor.
     pub step_ps: f64,
     /// The logic devices' share of the step (0.69 × their R × what each charges, ps, fight
@@ -1100,6 +1312,7 @@ impl Graph {
                     node: x,
                     value: v,
                     tau_ps: m1 * factor,
+                    spread_ps: (2.0 * sc.m2[l] - m1 * m1).max(0.0).sqrt() * factor,
                     step_ps: d2m(m1, sc.m2[l]) * factor,
                     logic_ps: LN2 * sc.tlogic[l] * factor,
                     dev: sc.pred[vi][l].1,
@@ -1170,6 +1383,9 @@ fn visible_sums(
 /// One node transition of a timed run.
 #[derive(Debug, Clone, Copy)]
 pub struct Event {
+    /// This change takes its node back before its last edge had finished, and called off
+    /// what that edge had scheduled ([`Sim::run_timed`]).
+    pub filters: bool,
     pub node: u32,
     pub value: bool,
     pub time_ps: f64,
@@ -1459,6 +1675,7 @@ impl<'g> Sim<'g> {
                     slew_ps: g.input_slews[x as usize],
                     cause: NONE,
                     dev: NONE,
+                    filters: false,
                 });
                 self.pending[x as usize] = id;
                 self.proj[x as usize] = v;
@@ -1484,43 +1701,106 @@ impl<'g> Sim<'g> {
                     "timing: too many events (the circuit oscillates?)".into(),
                 ));
             }
-            for k in 0..g.fanout[x].len() {
-                let st = g.fanout[x][k];
-                let (a, b) = self.solve_cached(st);
-                for i in a..b {
-                    let d = &self.solved[i];
-                    let y = d.node as usize;
-                    let delay = node_delay(d.step_ps, d.logic_ps, e.slew_ps, g.slope_k);
-                    let on_its_way = d.value == self.proj[y];
-                    if on_its_way {
-                        // Already on its way: only an earlier arrival under the new
-                        // conditions (a fight ended, a stronger path opened) replaces it.
-                        let p = self.pending[y];
-                        if p == NONE || t + delay >= self.events[p as usize].time_ps {
-                            continue;
-                        }
-                    } else if d.value == self.val[y] {
-                        // A pending change is called off.
-                        self.pending[y] = NONE;
-                        self.proj[y] = d.value;
+            self.propagate(id, t);
+        }
+        Ok(())
+    }
+
+    /// Solve the stages that the node of event `id` gates and schedule every change, each at
+    /// the event's time plus its delay and no earlier than `now`.
+    ///
+    /// A change that takes a node back before its last edge has finished (a pulse narrower
+    /// than its own 10–90 % transition, with a ramp characterisation) does not swing far
+    /// enough to switch the node's readers (inertial filtering, common practice in
+    /// event-driven timing): what that edge scheduled and has not yet happened is called off
+    /// at once. Should the change itself be called off later, the readers are solved again
+    /// from that edge.
+    fn propagate(&mut self, id: u32, now: f64) {
+        let g = self.g;
+        let e = self.events[id as usize];
+        let x = e.node as usize;
+        let mut restore = vec![];
+        for k in 0..g.fanout[x].len() {
+            let st = g.fanout[x][k];
+            let slope = g.fanout_slope[x][k];
+            let (a, b) = self.solve_cached(st);
+            for i in a..b {
+                let d = self.solved[i];
+                let y = d.node as usize;
+                let delay = node_delay(
+                    d.step_ps,
+                    d.logic_ps,
+                    e.slew_ps,
+                    slope,
+                    sense(e.value, d.value),
+                );
+                let at = (e.time_ps + delay).max(now);
+                let mut filters = false;
+                let on_its_way = d.value == self.proj[y];
+                if on_its_way {
+                    // Already on its way: only an earlier arrival under the new conditions (a
+                    // fight ended, a stronger path opened) replaces it.
+                    let p = self.pending[y];
+                    if p == NONE || at >= self.events[p as usize].time_ps {
                         continue;
                     }
-                    let nid = self.events.len() as u32;
-                    self.events.push(Event {
-                        node: d.node,
-                        value: d.value,
-                        time_ps: t + delay,
-                        slew_ps: SLEW_PER_TAU * d.tau_ps,
-                        cause: id,
-                        dev: d.dev,
-                    });
-                    self.pending[y] = nid;
+                    filters = self.events[p as usize].filters;
+                } else if d.value == self.val[y] {
+                    // A pending change is called off.
+                    let p = self.pending[y];
+                    if p != NONE && self.events[p as usize].filters {
+                        restore.push(y);
+                    }
+                    self.pending[y] = NONE;
                     self.proj[y] = d.value;
-                    self.heap.push(Reverse((time_key(t + delay), nid)));
+                    continue;
+                }
+                let prev = self.last[y];
+                if !filters && g.slope_k.ramp.is_some() && prev != NONE {
+                    let p = self.events[prev as usize];
+                    if at - p.time_ps < p.slew_ps {
+                        filters = true;
+                        self.call_off_caused(prev);
+                    }
+                }
+                let nid = self.events.len() as u32;
+                self.events.push(Event {
+                    node: d.node,
+                    value: d.value,
+                    time_ps: at,
+                    slew_ps: slope.slew(d.tau_ps, d.spread_ps, d.logic_ps, e.slew_ps),
+                    cause: id,
+                    dev: d.dev,
+                    filters,
+                });
+                self.pending[y] = nid;
+                self.proj[y] = d.value;
+                self.heap.push(Reverse((time_key(at), nid)));
+            }
+        }
+        for y in restore {
+            let l = self.last[y];
+            if l != NONE {
+                self.propagate(l, now);
+            }
+        }
+    }
+
+    /// Call off every pending change that event `prev` caused.
+    fn call_off_caused(&mut self, prev: u32) {
+        let g = self.g;
+        let x = self.events[prev as usize].node as usize;
+        for k in 0..g.fanout[x].len() {
+            let st = g.fanout[x][k] as usize;
+            for &z in &g.stages[st].nodes {
+                let z = z as usize;
+                let q = self.pending[z];
+                if q != NONE && self.events[q as usize].cause == prev {
+                    self.pending[z] = NONE;
+                    self.proj[z] = self.val[z];
                 }
             }
         }
-        Ok(())
     }
 
     /// Switched capacitance of the latest timed run: every transition that happened,
@@ -1640,10 +1920,12 @@ impl Topo {
                     }
                 });
             for (x, (step, logic, tau)) in slowest_taus(g, si) {
-                let d = node_delay(step, logic, s_in, g.slope_k);
+                // The slowest sense: the bound takes the threshold's shift that delays.
+                let d = node_delay(step, logic, s_in, g.slope_k, 1.0);
                 delay[x as usize] = d;
                 arrival[x as usize] = t_in + d;
-                slew[x as usize] = SLEW_PER_TAU * tau;
+                // The bound takes the widest edge: the Elmore delay as the spread.
+                slew[x as usize] = g.slope_k.slew(tau, tau, logic, s_in);
             }
             for &r in &readers[si] {
                 indeg[r as usize] -= 1;

@@ -85,6 +85,13 @@ pub struct Timing {
     /// threshold), 0..1, fitted with `r_pass_ladder_fall_kohm_um`. Absent: 1 (all of it).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub pass_ladder_visible: Option<f64>,
+    /// The same share for a transmission gate, falling and rising (a near node of a
+    /// transmission-gate ladder crosses before the far nodes' charge has moved), fitted with
+    /// `r_tg_ladder_fall/rise_kohm_um`. Absent: 1.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub tg_ladder_visible_fall: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub tg_ladder_visible_rise: Option<f64>,
     /// Input-slope share for a fast input ([`crate::timing::engine::Slope::fast`]): the
     /// delay a stage adds per ps of its input's 10–90 % transition while that is short
     /// against the stage's own step. Fitted on the single-device load sweeps together with
@@ -92,6 +99,29 @@ pub struct Timing {
     /// both limits, fitted to the FO4 alone.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub slope_fast: Option<f64>,
+    /// A stage's output transition (10–90 %) per ps of its step delay, for a fast input:
+    /// fitted with `slew_input_share` on an inverter driven by ramps of 40 to 1,280 ps into
+    /// 4, 8 and 32 fF. Absent in older files: a single pole's 2.2 × the Elmore delay, the
+    /// input's transition not passed on, and the saturating slow-input limit
+    /// ([`crate::timing::engine::Slope`]).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub slew_per_step: Option<f64>,
+    /// Share of a stage's input transition that its output transition gains (the output
+    /// switches while the input is still moving, so its drive is not yet full), 0..1.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub slew_input_share: Option<f64>,
+    /// The inverter's switching threshold below mid-supply, as a share of the input's
+    /// 10–90 % transition: a falling input reaches it that much later than its 50 % point, a
+    /// rising one that much earlier (the delay gains or loses it). Fitted on the same ramps.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub slope_threshold: Option<f64>,
+    /// How far the switching threshold moves (as a share of VDD) per unit of the pull-up's
+    /// share of the drive, G_p / (G_p + G_n) with G = W / R of the devices an input gates at
+    /// each rail: fitted on an inverter with a PMOS three times as wide (a gate skewed to
+    /// switch early on a falling input, as a domino stage's reader is). Absent: 0 (every
+    /// gate's threshold is the plain inverter's).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub slope_threshold_gain: Option<f64>,
     /// Off-state leakage of an NMOS (gate and source at 0, drain at VDD), nA per µm of width,
     /// for the keeper's holding rule. Absent in older files: the rule is not checked.
     #[serde(default, skip_serializing_if = "Option::is_none")]
@@ -179,18 +209,45 @@ impl Timing {
         if let Some(v) = self.slope_fast {
             named.push(("slope_fast", v));
         }
+        if let Some(v) = self.slew_per_step {
+            named.push(("slew_per_step", v));
+        }
+        for (k, v) in [
+            ("slew_input_share", self.slew_input_share),
+            ("slope_threshold", self.slope_threshold),
+        ] {
+            if let Some(v) = v {
+                if !(v.is_finite() && v.abs() < 1.0) {
+                    return Err((
+                        format!("timing.{k}"),
+                        format!("must be a share between -1 and 1, got {v}"),
+                    ));
+                }
+            }
+        }
+        if let Some(v) = self.slope_threshold_gain {
+            if !(0.0..=1.0).contains(&v) {
+                return Err((
+                    "timing.slope_threshold_gain".into(),
+                    format!("must be between 0 and 1, got {v}"),
+                ));
+            }
+        }
         if let Some(v) = self.c_gate_pass_n_ff_um {
             named.push(("c_gate_pass_n_ff_um", v));
         }
         if let Some(v) = self.c_gate_pass_p_ff_um {
             named.push(("c_gate_pass_p_ff_um", v));
         }
-        if let Some(v) = self.pass_ladder_visible {
-            if !(0.0..=1.0).contains(&v) {
-                return Err((
-                    "pass_ladder_visible".into(),
-                    format!("must be between 0 and 1, got {v}"),
-                ));
+        for (k, v) in [
+            ("pass_ladder_visible", self.pass_ladder_visible),
+            ("tg_ladder_visible_fall", self.tg_ladder_visible_fall),
+            ("tg_ladder_visible_rise", self.tg_ladder_visible_rise),
+        ] {
+            if let Some(v) = v {
+                if !(0.0..=1.0).contains(&v) {
+                    return Err((k.into(), format!("must be between 0 and 1, got {v}")));
+                }
             }
         }
         for (i, v) in self.r_n_fall_kohm_um.iter().enumerate() {
