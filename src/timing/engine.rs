@@ -1778,6 +1778,10 @@ impl<'g> Sim<'g> {
                 self.heap.push(Reverse((time_key(at), nid)));
             }
         }
+        // (Bounded like the run itself: an oscillation stops at the event limit there.)
+        if self.events.len() > 200 * (g.n_nodes() + 10) {
+            return;
+        }
         for y in restore {
             let l = self.last[y];
             if l != NONE {
