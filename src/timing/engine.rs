@@ -16,9 +16,11 @@
 //!   NMOS, pull-up PMOS, pass NMOS, transmission gate; series stacks with the characterised
 //!   stack values), counting the capacitance of the nodes that switch; a ladder of N pass
 //!   devices gives 0.69·R·C·N(N+1)/2 (Rabaey, Chandrakasan & Nikolić, §6.2.3). Then a slope
-//!   term (a fraction of the triggering input's transition time) and, where a weaker path
-//!   opposes the transition (a keeper), the fight factor 1 / (1 − R_win / R_opp) (the net
-//!   current is the difference of the two paths' currents, linearised).
+//!   term (growing with the triggering input's transition time, shifted by the gate's
+//!   switching threshold: [`Slope`], [`gate_slope`]) and, where a weaker path opposes the
+//!   transition (a keeper), the fight factor 1 / (1 − R_win / R_opp) (the net current is the
+//!   difference of the two paths' currents, linearised). A pulse narrower than its own edge
+//!   does not switch its readers ([`Sim::run_timed`]).
 //! - Each event remembers the event whose evaluation caused it, so the latest output event
 //!   traces back to its input: the critical path with each stage's share.
 
