@@ -8,7 +8,7 @@
 //! full-width design with buffers exactly at the segment's two ends, so the buffer at its
 //! start, the slope it passes on, and the load at its end are the real ones. Segments differ
 //! only by length and by whether they start at cin or end at cout, so there are three cost
-//! tables of at most width / block lengths each. Then best[j] = min over i < j of best[i] +
+//! tables of at most width / block lengths each. Then best\[j\] = min over i < j of best\[i\] +
 //! cost(i, j) (fewer buffers on a tie) gives the positions that minimise the carry's arrival
 //! at cout in the model. In dynamic style a segment may not be longer than the keeper check
 //! lets through (`timing::keeper::longest_passing_chain`).
