@@ -206,7 +206,8 @@ enum Command {
         format: Option<String>,
     },
     /// Characterise a technology in ngspice (switching resistances, capacitances, pass
-    /// devices, FO4, tau, p_inv) and write a technology file carrying the timing parameters.
+    /// devices, ladders, slow-input ramps, switching thresholds, FO4, tau, p_inv) and write a
+    /// technology file carrying the timing parameters.
     Characterize {
         /// A built-in technology or a technology .yaml file.
         #[arg(long, value_name = "T")]
