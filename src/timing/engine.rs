@@ -1014,6 +1014,9 @@ pub struct Scratch {
     /// it against the drive, and each node's fight ratio over all of them.
     gk: Vec<f64>,
     kratio: Vec<f64>,
+    /// Per node, the step delay of the last node its path reaches through a logic device
+    /// (the logic devices' own output, where an input's slope acts).
+    anchor: Vec<f64>,
     up: Vec<u32>,
     below: Vec<u32>,
     children: Vec<u32>,
@@ -1124,6 +1127,7 @@ impl Graph {
             &mut sc.vis_b,
             &mut sc.gk,
             &mut sc.kratio,
+            &mut sc.anchor,
         ] {
             refill(v, m, 0.0);
         }
@@ -1282,6 +1286,20 @@ impl Graph {
                     );
                 }
             }
+            // With a ramp characterisation an input's slope acts once, on the logic devices'
+            // own output: the nodes past it (a ladder the driver feeds) follow that node, so
+            // none of them gets a larger logic share than its step.
+            if self.slope_k.ramp.is_some() {
+                for &li in order.iter() {
+                    let l = li as usize;
+                    let (p, di) = sc.pred[vi][l];
+                    sc.anchor[l] = if p == NONE || self.is_stack_dev(di, val) {
+                        d2m(sc.tau[l], sc.m2[l])
+                    } else {
+                        sc.anchor[p as usize]
+                    };
+                }
+            }
             for &li in order.iter() {
                 let l = li as usize;
                 if win(l, sc) != Some(v) {
@@ -1316,7 +1334,11 @@ impl Graph {
                     tau_ps: m1 * factor,
                     spread_ps: (2.0 * sc.m2[l] - m1 * m1).max(0.0).sqrt() * factor,
                     step_ps: d2m(m1, sc.m2[l]) * factor,
-                    logic_ps: LN2 * sc.tlogic[l] * factor,
+                    logic_ps: if self.slope_k.ramp.is_some() {
+                        (LN2 * sc.tlogic[l]).min(sc.anchor[l]) * factor
+                    } else {
+                        LN2 * sc.tlogic[l] * factor
+                    },
                     dev: sc.pred[vi][l].1,
                 });
             }
