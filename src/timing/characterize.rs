@@ -857,7 +857,6 @@ fn fit_all(
                 t.name, timing.fo4_ps
             ))
         })?;
-        let threshold = k.ramp.map_or(0.0, |r| r.threshold);
         timing.slope_fast = Some(r4(k.fast));
         let k = super::engine::slope_share(&timing);
         fits.insert(
@@ -866,14 +865,6 @@ fn fit_all(
                 slope: k.fast,
                 intercept: k.cap,
                 worst: 100.0 * miss.iter().fold(0.0f64, |m, e| m.max(e.abs())),
-            },
-        );
-        fits.insert(
-            "slope_threshold".into(),
-            Fit {
-                slope: threshold,
-                intercept: 0.0,
-                worst: f64::NAN,
             },
         );
     }
@@ -1061,7 +1052,7 @@ fn render_yaml(t: &Technology, tm: &Timing, fits: &BTreeMap<String, Fit>) -> Str
             continue;
         }
         if k == "slope" {
-            let threshold = fits.get("slope_threshold").map_or(0.0, |f| f.slope);
+            let threshold = tm.slope_threshold.unwrap_or(0.0);
             let _ = writeln!(
                 w,
                 "#   slope: fast-input share {:.3} (from the FO4), slow-input share {:.3}, threshold {:.4} x t_in,",
@@ -1072,9 +1063,6 @@ fn render_yaml(t: &Technology, tm: &Timing, fits: &BTreeMap<String, Fit>) -> Str
                 "#     worst residual {:.1} % over the ramps and the single-device load sweeps",
                 f.worst
             );
-            continue;
-        }
-        if k == "slope_threshold" {
             continue;
         }
         if k == "slope_threshold_gain" {
@@ -1173,40 +1161,36 @@ fn render_yaml(t: &Technology, tm: &Timing, fits: &BTreeMap<String, Fit>) -> Str
             );
         }
     }
-    if let Some(f) = tm.slope_fast {
-        let _ = writeln!(
-            w,
-            "  slope_fast: {}   # input-slope share for a fast input (with the FO4 it sets the slow-input share)",
-            num(f)
-        );
-    }
-    if let Some(r) = tm.slew_per_step {
-        let _ = writeln!(
-            w,
-            "  slew_per_step: {}   # output 10-90 % per ps of step delay",
-            num(r)
-        );
-    }
-    if let Some(g) = tm.slew_input_share {
-        let _ = writeln!(
-            w,
-            "  slew_input_share: {}   # share of the input's transition the output's gains",
-            num(g)
-        );
-    }
-    if let Some(v) = tm.slope_threshold {
-        let _ = writeln!(
-            w,
-            "  slope_threshold: {}   # switching threshold below mid-supply, per ps of input transition",
-            num(v)
-        );
-    }
-    if let Some(v) = tm.slope_threshold_gain {
-        let _ = writeln!(
-            w,
-            "  slope_threshold_gain: {}   # threshold's move (share of VDD) per unit of the pull-up's drive share",
-            num(v)
-        );
+    for (k, v, what) in [
+        (
+            "slope_fast",
+            tm.slope_fast,
+            "input-slope share for a fast input (with the FO4 it sets the slow-input share)",
+        ),
+        (
+            "slew_per_step",
+            tm.slew_per_step,
+            "output 10-90 % per ps of step delay",
+        ),
+        (
+            "slew_input_share",
+            tm.slew_input_share,
+            "share of the input's transition the output's gains",
+        ),
+        (
+            "slope_threshold",
+            tm.slope_threshold,
+            "switching threshold below mid-supply, per ps of input transition",
+        ),
+        (
+            "slope_threshold_gain",
+            tm.slope_threshold_gain,
+            "threshold's move (share of VDD) per unit of the pull-up's drive share",
+        ),
+    ] {
+        if let Some(v) = v {
+            let _ = writeln!(w, "  {k}: {}   # {what}", num(v));
+        }
     }
     if let Some(i) = tm.i_off_n_na_um {
         let _ = writeln!(

@@ -145,8 +145,7 @@ pub fn node_delay(step: f64, logic: f64, t_in: f64, k: Slope, sense: f64) -> f64
         Some(r) if logic > 0.0 => sense * r.threshold * t_in,
         _ => 0.0,
     };
-    let slope = stage_delay(logic, t_in, k) - logic;
-    logic + (slope + shift).max(0.0) + (step - logic)
+    logic + (k.term(t_in, logic) + shift).max(0.0) + (step - logic)
 }
 
 /// The sense of a stage's response for [`node_delay`]: +1 input falling and node rising, −1
@@ -234,16 +233,10 @@ pub fn slope_share(tm: &Timing) -> Slope {
     if let Some(s) = tm.slope_fast.and_then(|f| slope_with_fast(tm, f)) {
         return s;
     }
-    let ramp = ramp_of(tm);
-    let (step, t_in) = fo4_model(tm, ramp);
-    let unit = Slope {
-        ramp,
-        ..Slope::single(1.0)
-    };
-    let per_k = unit.term(t_in, step);
-    let k = ((tm.fo4_ps - step) / per_k).clamp(0.0, 2.0);
+    let f = Fo4::of(tm);
+    let k = ((tm.fo4_ps - f.step) / f.unit.term(f.t_in, f.step)).clamp(0.0, 2.0);
     Slope {
-        ramp,
+        ramp: f.unit.ramp,
         ..Slope::single(k)
     }
 }
@@ -257,18 +250,38 @@ pub fn ramp_of(tm: &Timing) -> Option<Ramp> {
     })
 }
 
-/// The model's FO4 stage: its step delay and its input's transition, ps.
-fn fo4_model(tm: &Timing, ramp: Option<Ramp>) -> (f64, f64) {
-    let (wn, wp) = (tm.n_width_um, tm.p_width_um);
-    let c_in = wn * tm.c_gate_n_ff_um + wp * tm.c_gate_p_ff_um;
-    let c_self = wn * tm.c_diff_n_ff_um + wp * tm.c_diff_p_ff_um;
-    let c = 4.0 * c_in + c_self;
-    let tau = 0.5 * (tm.r_n_fall_kohm_um[0] / wn + tm.r_p_rise_kohm_um[0] / wp) * c;
-    let k = Slope {
-        ramp,
-        ..Slope::single(1.0)
-    };
-    (LN2 * tau, k.chain_slew(tau))
+/// The model's FO4 stage: its step delay and its input's transition (ps), what the slope
+/// term must add to reach the characterised FO4, and unit shares of the technology's form.
+struct Fo4 {
+    step: f64,
+    t_in: f64,
+    extra: f64,
+    unit: Slope,
+}
+
+impl Fo4 {
+    fn of(tm: &Timing) -> Fo4 {
+        let (wn, wp) = (tm.n_width_um, tm.p_width_um);
+        let c_in = wn * tm.c_gate_n_ff_um + wp * tm.c_gate_p_ff_um;
+        let c_self = wn * tm.c_diff_n_ff_um + wp * tm.c_diff_p_ff_um;
+        let c = 4.0 * c_in + c_self;
+        let tau = 0.5 * (tm.r_n_fall_kohm_um[0] / wn + tm.r_p_rise_kohm_um[0] / wp) * c;
+        let unit = Slope {
+            ramp: ramp_of(tm),
+            ..Slope::single(1.0)
+        };
+        Fo4 {
+            step: LN2 * tau,
+            t_in: unit.chain_slew(tau),
+            extra: tm.fo4_ps - LN2 * tau,
+            unit,
+        }
+    }
+
+    /// The slow-input limit per unit of cap at the FO4 stage.
+    fn slow(&self) -> f64 {
+        self.unit.slow_unit(self.t_in, self.step)
+    }
 }
 
 /// The slope shares with the fast-input share given and the cap solved from the FO4:
@@ -276,18 +289,24 @@ fn fo4_model(tm: &Timing, ramp: Option<Ramp>) -> (f64, f64) {
 /// √(t_in · step) (with a ramp characterisation). None when the fast share alone cannot
 /// reach the FO4 (no finite cap does).
 pub fn slope_with_fast(tm: &Timing, fast: f64) -> Option<Slope> {
-    let ramp = ramp_of(tm);
-    let (step, t_in) = fo4_model(tm, ramp);
-    let extra = tm.fo4_ps - step;
-    let inv = 1.0 / extra - 1.0 / (fast * t_in);
-    let unit = Slope {
-        ramp,
-        ..Slope::single(1.0)
-    };
-    (extra > 0.0 && fast > 0.0 && inv > 0.0).then(|| Slope {
+    let f = Fo4::of(tm);
+    let inv = 1.0 / f.extra - 1.0 / (fast * f.t_in);
+    (f.extra > 0.0 && fast > 0.0 && inv > 0.0).then(|| Slope {
         fast,
-        cap: 1.0 / (inv * unit.slow_unit(t_in, step)),
-        ramp,
+        cap: 1.0 / (inv * f.slow()),
+        ramp: f.unit.ramp,
+    })
+}
+
+/// The slope shares with the slow-input share `cap` given and the fast one solved from the
+/// FO4 (the inverse of [`slope_with_fast`]). None when no fast share reaches the FO4 with it.
+pub fn slope_for_cap(tm: &Timing, cap: f64) -> Option<Slope> {
+    let f = Fo4::of(tm);
+    let inv = 1.0 / f.extra - 1.0 / (cap * f.slow());
+    (f.extra > 0.0 && cap > 0.0 && inv > 0.0).then(|| Slope {
+        fast: 1.0 / (inv * f.t_in),
+        cap,
+        ramp: f.unit.ramp,
     })
 }
 
@@ -336,24 +355,6 @@ pub fn gate_slope(
         ramp: Some(ramp),
         ..k
     }
-}
-
-/// The slope shares with the slow-input share `cap` given and the fast one solved from the
-/// FO4 (the inverse of [`slope_with_fast`]). None when no fast share reaches the FO4 with it.
-pub fn slope_for_cap(tm: &Timing, cap: f64) -> Option<Slope> {
-    let ramp = ramp_of(tm);
-    let (step, t_in) = fo4_model(tm, ramp);
-    let extra = tm.fo4_ps - step;
-    let unit = Slope {
-        ramp,
-        ..Slope::single(1.0)
-    };
-    let inv = 1.0 / extra - 1.0 / (cap * unit.slow_unit(t_in, step));
-    (extra > 0.0 && cap > 0.0 && inv > 0.0).then(|| Slope {
-        fast: 1.0 / (inv * t_in),
-        cap,
-        ramp,
-    })
 }
 
 /// Solves a stage class stores for sharing before it must show use: from then on it keeps
@@ -1706,7 +1707,7 @@ impl<'g> Sim<'g> {
                 self.heap.push(Reverse((time_key(0.0), id)));
             }
         }
-        let limit = 200 * (g.n_nodes() + 10);
+        let limit = event_limit(g);
         while let Some(Reverse((_, id))) = self.heap.pop() {
             let e = self.events[id as usize];
             let t = e.time_ps;
@@ -1803,7 +1804,7 @@ impl<'g> Sim<'g> {
             }
         }
         // (Bounded like the run itself: an oscillation stops at the event limit there.)
-        if self.events.len() > 200 * (g.n_nodes() + 10) {
+        if self.events.len() > event_limit(g) {
             return;
         }
         for y in restore {
@@ -1836,6 +1837,11 @@ impl<'g> Sim<'g> {
     pub fn run_switched_ff(&self) -> f64 {
         self.switched_ff
     }
+}
+
+/// Events a timed run may make before it is taken for an oscillation.
+fn event_limit(g: &Graph) -> usize {
+    200 * (g.n_nodes() + 10)
 }
 
 /// Add up the transistor figures: count, gate area ΣW·L (µm²), total width (µm).
