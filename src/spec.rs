@@ -1,7 +1,7 @@
 //! The YAML spec: serde types, validation, and errors that name the key path and line.
 //!
 //! Parsing happens in two steps. serde (with `deny_unknown_fields`) turns the text into
-//! raw values and reports type errors with the key path and line; then [`validate`] checks
+//! raw values and reports type errors with the key path and line; then `validate` checks
 //! ranges and cross-key rules. Nothing from the text reaches a netlist unless it passed both:
 //! names are plain identifiers, numbers are re-printed by us, never copied.
 

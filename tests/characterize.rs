@@ -206,13 +206,13 @@ fn checked_in_files_load_and_built_ins_carry_their_timing() {
             assert_eq!(b.timing.as_ref(), Some(&tm), "{name} {corner:?}");
             // Other conditions than the characterised ones carry no timing.
             b.apply_conditions(&Conditions {
-                temp: Some(85.0),
+                temp: Some(60.0),
                 ..Default::default()
             })
             .unwrap();
             assert!(
                 b.timing.is_none(),
-                "{name} at 85 degC has no characterisation"
+                "{name} at 60 degC has no characterisation"
             );
             seen += 1;
         }
@@ -240,6 +240,16 @@ fn checked_in_files_load_and_built_ins_carry_their_timing() {
             assert_eq!(b.timing.as_ref(), Some(&tm), "{name} {corner} 125 degC");
         }
     }
+    // SKY130 ss at 85 degC (the example hub_accum8_sky130.yaml's conditions).
+    let tm = checked_in("sky130-1v8-ss-85.yaml");
+    let mut b = tech::builtin("sky130-1v8", &opts).unwrap();
+    b.apply_conditions(&Conditions {
+        corner: Some("ss".into()),
+        temp: Some(85.0),
+        vdd: None,
+    })
+    .unwrap();
+    assert_eq!(b.timing.as_ref(), Some(&tm), "sky130-1v8 ss 85 degC");
 }
 
 /// The precharged pass ladder and the leakage in every checked-in file, against the physics
@@ -321,7 +331,23 @@ fn pass_ladders_and_leakage_agree_with_the_trade() {
         );
         n += 1;
     }
-    assert_eq!(n, 15);
+    assert_eq!(n, 16);
+    // SKY130 ss at 85 degC lies between 27 and 125 degC: a hotter channel conducts less and
+    // leaks more (common practice: mobility falls and subthreshold current rises with
+    // temperature).
+    let ss: Vec<_> = [
+        "sky130-1v8-ss.yaml",
+        "sky130-1v8-ss-85.yaml",
+        "sky130-1v8-ss-125.yaml",
+    ]
+    .iter()
+    .map(|f| checked_in(f))
+    .collect();
+    for w in ss.windows(2) {
+        assert!(w[0].r_n_fall_kohm_um[0] < w[1].r_n_fall_kohm_um[0]);
+        assert!(w[0].i_off_n_na_um.unwrap() < w[1].i_off_n_na_um.unwrap());
+        assert!(w[0].fo4_ps < w[1].fo4_ps);
+    }
     for pdk in ["gf180mcu-3v3", "sky130-1v8"] {
         for corner in ["ss", "ff"] {
             let cold = checked_in(&format!("{pdk}-{corner}.yaml"))

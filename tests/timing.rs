@@ -49,6 +49,7 @@ fn yaml(name: &str, arch: &str, style: &str, width: usize, block: usize, buffers
 fn small() -> Budget {
     Budget {
         random: 8,
+        timed: 8,
         starts: 2,
         flips: 24,
         seed: 1,

@@ -23,7 +23,7 @@ pub fn blocks(width: usize, block: usize) -> Vec<(usize, usize)> {
         .collect()
 }
 
-/// Carry net name: c<k> holds the carry into bit k, c<k>_n its complement.
+/// Carry net name: `c<k>` holds the carry into bit k, `c<k>_n` its complement.
 pub fn carry_name(k: usize, true_carry: bool) -> String {
     if true_carry {
         format!("c{k}")

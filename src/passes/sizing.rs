@@ -144,6 +144,7 @@ pub fn choose(spec: &Spec) -> std::result::Result<Sizing, String> {
     let dynamic = spec.style == Style::Dynamic;
     let light = Budget {
         random: 16,
+        timed: 16,
         starts: 1,
         flips: 16,
         seed: spec.testbench.seed,

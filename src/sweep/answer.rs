@@ -175,7 +175,7 @@ fn describe(p: &PointResult) -> String {
 }
 
 /// The close calls of an answer as they follow the fastest in a table cell: nothing when
-/// there are none, else "; close call, confirm in ngspice: ..." with at most [`CLOSE_SHOWN`]
+/// there are none, else "; close call, confirm in ngspice: ..." with at most `CLOSE_SHOWN`
 /// named (each by `name`) and the rest counted.
 pub fn close_text(
     points: &[PointResult],

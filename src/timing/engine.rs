@@ -443,7 +443,7 @@ pub struct Graph {
     pub key_refs: Vec<Vec<(u32, u8)>>,
     /// Per stage, its class: stages with the same devices, sizes, node capacitances and
     /// wiring in local terms (a bit slice repeated along the adder) solve alike for the same
-    /// key, so a timer shares their solves ([`stage_classes`]). NONE: not cached.
+    /// key, so a timer shares their solves (`stage_classes`). NONE: not cached.
     pub class_of: Vec<u32>,
     /// Position of every device in its stage's `devs` (NONE: in no stage).
     pub dev_pos: Vec<u32>,
@@ -1436,6 +1436,9 @@ pub struct Sim<'g> {
     pub last: Vec<u32>,
     /// Capacitance switched by the events applied in the latest timed run (fF).
     switched_ff: f64,
+    /// Capacitance of the nodes whose value the latest timed run changed, each counted once:
+    /// what a zero-delay run of the same pair switches (fF).
+    settled_ff: f64,
     /// Pending events, earliest first, then by event index (a deterministic order).
     heap: BinaryHeap<Reverse<(u64, u32)>>,
     /// Solves already done: (stage, key) -> range in `solved` (see `Graph::key_nodes`).
@@ -1567,6 +1570,7 @@ impl<'g> Sim<'g> {
             events: vec![],
             last: vec![NONE; n],
             switched_ff: 0.0,
+            settled_ff: 0.0,
             heap: BinaryHeap::new(),
             cache: HashMap::with_hasher(BuildKeyHasher),
             solved: vec![],
@@ -1690,6 +1694,7 @@ impl<'g> Sim<'g> {
         self.events.clear();
         self.heap.clear();
         self.switched_ff = 0.0;
+        self.touched.clear();
         for &(x, v) in changes {
             if self.val[x as usize] != v {
                 let id = self.events.len() as u32;
@@ -1716,6 +1721,7 @@ impl<'g> Sim<'g> {
                 continue;
             }
             self.pending[x] = NONE;
+            self.note(x);
             self.set(x, e.value);
             self.last[x] = id;
             if g.kind[x] == NodeKind::Inner {
@@ -1727,6 +1733,13 @@ impl<'g> Sim<'g> {
                 ));
             }
             self.propagate(id, t);
+        }
+        self.settled_ff = 0.0;
+        for &(x, was) in &self.touched {
+            self.seen[x as usize] = false;
+            if self.val[x as usize] != was && g.kind[x as usize] == NodeKind::Inner {
+                self.settled_ff += g.cap_ff[x as usize];
+            }
         }
         Ok(())
     }
@@ -1836,6 +1849,12 @@ impl<'g> Sim<'g> {
     /// glitches included, called-off changes not (fF).
     pub fn run_switched_ff(&self) -> f64 {
         self.switched_ff
+    }
+
+    /// What a zero-delay run of the latest timed pair switches: the nodes whose value it
+    /// changed, once each, glitches left out (fF).
+    pub fn run_settled_ff(&self) -> f64 {
+        self.settled_ff
     }
 }
 

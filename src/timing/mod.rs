@@ -375,6 +375,11 @@ pub const BUILTIN_FILES: &[(&str, &str, &str)] = &[
     ),
     (
         "sky130-1v8",
+        "ss",
+        include_str!("../../configs/technologies/sky130-1v8-ss-85.yaml"),
+    ),
+    (
+        "sky130-1v8",
         "fs",
         include_str!("../../configs/technologies/sky130-1v8-fs.yaml"),
     ),
