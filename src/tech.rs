@@ -600,7 +600,8 @@ impl Technology {
             }
             self.vdd = vdd;
         }
-        // Timing parameters hold only at the conditions they were characterised at.
+        // Timing parameters hold only at the conditions they were characterised at (or,
+        // built in, interpolated between two of them in temperature).
         self.timing = match &self.timing {
             Some(tm) if tm.matches(self) => self.timing.clone(),
             _ => crate::timing::builtin_timing(self),
@@ -691,6 +692,7 @@ fn file_timing(
         corner: t.corner.clone(),
         temp: t.temp,
         vdd: t.vdd,
+        between: None,
     };
     tm.check().map_err(|(k, m)| src.error(&k, m))?;
     Ok(Some(tm))

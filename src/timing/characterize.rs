@@ -747,6 +747,7 @@ fn fit_all(
             corner: t.corner.clone(),
             temp: t.temp,
             vdd: t.vdd,
+            between: None,
         },
     };
     // Slow inputs, part 1: the output transition s = slew_per_step · step + slew_input_share

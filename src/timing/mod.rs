@@ -138,6 +138,24 @@ pub struct At {
     pub corner: String,
     pub temp: f64,
     pub vdd: f64,
+    /// Not characterised at `temp` but interpolated between the characterisations at these
+    /// two temperatures ([`builtin_timing`]).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub between: Option<[f64; 2]>,
+}
+
+impl At {
+    /// " (timing interpolated between 27 and 85 degC)" for an interpolated timing, else "".
+    pub fn note(&self) -> String {
+        match self.between {
+            Some([lo, hi]) => format!(
+                " (timing interpolated between {} and {} degC)",
+                crate::spec::trim_num(lo),
+                crate::spec::trim_num(hi)
+            ),
+            None => String::new(),
+        }
+    }
 }
 
 impl Timing {
@@ -390,12 +408,79 @@ pub const BUILTIN_FILES: &[(&str, &str, &str)] = &[
     ),
 ];
 
-/// The built-in characterisation of this technology at its present corner, if it was
-/// characterised at exactly its present temperature and supply.
+/// The built-in characterisation of this technology at its present corner and supply: the
+/// file characterised at exactly its present temperature, else every value interpolated
+/// linearly in temperature between the two nearest files of that corner and supply on either
+/// side (none outside the characterised range). Device resistance and delay are close to
+/// linear in temperature over 27-125 degC (common practice: mobility falls about as
+/// T^-1.5, a gentle curve over that span); `tests/characterize.rs` checks the interpolation
+/// at 85 degC against SKY130's ss characterisation there.
 pub fn builtin_timing(t: &Technology) -> Option<Timing> {
-    BUILTIN_FILES
+    let files: Vec<Timing> = BUILTIN_FILES
         .iter()
         .filter(|(name, corner, _)| *name == t.name && *corner == t.corner)
         .filter_map(|(_, _, text)| parse_timing(text).ok())
-        .find(|tm| tm.matches(t))
+        .filter(|tm| (tm.at.vdd - t.vdd).abs() < 1e-9)
+        .collect();
+    if let Some(tm) = files.iter().find(|tm| tm.matches(t)) {
+        return Some(tm.clone());
+    }
+    let below = files
+        .iter()
+        .filter(|tm| tm.at.temp < t.temp)
+        .max_by(|a, b| a.at.temp.total_cmp(&b.at.temp))?;
+    let above = files
+        .iter()
+        .filter(|tm| tm.at.temp > t.temp)
+        .min_by(|a, b| a.at.temp.total_cmp(&b.at.temp))?;
+    interpolate(below, above, t.temp)
+}
+
+/// Every value of two characterisations of one corner and supply, interpolated linearly to
+/// `temp` (between theirs; leakage in its logarithm). None when the two do not carry the same
+/// keys.
+pub fn interpolate(lo: &Timing, hi: &Timing, temp: f64) -> Option<Timing> {
+    use serde_json::Value;
+    let f = (temp - lo.at.temp) / (hi.at.temp - lo.at.temp);
+    // Leakage grows about exponentially with temperature: interpolated in its logarithm.
+    fn mix(a: &Value, b: &Value, f: f64, log: bool) -> Option<Value> {
+        Some(match (a, b) {
+            (Value::Number(x), Value::Number(y)) => {
+                let (x, y) = (x.as_f64()?, y.as_f64()?);
+                Value::from(if log && x > 0.0 && y > 0.0 {
+                    (x.ln() + (y.ln() - x.ln()) * f).exp()
+                } else {
+                    x + (y - x) * f
+                })
+            }
+            (Value::Array(x), Value::Array(y)) if x.len() == y.len() => Value::Array(
+                x.iter()
+                    .zip(y)
+                    .map(|(x, y)| mix(x, y, f, log))
+                    .collect::<Option<_>>()?,
+            ),
+            (Value::Object(x), Value::Object(y)) if x.len() == y.len() => Value::Object(
+                x.iter()
+                    .map(|(k, v)| Some((k.clone(), mix(v, y.get(k)?, f, k.starts_with("i_off"))?)))
+                    .collect::<Option<_>>()?,
+            ),
+            (x, y) if x == y => x.clone(),
+            _ => return None,
+        })
+    }
+    let v = mix(
+        &serde_json::to_value(lo).ok()?,
+        &serde_json::to_value(hi).ok()?,
+        f,
+        false,
+    )?;
+    let mut tm: Timing = serde_json::from_value(v).ok()?;
+    tm.at = At {
+        corner: lo.at.corner.clone(),
+        temp,
+        vdd: lo.at.vdd,
+        between: Some([lo.at.temp, hi.at.temp]),
+    };
+    tm.check().ok()?;
+    Some(tm)
 }

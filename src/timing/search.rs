@@ -777,11 +777,12 @@ pub fn estimate_with(
         pair: worst.pair,
         name: spec.name.clone(),
         conditions: format!(
-            "{}, corner {}, {} degC, {} V",
+            "{}, corner {}, {} degC, {} V{}",
             t.name,
             t.corner,
             crate::spec::trim_num(t.temp),
-            vdd
+            vdd,
+            tm.at.note()
         ),
         load_ff: round1(spec.testbench.load * 1e15),
         worst_ps: round1(worst.ps),
