@@ -227,56 +227,59 @@ fn checked_in_files_load_and_built_ins_carry_their_timing() {
             .unwrap();
             assert_eq!(b.timing.as_ref(), Some(&tm), "{name} {corner:?}");
             // Other conditions than the characterised ones carry no timing.
-            // Other temperatures: interpolated between two characterisations of the corner
-            // where they lie between them (ss and ff, characterised at 125 degC too), else
-            // none; never below the coldest or above the hottest.
-            b.apply_conditions(&Conditions {
-                temp: Some(60.0),
-                ..Default::default()
-            })
-            .unwrap();
-            let hot = matches!(corner, Some("ss" | "ff"));
-            assert_eq!(
-                b.timing.as_ref().and_then(|t| t.at.between).is_some(),
-                hot,
-                "{name} {corner:?} at 60 degC"
-            );
-            if !hot {
-                assert!(
-                    b.timing.is_none(),
-                    "{name} at 60 degC has no characterisation"
-                );
+            // Other temperatures: interpolated between the two characterisations of the corner
+            // on either side (every PDK corner: -40, 27 and 125 degC), never outside them;
+            // generic has one file and carries none.
+            let pdk = corner.is_some();
+            for (temp, lo, hi) in [(60.0, 27.0, 125.0), (0.0, -40.0, 27.0)] {
+                b.apply_conditions(&Conditions {
+                    temp: Some(temp),
+                    ..Default::default()
+                })
+                .unwrap();
+                let between = b.timing.as_ref().and_then(|t| t.at.between);
+                // SKY130 ss also has 85 degC.
+                let sky_ss = name == "sky130-1v8" && corner == Some("ss") && temp == 60.0;
+                let want = pdk.then_some([lo, if sky_ss { 85.0 } else { hi }]);
+                assert_eq!(between, want, "{name} {corner:?} at {temp} degC");
+                assert_eq!(b.timing.is_some(), pdk, "{name} {corner:?} at {temp} degC");
             }
-            b.apply_conditions(&Conditions {
-                temp: Some(150.0),
-                ..Default::default()
-            })
-            .unwrap();
-            assert!(b.timing.is_none(), "{name} {corner:?}: none above 125 degC");
+            for temp in [-50.0, 150.0] {
+                b.apply_conditions(&Conditions {
+                    temp: Some(temp),
+                    ..Default::default()
+                })
+                .unwrap();
+                assert!(b.timing.is_none(), "{name} {corner:?}: none at {temp} degC");
+            }
             seen += 1;
         }
     }
     assert_eq!(seen, 11);
-    // The keeper check's corners at 125 degC: built in, carried by the built-in technology
-    // at exactly those conditions.
-    for name in ["gf180mcu-3v3", "sky130-1v8"] {
-        for corner in ["ss", "ff"] {
-            let file = files_dir().join(format!("{name}-{corner}-125.yaml"));
-            let tm = checked_in(&format!("{name}-{corner}-125.yaml"));
-            assert_eq!(
-                (tm.at.corner.as_str(), tm.at.temp),
-                (corner, 125.0),
-                "{}",
-                file.display()
-            );
-            let mut b = tech::builtin(name, &opts).unwrap();
-            b.apply_conditions(&Conditions {
-                corner: Some(corner.into()),
-                temp: Some(125.0),
-                vdd: None,
-            })
-            .unwrap();
-            assert_eq!(b.timing.as_ref(), Some(&tm), "{name} {corner} 125 degC");
+    // Every corner of both PDKs at -40 and 125 degC too: built in, carried by the built-in
+    // technology at exactly those conditions.
+    for (name, corners) in [
+        ("gf180mcu-3v3", ["typical", "ff", "ss", "fs", "sf"]),
+        ("sky130-1v8", ["tt", "ff", "ss", "fs", "sf"]),
+    ] {
+        for corner in corners {
+            for (temp, tag) in [(-40.0, "m40"), (125.0, "125")] {
+                let file = format!("{name}-{corner}-{tag}.yaml");
+                let tm = checked_in(&file);
+                assert_eq!(
+                    (tm.at.corner.as_str(), tm.at.temp),
+                    (corner, temp),
+                    "{file}"
+                );
+                let mut b = tech::builtin(name, &opts).unwrap();
+                b.apply_conditions(&Conditions {
+                    corner: Some(corner.into()),
+                    temp: Some(temp),
+                    vdd: None,
+                })
+                .unwrap();
+                assert_eq!(b.timing.as_ref(), Some(&tm), "{name} {corner} {temp} degC");
+            }
         }
     }
     // Interpolation in temperature against a characterisation (ngspice on the SKY130 ss
@@ -377,7 +380,8 @@ fn pass_ladders_and_leakage_agree_with_the_trade() {
             assert!(v.abs() * 0.8 < 0.12, "{file}: slope_threshold {v}");
             let gain = tm.slope_threshold_gain.expect("threshold gain fitted");
             assert!(
-                gain > 0.05 && gain < 1.0,
+                // (0.046 for SKY130 ss at -40 degC, its smallest.)
+                gain > 0.02 && gain < 1.0,
                 "{file}: slope_threshold_gain {gain}"
             );
         }
@@ -410,22 +414,35 @@ fn pass_ladders_and_leakage_agree_with_the_trade() {
         );
         n += 1;
     }
-    assert_eq!(n, 16);
-    // SKY130 ss at 85 degC lies between 27 and 125 degC: a hotter channel conducts less and
-    // leaks more (common practice: mobility falls and subthreshold current rises with
-    // temperature).
-    let ss: Vec<_> = [
-        "sky130-1v8-ss.yaml",
-        "sky130-1v8-ss-85.yaml",
-        "sky130-1v8-ss-125.yaml",
-    ]
-    .iter()
-    .map(|f| checked_in(f))
-    .collect();
-    for w in ss.windows(2) {
-        assert!(w[0].r_n_fall_kohm_um[0] < w[1].r_n_fall_kohm_um[0]);
-        assert!(w[0].i_off_n_na_um.unwrap() < w[1].i_off_n_na_um.unwrap());
-        assert!(w[0].fo4_ps < w[1].fo4_ps);
+    assert_eq!(n, 32);
+    // Temperature order at every corner of both PDKs (-40, 27, 125 degC, and SKY130 ss at
+    // 85): a hotter NMOS conducts less, leakage does not fall and the FO4 grows (common
+    // practice: mobility falls and subthreshold current rises with temperature; well above
+    // threshold the falling mobility outweighs the falling threshold). Not asserted for the
+    // PMOS: SKY130's 1.8 V PMOS, with its high threshold, conducts *more* when hot (R x W at
+    // ss 9.73, 9.08, 8.37 kOhm um at -40, 27, 125 degC), a temperature inversion; GF180MCU's
+    // does not.
+    for (pdk, corners) in [
+        ("gf180mcu-3v3", ["typical", "ff", "ss", "fs", "sf"]),
+        ("sky130-1v8", ["tt", "ff", "ss", "fs", "sf"]),
+    ] {
+        for c in corners {
+            let mut files = vec![format!("{pdk}-{c}-m40.yaml"), format!("{pdk}-{c}.yaml")];
+            if pdk == "sky130-1v8" && c == "ss" {
+                files.push("sky130-1v8-ss-85.yaml".into());
+            }
+            files.push(format!("{pdk}-{c}-125.yaml"));
+            let t: Vec<Timing> = files.iter().map(|f| checked_in(f)).collect();
+            for (w, f) in t.windows(2).zip(files.windows(2)) {
+                let (a, b) = (&w[0], &w[1]);
+                assert!(a.r_n_fall_kohm_um[0] < b.r_n_fall_kohm_um[0], "{f:?}: NMOS");
+                // Cold leakage can sit at ngspice's floor (gmin, 1e-12 S, times VDD over the
+                // devices' width: 0.0004 nA/um on GF180MCU), so it need only not fall.
+                let (la, lb) = (a.i_off_n_na_um.unwrap(), b.i_off_n_na_um.unwrap());
+                assert!(la <= lb * 1.01, "{f:?}: leakage {la} then {lb}");
+                assert!(a.fo4_ps < b.fo4_ps, "{f:?}: FO4");
+            }
+        }
     }
     for pdk in ["gf180mcu-3v3", "sky130-1v8"] {
         for corner in ["ss", "ff"] {

@@ -433,7 +433,8 @@ fn exported_jobs_run_as_a_slurm_array_and_collect() {
     });
 }
 
-/// A point at conditions the technology has no characterised timing for (85 degC) has no
+/// A point at conditions the technology has no characterised timing for (150 degC, above its
+/// hottest characterisation, so not interpolated either) has no
 /// estimate, but a simulated sweep still measures it: ok, with ngspice's figure and the
 /// reason the estimate is missing.
 #[test]
@@ -442,7 +443,7 @@ fn uncharacterised_conditions_are_still_simulated() {
         return;
     }
     let dir = tempfile::tempdir().unwrap();
-    let yaml = "base: {name: acc, width: 8, architecture: ripple, technology: gf180mcu-3v3, testbench: {load: 10f, random: 0}}\nvary:\n  temp: [85]\n";
+    let yaml = "base: {name: acc, width: 8, architecture: ripple, technology: gf180mcu-3v3, testbench: {load: 10f, random: 0}}\nvary:\n  temp: [150]\n";
     let r = sweep(dir.path(), yaml, &[]);
     assert_eq!(r.code, Some(0), "{}", r.stderr);
     let j: serde_json::Value = serde_json::from_str(&read(dir.path(), "results.json")).unwrap();

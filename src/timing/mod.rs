@@ -323,89 +323,52 @@ pub fn parse_timing(text: &str) -> std::result::Result<Timing, String> {
     Ok(t)
 }
 
+/// One built-in file: (technology, corner, the file's text from `configs/technologies/`).
+macro_rules! builtin {
+    ($name:literal, $corner:literal, $file:literal) => {
+        (
+            $name,
+            $corner,
+            include_str!(concat!("../../configs/technologies/", $file)),
+        )
+    };
+}
+
 /// The characterised files built into the tool: (technology, corner, file text). Each was
 /// written by `carrywright characterize` and checked in under `configs/technologies/`.
 pub const BUILTIN_FILES: &[(&str, &str, &str)] = &[
-    (
-        "generic",
-        "none (illustrative cards)",
-        include_str!("../../configs/technologies/generic.yaml"),
-    ),
-    (
-        "gf180mcu-3v3",
-        "typical",
-        include_str!("../../configs/technologies/gf180mcu-3v3-typical.yaml"),
-    ),
-    (
-        "gf180mcu-3v3",
-        "ff",
-        include_str!("../../configs/technologies/gf180mcu-3v3-ff.yaml"),
-    ),
-    (
-        "gf180mcu-3v3",
-        "ff",
-        include_str!("../../configs/technologies/gf180mcu-3v3-ff-125.yaml"),
-    ),
-    (
-        "gf180mcu-3v3",
-        "ss",
-        include_str!("../../configs/technologies/gf180mcu-3v3-ss.yaml"),
-    ),
-    (
-        "gf180mcu-3v3",
-        "ss",
-        include_str!("../../configs/technologies/gf180mcu-3v3-ss-125.yaml"),
-    ),
-    (
-        "gf180mcu-3v3",
-        "fs",
-        include_str!("../../configs/technologies/gf180mcu-3v3-fs.yaml"),
-    ),
-    (
-        "gf180mcu-3v3",
-        "sf",
-        include_str!("../../configs/technologies/gf180mcu-3v3-sf.yaml"),
-    ),
-    (
-        "sky130-1v8",
-        "tt",
-        include_str!("../../configs/technologies/sky130-1v8-tt.yaml"),
-    ),
-    (
-        "sky130-1v8",
-        "ff",
-        include_str!("../../configs/technologies/sky130-1v8-ff.yaml"),
-    ),
-    (
-        "sky130-1v8",
-        "ff",
-        include_str!("../../configs/technologies/sky130-1v8-ff-125.yaml"),
-    ),
-    (
-        "sky130-1v8",
-        "ss",
-        include_str!("../../configs/technologies/sky130-1v8-ss.yaml"),
-    ),
-    (
-        "sky130-1v8",
-        "ss",
-        include_str!("../../configs/technologies/sky130-1v8-ss-125.yaml"),
-    ),
-    (
-        "sky130-1v8",
-        "ss",
-        include_str!("../../configs/technologies/sky130-1v8-ss-85.yaml"),
-    ),
-    (
-        "sky130-1v8",
-        "fs",
-        include_str!("../../configs/technologies/sky130-1v8-fs.yaml"),
-    ),
-    (
-        "sky130-1v8",
-        "sf",
-        include_str!("../../configs/technologies/sky130-1v8-sf.yaml"),
-    ),
+    builtin!("generic", "none (illustrative cards)", "generic.yaml"),
+    builtin!("gf180mcu-3v3", "typical", "gf180mcu-3v3-typical-m40.yaml"),
+    builtin!("gf180mcu-3v3", "typical", "gf180mcu-3v3-typical.yaml"),
+    builtin!("gf180mcu-3v3", "typical", "gf180mcu-3v3-typical-125.yaml"),
+    builtin!("gf180mcu-3v3", "ff", "gf180mcu-3v3-ff-m40.yaml"),
+    builtin!("gf180mcu-3v3", "ff", "gf180mcu-3v3-ff.yaml"),
+    builtin!("gf180mcu-3v3", "ff", "gf180mcu-3v3-ff-125.yaml"),
+    builtin!("gf180mcu-3v3", "ss", "gf180mcu-3v3-ss-m40.yaml"),
+    builtin!("gf180mcu-3v3", "ss", "gf180mcu-3v3-ss.yaml"),
+    builtin!("gf180mcu-3v3", "ss", "gf180mcu-3v3-ss-125.yaml"),
+    builtin!("gf180mcu-3v3", "fs", "gf180mcu-3v3-fs-m40.yaml"),
+    builtin!("gf180mcu-3v3", "fs", "gf180mcu-3v3-fs.yaml"),
+    builtin!("gf180mcu-3v3", "fs", "gf180mcu-3v3-fs-125.yaml"),
+    builtin!("gf180mcu-3v3", "sf", "gf180mcu-3v3-sf-m40.yaml"),
+    builtin!("gf180mcu-3v3", "sf", "gf180mcu-3v3-sf.yaml"),
+    builtin!("gf180mcu-3v3", "sf", "gf180mcu-3v3-sf-125.yaml"),
+    builtin!("sky130-1v8", "tt", "sky130-1v8-tt-m40.yaml"),
+    builtin!("sky130-1v8", "tt", "sky130-1v8-tt.yaml"),
+    builtin!("sky130-1v8", "tt", "sky130-1v8-tt-125.yaml"),
+    builtin!("sky130-1v8", "ff", "sky130-1v8-ff-m40.yaml"),
+    builtin!("sky130-1v8", "ff", "sky130-1v8-ff.yaml"),
+    builtin!("sky130-1v8", "ff", "sky130-1v8-ff-125.yaml"),
+    builtin!("sky130-1v8", "ss", "sky130-1v8-ss-m40.yaml"),
+    builtin!("sky130-1v8", "ss", "sky130-1v8-ss.yaml"),
+    builtin!("sky130-1v8", "ss", "sky130-1v8-ss-125.yaml"),
+    builtin!("sky130-1v8", "ss", "sky130-1v8-ss-85.yaml"),
+    builtin!("sky130-1v8", "fs", "sky130-1v8-fs-m40.yaml"),
+    builtin!("sky130-1v8", "fs", "sky130-1v8-fs.yaml"),
+    builtin!("sky130-1v8", "fs", "sky130-1v8-fs-125.yaml"),
+    builtin!("sky130-1v8", "sf", "sky130-1v8-sf-m40.yaml"),
+    builtin!("sky130-1v8", "sf", "sky130-1v8-sf.yaml"),
+    builtin!("sky130-1v8", "sf", "sky130-1v8-sf-125.yaml"),
 ];
 
 /// The built-in characterisation of this technology at its present corner and supply: the
