@@ -693,6 +693,7 @@ fn file_timing(
         temp: t.temp,
         vdd: t.vdd,
         between: None,
+        between_vdd: None,
     };
     tm.check().map_err(|(k, m)| src.error(&k, m))?;
     Ok(Some(tm))

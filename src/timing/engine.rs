@@ -2134,12 +2134,23 @@ pub fn timing_of(spec: &Spec) -> Result<Timing> {
 
 /// Why a spec has no timing: its technology is not characterised at its conditions.
 pub fn no_timing(spec: &Spec) -> String {
+    use crate::spec::trim_num;
     let t = &spec.technology;
+    let covered = match super::builtin_range(&t.name, &t.corner) {
+        Some(([t0, t1], [v0, v1])) => format!(
+            " (built in for that corner: {} to {} °C, {} to {} V)",
+            trim_num(t0),
+            trim_num(t1),
+            trim_num(v0),
+            trim_num(v1)
+        ),
+        None => String::new(),
+    };
     format!(
-        "{} has no characterised timing at corner {}, {} °C, {} V",
+        "{} has no characterised timing at corner {}, {} °C, {} V{covered}",
         t.name,
         t.corner,
-        crate::spec::trim_num(t.temp),
-        crate::spec::trim_num(t.vdd)
+        trim_num(t.temp),
+        trim_num(t.vdd)
     )
 }

@@ -83,15 +83,14 @@ pub struct Report {
     pub failure: Option<String>,
 }
 
-/// The timing at the hottest characterised temperature of a corner (the spec's supply), and a
-/// label for it. Falls back to the spec's own timing for technologies without that corner.
+/// The timing at the hottest characterised temperature of a corner (at the spec's supply,
+/// interpolated between characterised ones where it lies between them), and a label for it. Falls back to the spec's own timing for technologies without that corner.
 fn corner_timing(spec: &Spec, corner: &str) -> Option<(Timing, String, Spec)> {
     let t = &spec.technology;
     let hottest = super::BUILTIN_FILES
         .iter()
         .filter(|(name, c, _)| *name == t.name && *c == corner)
         .filter_map(|(_, _, text)| super::parse_timing(text).ok())
-        .filter(|tm| (tm.at.vdd - t.vdd).abs() < 1e-9)
         .max_by(|a, b| a.at.temp.total_cmp(&b.at.temp));
     let mut s = spec.clone();
     if let Some(tm) = hottest {

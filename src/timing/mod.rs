@@ -142,18 +142,27 @@ pub struct At {
     /// two temperatures ([`builtin_timing`]).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub between: Option<[f64; 2]>,
+    /// Not characterised at `vdd` but interpolated between the characterisations at these two
+    /// supplies (V).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub between_vdd: Option<[f64; 2]>,
 }
 
 impl At {
-    /// " (timing interpolated between 27 and 85 degC)" for an interpolated timing, else "".
+    /// " (timing interpolated between 27 and 85 degC)", " (timing interpolated between 2.97
+    /// and 3.3 V)" or both ("... degC and between ... V") for an interpolated timing, else "".
     pub fn note(&self) -> String {
-        match self.between {
-            Some([lo, hi]) => format!(
-                " (timing interpolated between {} and {} degC)",
-                crate::spec::trim_num(lo),
-                crate::spec::trim_num(hi)
-            ),
-            None => String::new(),
+        use crate::spec::trim_num;
+        let temp = self
+            .between
+            .map(|[lo, hi]| format!("{} and {} degC", trim_num(lo), trim_num(hi)));
+        let vdd = self
+            .between_vdd
+            .map(|[lo, hi]| format!("{} and {} V", trim_num(lo), trim_num(hi)));
+        match (temp, vdd) {
+            (Some(t), Some(v)) => format!(" (timing interpolated between {t} and between {v})"),
+            (Some(x), None) | (None, Some(x)) => format!(" (timing interpolated between {x})"),
+            (None, None) => String::new(),
         }
     }
 }
@@ -323,126 +332,207 @@ pub fn parse_timing(text: &str) -> std::result::Result<Timing, String> {
     Ok(t)
 }
 
-/// One built-in file: (technology, corner, the file's text from `configs/technologies/`).
-macro_rules! builtin {
-    ($name:literal, $corner:literal, $file:literal) => {
-        (
+/// The built-in files, one line a technology and corner: (technology, corner, file stem:
+/// [suffixes]) gives one entry (technology, corner, text of `configs/technologies/STEM
+/// SUFFIX.yaml`) a suffix. Suffixes: `-m40` and `-125` for -40 and 125 degC (none: 27),
+/// `-2v97` for a supply of 2.97 V (none: nominal).
+macro_rules! builtin_files {
+    ($($name:literal, $corner:literal, $stem:literal: [$($suffix:literal),*];)*) => {
+        &[$($((
             $name,
             $corner,
-            include_str!(concat!("../../configs/technologies/", $file)),
-        )
+            include_str!(concat!("../../configs/technologies/", $stem, $suffix, ".yaml")),
+        ),)*)*]
     };
 }
 
 /// The characterised files built into the tool: (technology, corner, file text). Each was
-/// written by `carrywright characterize` and checked in under `configs/technologies/`.
-pub const BUILTIN_FILES: &[(&str, &str, &str)] = &[
-    builtin!("generic", "none (illustrative cards)", "generic.yaml"),
-    builtin!("gf180mcu-3v3", "typical", "gf180mcu-3v3-typical-m40.yaml"),
-    builtin!("gf180mcu-3v3", "typical", "gf180mcu-3v3-typical.yaml"),
-    builtin!("gf180mcu-3v3", "typical", "gf180mcu-3v3-typical-125.yaml"),
-    builtin!("gf180mcu-3v3", "ff", "gf180mcu-3v3-ff-m40.yaml"),
-    builtin!("gf180mcu-3v3", "ff", "gf180mcu-3v3-ff.yaml"),
-    builtin!("gf180mcu-3v3", "ff", "gf180mcu-3v3-ff-125.yaml"),
-    builtin!("gf180mcu-3v3", "ss", "gf180mcu-3v3-ss-m40.yaml"),
-    builtin!("gf180mcu-3v3", "ss", "gf180mcu-3v3-ss.yaml"),
-    builtin!("gf180mcu-3v3", "ss", "gf180mcu-3v3-ss-125.yaml"),
-    builtin!("gf180mcu-3v3", "fs", "gf180mcu-3v3-fs-m40.yaml"),
-    builtin!("gf180mcu-3v3", "fs", "gf180mcu-3v3-fs.yaml"),
-    builtin!("gf180mcu-3v3", "fs", "gf180mcu-3v3-fs-125.yaml"),
-    builtin!("gf180mcu-3v3", "sf", "gf180mcu-3v3-sf-m40.yaml"),
-    builtin!("gf180mcu-3v3", "sf", "gf180mcu-3v3-sf.yaml"),
-    builtin!("gf180mcu-3v3", "sf", "gf180mcu-3v3-sf-125.yaml"),
-    builtin!("sky130-1v8", "tt", "sky130-1v8-tt-m40.yaml"),
-    builtin!("sky130-1v8", "tt", "sky130-1v8-tt.yaml"),
-    builtin!("sky130-1v8", "tt", "sky130-1v8-tt-125.yaml"),
-    builtin!("sky130-1v8", "ff", "sky130-1v8-ff-m40.yaml"),
-    builtin!("sky130-1v8", "ff", "sky130-1v8-ff.yaml"),
-    builtin!("sky130-1v8", "ff", "sky130-1v8-ff-125.yaml"),
-    builtin!("sky130-1v8", "ss", "sky130-1v8-ss-m40.yaml"),
-    builtin!("sky130-1v8", "ss", "sky130-1v8-ss.yaml"),
-    builtin!("sky130-1v8", "ss", "sky130-1v8-ss-125.yaml"),
-    builtin!("sky130-1v8", "ss", "sky130-1v8-ss-85.yaml"),
-    builtin!("sky130-1v8", "fs", "sky130-1v8-fs-m40.yaml"),
-    builtin!("sky130-1v8", "fs", "sky130-1v8-fs.yaml"),
-    builtin!("sky130-1v8", "fs", "sky130-1v8-fs-125.yaml"),
-    builtin!("sky130-1v8", "sf", "sky130-1v8-sf-m40.yaml"),
-    builtin!("sky130-1v8", "sf", "sky130-1v8-sf.yaml"),
-    builtin!("sky130-1v8", "sf", "sky130-1v8-sf-125.yaml"),
-];
+/// written by `carrywright characterize` and checked in under `configs/technologies/`: every
+/// GF180MCU and SKY130 corner at -40, 27 and 125 degC, each at 90, 100 and 110 % of the
+/// nominal supply (GF180MCU 2.97, 3.3, 3.63 V; SKY130 1.62, 1.8, 1.98 V), and SKY130 ss at
+/// 85 degC too.
+pub const BUILTIN_FILES: &[(&str, &str, &str)] = builtin_files! {
+    "generic", "none (illustrative cards)", "generic": [""];
+    "gf180mcu-3v3", "typical", "gf180mcu-3v3-typical": ["-m40", "", "-125", "-m40-2v97", "-2v97", "-125-2v97", "-m40-3v63", "-3v63", "-125-3v63"];
+    "gf180mcu-3v3", "ff", "gf180mcu-3v3-ff": ["-m40", "", "-125", "-m40-2v97", "-2v97", "-125-2v97", "-m40-3v63", "-3v63", "-125-3v63"];
+    "gf180mcu-3v3", "ss", "gf180mcu-3v3-ss": ["-m40", "", "-125", "-m40-2v97", "-2v97", "-125-2v97", "-m40-3v63", "-3v63", "-125-3v63"];
+    "gf180mcu-3v3", "fs", "gf180mcu-3v3-fs": ["-m40", "", "-125", "-m40-2v97", "-2v97", "-125-2v97", "-m40-3v63", "-3v63", "-125-3v63"];
+    "gf180mcu-3v3", "sf", "gf180mcu-3v3-sf": ["-m40", "", "-125", "-m40-2v97", "-2v97", "-125-2v97", "-m40-3v63", "-3v63", "-125-3v63"];
+    "sky130-1v8", "tt", "sky130-1v8-tt": ["-m40", "", "-125", "-m40-1v62", "-1v62", "-125-1v62", "-m40-1v98", "-1v98", "-125-1v98"];
+    "sky130-1v8", "ff", "sky130-1v8-ff": ["-m40", "", "-125", "-m40-1v62", "-1v62", "-125-1v62", "-m40-1v98", "-1v98", "-125-1v98"];
+    "sky130-1v8", "ss", "sky130-1v8-ss": ["-m40", "", "-125", "-m40-1v62", "-1v62", "-125-1v62", "-m40-1v98", "-1v98", "-125-1v98", "-85"];
+    "sky130-1v8", "fs", "sky130-1v8-fs": ["-m40", "", "-125", "-m40-1v62", "-1v62", "-125-1v62", "-m40-1v98", "-1v98", "-125-1v98"];
+    "sky130-1v8", "sf", "sky130-1v8-sf": ["-m40", "", "-125", "-m40-1v62", "-1v62", "-125-1v62", "-m40-1v98", "-1v98", "-125-1v98"];
+};
 
-/// The built-in characterisation of this technology at its present corner and supply: the
-/// file characterised at exactly its present temperature, else every value interpolated
-/// linearly in temperature between the two nearest files of that corner and supply on either
-/// side (none outside the characterised range). Device resistance and delay are close to
-/// linear in temperature over 27-125 degC (common practice: mobility falls about as
-/// T^-1.5, a gentle curve over that span); `tests/characterize.rs` checks the interpolation
-/// at 85 degC against SKY130's ss characterisation there.
+/// The built-in characterisation of this technology at its present conditions: the file
+/// characterised at exactly its corner, temperature and supply, else every value interpolated
+/// between the nearest files of that corner on either side: linearly in temperature at a
+/// characterised supply, then in supply between the two characterised supplies on either side
+/// (none outside the characterised ranges; every PDK corner is characterised at -40, 27 and
+/// 125 degC and at 90, 100 and 110 % of its nominal supply). Device resistance and delay are
+/// close to linear in temperature over -40..125 degC (common practice: mobility falls about
+/// as T^-1.5, a gentle curve over that span). In supply the drive current grows about as
+/// (VDD - Vt)^alpha, alpha between 1 and 2 (Sakurai & Newton 1990), so a resistance is mixed
+/// as a conductance: a pass NMOS passing a 1, whose drive is VDD - Vt less the level it has
+/// reached, changes most (SKY130 tt 36.4, 15.4, 9.2 kOhm um at 1.62, 1.8, 1.98 V; at 1.71 V
+/// linear mixing reads 15 % high, the conductance 3.5 % low). `tests/characterize.rs` checks
+/// both against characterisations between the grid points (SKY130 ss at 85 degC, GF180MCU
+/// typical at 95 % supply).
 pub fn builtin_timing(t: &Technology) -> Option<Timing> {
     let files: Vec<Timing> = BUILTIN_FILES
         .iter()
         .filter(|(name, corner, _)| *name == t.name && *corner == t.corner)
         .filter_map(|(_, _, text)| parse_timing(text).ok())
-        .filter(|tm| (tm.at.vdd - t.vdd).abs() < 1e-9)
         .collect();
-    if let Some(tm) = files.iter().find(|tm| tm.matches(t)) {
-        return Some(tm.clone());
+    let same = |x: f64, y: f64| (x - y).abs() < 1e-9;
+    // At one characterised supply: exact temperature, else between the two on either side.
+    let at_supply = |vdd: f64| -> Option<Timing> {
+        let here: Vec<&Timing> = files.iter().filter(|tm| same(tm.at.vdd, vdd)).collect();
+        if let Some(tm) = here.iter().find(|tm| same(tm.at.temp, t.temp)) {
+            return Some((*tm).clone());
+        }
+        let below = here
+            .iter()
+            .filter(|tm| tm.at.temp < t.temp)
+            .max_by(|a, b| a.at.temp.total_cmp(&b.at.temp))?;
+        let above = here
+            .iter()
+            .filter(|tm| tm.at.temp > t.temp)
+            .min_by(|a, b| a.at.temp.total_cmp(&b.at.temp))?;
+        interpolate(below, above, t.temp)
+    };
+    if files.iter().any(|tm| same(tm.at.vdd, t.vdd)) {
+        return at_supply(t.vdd);
     }
     let below = files
         .iter()
-        .filter(|tm| tm.at.temp < t.temp)
-        .max_by(|a, b| a.at.temp.total_cmp(&b.at.temp))?;
+        .map(|tm| tm.at.vdd)
+        .filter(|&v| v < t.vdd)
+        .max_by(f64::total_cmp)?;
     let above = files
         .iter()
-        .filter(|tm| tm.at.temp > t.temp)
-        .min_by(|a, b| a.at.temp.total_cmp(&b.at.temp))?;
-    interpolate(below, above, t.temp)
+        .map(|tm| tm.at.vdd)
+        .filter(|&v| v > t.vdd)
+        .min_by(f64::total_cmp)?;
+    interpolate_vdd(&at_supply(below)?, &at_supply(above)?, t.vdd)
 }
 
-/// Every value of two characterisations of one corner and supply, interpolated linearly to
-/// `temp` (between theirs; leakage in its logarithm). None when the two do not carry the same
-/// keys.
-pub fn interpolate(lo: &Timing, hi: &Timing, temp: f64) -> Option<Timing> {
+/// The temperatures (degC) and supplies (V) the built-in files of a technology's corner span:
+/// `([coldest, hottest], [lowest, highest])`, None when none is built in.
+pub fn builtin_range(name: &str, corner: &str) -> Option<([f64; 2], [f64; 2])> {
+    let files: Vec<At> = BUILTIN_FILES
+        .iter()
+        .filter(|(n, c, _)| *n == name && *c == corner)
+        .filter_map(|(_, _, text)| parse_timing(text).ok())
+        .map(|tm| tm.at)
+        .collect();
+    let span = |f: fn(&At) -> f64| {
+        let lo = files.iter().map(f).min_by(f64::total_cmp)?;
+        let hi = files.iter().map(f).max_by(f64::total_cmp)?;
+        Some([lo, hi])
+    };
+    Some((span(|a| a.temp)?, span(|a| a.vdd)?))
+}
+
+/// How a value is mixed between two characterisations.
+#[derive(Clone, Copy)]
+enum Mix {
+    Linear,
+    /// In its logarithm.
+    Log,
+    /// In its reciprocal (a resistance mixed as a conductance).
+    Reciprocal,
+}
+
+/// Every value of two characterisations mixed linearly, `f` of the way from `lo` to `hi`,
+/// leakage in its logarithm and, with `conductance`, every resistance in its reciprocal; the
+/// conditions are left as `lo`'s. None when the two do not carry the same keys.
+fn mix_timing(lo: &Timing, hi: &Timing, f: f64, conductance: bool) -> Option<Timing> {
     use serde_json::Value;
-    let f = (temp - lo.at.temp) / (hi.at.temp - lo.at.temp);
-    // Leakage grows about exponentially with temperature: interpolated in its logarithm.
-    fn mix(a: &Value, b: &Value, f: f64, log: bool) -> Option<Value> {
+    let how_of = |key: &str| {
+        if key.starts_with("i_off") {
+            Mix::Log
+        } else if conductance && key.starts_with("r_") && key.ends_with("_kohm_um") {
+            Mix::Reciprocal
+        } else {
+            Mix::Linear
+        }
+    };
+    fn mix(a: &Value, b: &Value, f: f64, how: Mix) -> Option<Value> {
         Some(match (a, b) {
             (Value::Number(x), Value::Number(y)) => {
                 let (x, y) = (x.as_f64()?, y.as_f64()?);
-                Value::from(if log && x > 0.0 && y > 0.0 {
-                    (x.ln() + (y.ln() - x.ln()) * f).exp()
-                } else {
-                    x + (y - x) * f
+                let positive = x > 0.0 && y > 0.0;
+                Value::from(match how {
+                    Mix::Log if positive => (x.ln() + (y.ln() - x.ln()) * f).exp(),
+                    Mix::Reciprocal if positive => 1.0 / (1.0 / x + (1.0 / y - 1.0 / x) * f),
+                    _ => x + (y - x) * f,
                 })
             }
             (Value::Array(x), Value::Array(y)) if x.len() == y.len() => Value::Array(
                 x.iter()
                     .zip(y)
-                    .map(|(x, y)| mix(x, y, f, log))
-                    .collect::<Option<_>>()?,
-            ),
-            (Value::Object(x), Value::Object(y)) if x.len() == y.len() => Value::Object(
-                x.iter()
-                    .map(|(k, v)| Some((k.clone(), mix(v, y.get(k)?, f, k.starts_with("i_off"))?)))
+                    .map(|(x, y)| mix(x, y, f, how))
                     .collect::<Option<_>>()?,
             ),
             (x, y) if x == y => x.clone(),
             _ => return None,
         })
     }
-    let v = mix(
-        &serde_json::to_value(lo).ok()?,
-        &serde_json::to_value(hi).ok()?,
-        f,
+    let (Value::Object(a), Value::Object(b)) = (
+        serde_json::to_value(lo).ok()?,
+        serde_json::to_value(hi).ok()?,
+    ) else {
+        return None;
+    };
+    if a.len() != b.len() {
+        return None;
+    }
+    let v: serde_json::Map<String, Value> = a
+        .iter()
+        .map(|(k, x)| Some((k.clone(), mix(x, b.get(k)?, f, how_of(k))?)))
+        .collect::<Option<_>>()?;
+    let mut tm: Timing = serde_json::from_value(Value::Object(v)).ok()?;
+    tm.at = lo.at.clone();
+    Some(tm)
+}
+
+/// Every value of two characterisations of one corner and supply, interpolated linearly to
+/// `temp` (between theirs; leakage in its logarithm). None when the two do not carry the same
+/// keys.
+pub fn interpolate(lo: &Timing, hi: &Timing, temp: f64) -> Option<Timing> {
+    let mut tm = mix_timing(
+        lo,
+        hi,
+        (temp - lo.at.temp) / (hi.at.temp - lo.at.temp),
         false,
     )?;
-    let mut tm: Timing = serde_json::from_value(v).ok()?;
     tm.at = At {
         corner: lo.at.corner.clone(),
         temp,
         vdd: lo.at.vdd,
         between: Some([lo.at.temp, hi.at.temp]),
+        between_vdd: None,
+    };
+    tm.check().ok()?;
+    Some(tm)
+}
+
+/// Every value of two characterisations of one corner and temperature (either may itself be
+/// interpolated in temperature), interpolated to the supply `vdd` (between theirs): linearly,
+/// resistances as conductances, leakage in its logarithm. None when the two do not carry the same keys or temperature.
+pub fn interpolate_vdd(lo: &Timing, hi: &Timing, vdd: f64) -> Option<Timing> {
+    if (lo.at.temp - hi.at.temp).abs() > 1e-9 {
+        return None;
+    }
+    let mut tm = mix_timing(lo, hi, (vdd - lo.at.vdd) / (hi.at.vdd - lo.at.vdd), true)?;
+    tm.at = At {
+        corner: lo.at.corner.clone(),
+        temp: lo.at.temp,
+        vdd,
+        between: lo.at.between.or(hi.at.between),
+        between_vdd: Some([lo.at.vdd, hi.at.vdd]),
     };
     tm.check().ok()?;
     Some(tm)
