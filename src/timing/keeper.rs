@@ -87,10 +87,8 @@ pub struct Report {
 /// interpolated between characterised ones where it lies between them), and a label for it. Falls back to the spec's own timing for technologies without that corner.
 fn corner_timing(spec: &Spec, corner: &str) -> Option<(Timing, String, Spec)> {
     let t = &spec.technology;
-    let hottest = super::BUILTIN_FILES
-        .iter()
-        .filter(|(name, c, _)| *name == t.name && *c == corner)
-        .filter_map(|(_, _, text)| super::parse_timing(text).ok())
+    let hottest = super::builtin_files(&t.name, corner)
+        .into_iter()
         .max_by(|a, b| a.at.temp.total_cmp(&b.at.temp));
     let mut s = spec.clone();
     if let Some(tm) = hottest {

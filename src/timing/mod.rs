@@ -365,6 +365,24 @@ pub const BUILTIN_FILES: &[(&str, &str, &str)] = builtin_files! {
     "sky130-1v8", "sf", "sky130-1v8-sf": ["-m40", "", "-125", "-m40-1v62", "-1v62", "-125-1v62", "-m40-1v98", "-1v98", "-125-1v98"];
 };
 
+/// The built-in files of one technology's corner, parsed (once for the whole run: a sweep
+/// asks for them at every point).
+pub fn builtin_files(name: &str, corner: &str) -> Vec<&'static Timing> {
+    static PARSED: std::sync::OnceLock<Vec<(&str, &str, Option<Timing>)>> =
+        std::sync::OnceLock::new();
+    PARSED
+        .get_or_init(|| {
+            BUILTIN_FILES
+                .iter()
+                .map(|(n, c, text)| (*n, *c, parse_timing(text).ok()))
+                .collect()
+        })
+        .iter()
+        .filter(|(n, c, _)| *n == name && *c == corner)
+        .filter_map(|(_, _, tm)| tm.as_ref())
+        .collect()
+}
+
 /// The built-in characterisation of this technology at its present conditions: the file
 /// characterised at exactly its corner, temperature and supply, else every value interpolated
 /// between the nearest files of that corner on either side: linearly in temperature at a
@@ -380,15 +398,15 @@ pub const BUILTIN_FILES: &[(&str, &str, &str)] = builtin_files! {
 /// both against characterisations between the grid points (SKY130 ss at 85 degC, GF180MCU
 /// typical at 95 % supply).
 pub fn builtin_timing(t: &Technology) -> Option<Timing> {
-    let files: Vec<Timing> = BUILTIN_FILES
-        .iter()
-        .filter(|(name, corner, _)| *name == t.name && *corner == t.corner)
-        .filter_map(|(_, _, text)| parse_timing(text).ok())
-        .collect();
+    let files = builtin_files(&t.name, &t.corner);
     let same = |x: f64, y: f64| (x - y).abs() < 1e-9;
     // At one characterised supply: exact temperature, else between the two on either side.
     let at_supply = |vdd: f64| -> Option<Timing> {
-        let here: Vec<&Timing> = files.iter().filter(|tm| same(tm.at.vdd, vdd)).collect();
+        let here: Vec<&Timing> = files
+            .iter()
+            .copied()
+            .filter(|tm| same(tm.at.vdd, vdd))
+            .collect();
         if let Some(tm) = here.iter().find(|tm| same(tm.at.temp, t.temp)) {
             return Some((*tm).clone());
         }
@@ -421,13 +439,11 @@ pub fn builtin_timing(t: &Technology) -> Option<Timing> {
 /// The temperatures (degC) and supplies (V) the built-in files of a technology's corner span:
 /// `([coldest, hottest], [lowest, highest])`, None when none is built in.
 pub fn builtin_range(name: &str, corner: &str) -> Option<([f64; 2], [f64; 2])> {
-    let files: Vec<At> = BUILTIN_FILES
-        .iter()
-        .filter(|(n, c, _)| *n == name && *c == corner)
-        .filter_map(|(_, _, text)| parse_timing(text).ok())
-        .map(|tm| tm.at)
+    let files: Vec<&At> = builtin_files(name, corner)
+        .into_iter()
+        .map(|tm| &tm.at)
         .collect();
-    let span = |f: fn(&At) -> f64| {
+    let span = |f: fn(&&At) -> f64| {
         let lo = files.iter().map(f).min_by(f64::total_cmp)?;
         let hi = files.iter().map(f).max_by(f64::total_cmp)?;
         Some([lo, hi])
