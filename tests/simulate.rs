@@ -194,6 +194,41 @@ fn corner_order_holds_in_ngspice() {
     }
 }
 
+/// The engine's worst path at SKY130's slow corner against ngspice on the same pair: an 8-bit
+/// Kogge-Stone at ss, 125 degC (a characterised file) and at ss, 100 degC, 1.71 V (timing
+/// interpolated in temperature and supply), 10 fF. Before the pulse filter also dropped
+/// pulses turned back by an input already moving, the engine timed a glitch that ngspice
+/// shows peaking at 0.54 V (+127 % and +132 %); within 15 % here, the accuracy target of
+/// issue 7 §5 (ngspice 39 with the SKY130 models).
+#[test]
+fn slow_corner_worst_path_matches_ngspice() {
+    if !common::tools(&["ngspice"]) {
+        return;
+    }
+    if common::sky130_dir().is_none() {
+        return;
+    }
+    for conditions in [
+        "{corner: ss, temp: 125}",
+        "{corner: ss, temp: 100, vdd: 1.71}",
+    ] {
+        let yaml = format!("name: sl8\nwidth: 8\narchitecture: kogge-stone\ntechnology: sky130-1v8\nconditions: {conditions}\ntestbench: {{random: 4, load: 10f}}\n");
+        let dir = tempfile::tempdir().unwrap();
+        let r = simulate(dir.path(), &yaml, &["--no-icarus"], None);
+        assert_eq!(r.code, Some(0), "{conditions}: {}\n{}", r.stdout, r.stderr);
+        let est = r.results["estimate"]["worst_ps"].as_f64().unwrap();
+        let got = r.results["ngspice"]["measurements"]["tworst"]
+            .as_f64()
+            .unwrap()
+            * 1e12;
+        println!("SKY130 {conditions}: estimate {est} ps, ngspice {got:.1} ps");
+        assert!(
+            (est / got - 1.0).abs() < 0.15,
+            "{conditions}: estimate {est} ps, ngspice {got:.1} ps"
+        );
+    }
+}
+
 /// A transient that does not converge: ngspice's own message (from memory of ngspice 39:
 /// "doAnalyses: TRAN:  Timestep too small; ... trouble with node ...", then "run simulation(s)
 /// aborted", exit status 1) printed by a stand-in `ngspice` on PATH, since a generated deck
