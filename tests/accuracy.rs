@@ -64,8 +64,15 @@ impl Dut {
             .map(|b| format!("block: {b}\n"))
             .unwrap_or_default();
         format!(
-            "name: {}\nwidth: {}\narchitecture: {}\nstyle: {}\n{block}buffers: {}\ntechnology: {tech}\ntestbench: {{random: 0, seed: 1, load: {load}, drivers: ideal}}\n",
-            self.name, self.width, self.arch, self.style, self.buffers
+            "name: {}\nwidth: {}\narchitecture: {}\nstyle: {}\n{block}buffers: {}\ntechnology: {tech}\ntestbench: {{random: 0, seed: 1, load: {load}, drivers: ideal}}\n{}",
+            self.name,
+            self.width,
+            self.arch,
+            self.style,
+            self.buffers,
+            conditions()
+                .map(|c| format!("conditions: {c}\n"))
+                .unwrap_or_default()
         )
     }
 
@@ -938,10 +945,20 @@ fn selection() -> (Option<Vec<String>>, Option<String>) {
     (only, std::env::var("CARRYWRIGHT_ACCURACY_TECH").ok())
 }
 
+/// Other conditions than the typical corner at 27 degC and nominal supply for every design of a
+/// run (CARRYWRIGHT_ACCURACY_CONDITIONS, a spec's `conditions:` value, e.g. `{corner: ss,
+/// temp: 125}`; the corner must exist in the technology run).
+fn conditions() -> Option<String> {
+    std::env::var("CARRYWRIGHT_ACCURACY_CONDITIONS")
+        .ok()
+        .filter(|c| !c.trim().is_empty())
+}
+
 /// The table of issue 7 §5 (not run by default: about 30 minutes of ngspice on one core).
 /// `cargo test --release --test accuracy -- --ignored --nocapture accuracy_benchmark`;
 /// CARRYWRIGHT_ACCURACY_ONLY=rc8,ks32 runs only those designs, CARRYWRIGHT_ACCURACY_TECH=sky130-1v8
-/// only that technology, CARRYWRIGHT_ACCURACY_KEEP=1 keeps the decks and logs in
+/// only that technology, CARRYWRIGHT_ACCURACY_CONDITIONS='{corner: ss, temp: 125}' at those
+/// conditions ([`conditions`]), CARRYWRIGHT_ACCURACY_KEEP=1 keeps the decks and logs in
 /// target/accuracy-decks/.
 #[test]
 #[ignore = "a benchmark, not a check: about 30 minutes of ngspice over 24 designs, 2 technologies, 2 loads (cargo test --release --test accuracy -- --ignored --nocapture accuracy_benchmark)"]
@@ -1005,7 +1022,11 @@ fn accuracy_benchmark() {
     let mut md = String::new();
     let _ = writeln!(
         md,
-        "# Timing engine against ngspice (issue 7 §5)\n\nEstimate: `carrywright::timing::engine::estimate` (checked-in characterisation, default search). ngspice 39, one thread, one deck per design and technology (both loads: `alter` and a second run): the engine's worst vector pair at each load, measured at the engine's worst output (input or clk↑ 50 % to the output's last 50 % crossing). Hard transitions, at 10 fF, independently of the engine: a = all ones, b = ~a (every bit propagating) and bit 0 stepped through the six states where toggling one of cin, a0, b0 flips the carry into bit 1 (b0↑ a0↓ cin↑ b0↓ a0↑ cin↓: each input both edges; dynamic: the six states evaluated from precharge), measured at the last 50 % crossing of every output that changes. GF180MCU typical 27 °C 3.3 V; SKY130 tt 27 °C 1.8 V. error = estimate / ngspice − 1; engine vs hard = estimate / hard-transition max − 1. ″: the CPU of the row above (one deck).\n"
+        "# Timing engine against ngspice (issue 7 §5)\n\nEstimate: `carrywright::timing::engine::estimate` (checked-in characterisation, default search). ngspice 39, one thread, one deck per design and technology (both loads: `alter` and a second run): the engine's worst vector pair at each load, measured at the engine's worst output (input or clk↑ 50 % to the output's last 50 % crossing). Hard transitions, at 10 fF, independently of the engine: a = all ones, b = ~a (every bit propagating) and bit 0 stepped through the six states where toggling one of cin, a0, b0 flips the carry into bit 1 (b0↑ a0↓ cin↑ b0↓ a0↑ cin↓: each input both edges; dynamic: the six states evaluated from precharge), measured at the last 50 % crossing of every output that changes. {}. error = estimate / ngspice − 1; engine vs hard = estimate / hard-transition max − 1. ″: the CPU of the row above (one deck).\n",
+        conditions().map_or_else(
+            || "GF180MCU typical 27 °C 3.3 V; SKY130 tt 27 °C 1.8 V".to_string(),
+            |c| format!("Conditions (CARRYWRIGHT_ACCURACY_CONDITIONS): {c}")
+        )
     );
     let _ = writeln!(md, "{head}");
     for r in &rows {
