@@ -567,50 +567,56 @@ pub fn characterize(t: &Technology) -> Result<Characterized> {
     let mut cpu_total = 0.0;
     for (k, &span) in SPANS.iter().enumerate() {
         let b = bench(t, &models, span);
-        let (got, stdout, stderr, code, cpu) = run_bench(t, &b)?;
-        cpu_total += cpu.unwrap_or(0.0);
-        let complete = b
-            .meas
-            .chunks(2)
-            .all(|m| got.get(&m[1]).is_some_and(|v| *v > -1e8));
+        let run = run_bench(t, &b)?;
+        cpu_total += run.cpu_s.unwrap_or(0.0);
+        let complete = b.meas.chunks(2).all(|m| run.value(&m[1]).is_some());
         if !complete && k + 1 < SPANS.len() {
             continue;
         }
         let need = |name: &str| -> Result<f64> {
-            match got.get(name) {
-                Some(v) if *v > -1e8 => Ok(*v),
-                _ => {
-                    let first = stderr
-                        .lines()
-                        .chain(stdout.lines())
-                        .find(|l| l.to_ascii_lowercase().contains("error"))
-                        .unwrap_or("no error message");
-                    Err(Error::Check(format!(
-                        "characterize {}: measurement {name} failed in ngspice (exit {code:?}): {}",
-                        t.name,
-                        printable(first.trim())
-                    )))
-                }
-            }
+            run.value(name).ok_or_else(|| {
+                Error::Check(format!(
+                    "characterize {}: measurement {name} failed in ngspice (exit {:?}): {}",
+                    t.name,
+                    run.code,
+                    printable(run.first_error())
+                ))
+            })
         };
-        return fit_all(t, &b, &need, cpu.map(|_| cpu_total));
+        return fit_all(t, &b, &need, run.cpu_s.map(|_| cpu_total));
     }
     unreachable!("the last span returns")
 }
 
-/// What one ngspice run of the bench printed: the measurements by name, its standard output
-/// and error, its exit code and its CPU time (s).
-#[allow(clippy::type_complexity)]
-fn run_bench(
-    t: &Technology,
-    b: &Bench,
-) -> Result<(
-    BTreeMap<String, f64>,
-    String,
-    String,
-    Option<i32>,
-    Option<f64>,
-)> {
+/// What one ngspice run of the bench printed.
+struct BenchRun {
+    /// The measurements by name (-1e9 where ngspice could not take one).
+    got: BTreeMap<String, f64>,
+    stdout: String,
+    stderr: String,
+    code: Option<i32>,
+    cpu_s: Option<f64>,
+}
+
+impl BenchRun {
+    /// A measurement ngspice took.
+    fn value(&self, name: &str) -> Option<f64> {
+        self.got.get(name).copied().filter(|v| *v > -1e8)
+    }
+
+    /// ngspice's first line naming an error, for the message of a failed measurement.
+    fn first_error(&self) -> &str {
+        self.stderr
+            .lines()
+            .chain(self.stdout.lines())
+            .find(|l| l.to_ascii_lowercase().contains("error"))
+            .unwrap_or("no error message")
+            .trim()
+    }
+}
+
+/// Run ngspice once on the bench.
+fn run_bench(t: &Technology, b: &Bench) -> Result<BenchRun> {
     let deck = deck_text(t, b);
     // The netlist goes to ngspice on its standard input: no file is written, and ngspice
     // runs in the system's temporary folder so it reads nothing from the user's.
@@ -647,13 +653,13 @@ fn run_bench(
             }
         }
     }
-    Ok((
+    Ok(BenchRun {
         got,
-        stdout.into_owned(),
-        String::from_utf8_lossy(&out.stderr).into_owned(),
-        out.status.code(),
-        cpu,
-    ))
+        stdout: stdout.into_owned(),
+        stderr: String::from_utf8_lossy(&out.stderr).into_owned(),
+        code: out.status.code(),
+        cpu_s: cpu,
+    })
 }
 
 fn fit_all(

@@ -1757,8 +1757,9 @@ impl<'g> Sim<'g> {
     /// SKY130 ss at 125 degC, a black cell's inner node rose 92 ps after its generate input
     /// fell and fell back 112 ps later, turned back by a propagate input whose 162 ps edge had
     /// begun before that rise was half way; ngspice shows the node peaking at 0.54 V of 1.8,
-    /// and the engine's worst path through that pulse read 779 ps against 344 measured.) Should the change itself be called off later, the readers are solved again
-    /// from that edge.
+    /// and the engine's worst path through that pulse read 779 ps against 344 measured.)
+    /// Should the change itself be called off later, the readers are solved again from that
+    /// edge.
     fn propagate(&mut self, id: u32, now: f64) {
         let g = self.g;
         let e = self.events[id as usize];

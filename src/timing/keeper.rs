@@ -84,7 +84,8 @@ pub struct Report {
 }
 
 /// The timing at the hottest characterised temperature of a corner (at the spec's supply,
-/// interpolated between characterised ones where it lies between them), and a label for it. Falls back to the spec's own timing for technologies without that corner.
+/// interpolated between characterised ones where it lies between them), and a label for it.
+/// Falls back to the spec's own timing for technologies without that corner.
 fn corner_timing(spec: &Spec, corner: &str) -> Option<(Timing, String, Spec)> {
     let t = &spec.technology;
     let hottest = super::builtin_files(&t.name, corner)

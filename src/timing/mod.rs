@@ -400,6 +400,24 @@ pub fn builtin_files(name: &str, corner: &str) -> Vec<&'static Timing> {
 pub fn builtin_timing(t: &Technology) -> Option<Timing> {
     let files = builtin_files(&t.name, &t.corner);
     let same = |x: f64, y: f64| (x - y).abs() < 1e-9;
+    // The nearest values below and above `x` (None when `x` is outside them).
+    let bracket = |values: &mut dyn Iterator<Item = f64>, x: f64| {
+        let (lo, hi) = values.fold((None::<f64>, None::<f64>), |(lo, hi), v| {
+            (
+                if v < x && lo.is_none_or(|l| v > l) {
+                    Some(v)
+                } else {
+                    lo
+                },
+                if v > x && hi.is_none_or(|h| v < h) {
+                    Some(v)
+                } else {
+                    hi
+                },
+            )
+        });
+        Some((lo?, hi?))
+    };
     // At one characterised supply: exact temperature, else between the two on either side.
     let at_supply = |vdd: f64| -> Option<Timing> {
         let here: Vec<&Timing> = files
@@ -410,30 +428,15 @@ pub fn builtin_timing(t: &Technology) -> Option<Timing> {
         if let Some(tm) = here.iter().find(|tm| same(tm.at.temp, t.temp)) {
             return Some((*tm).clone());
         }
-        let below = here
-            .iter()
-            .filter(|tm| tm.at.temp < t.temp)
-            .max_by(|a, b| a.at.temp.total_cmp(&b.at.temp))?;
-        let above = here
-            .iter()
-            .filter(|tm| tm.at.temp > t.temp)
-            .min_by(|a, b| a.at.temp.total_cmp(&b.at.temp))?;
-        interpolate(below, above, t.temp)
+        let (lo, hi) = bracket(&mut here.iter().map(|tm| tm.at.temp), t.temp)?;
+        let at = |temp: f64| here.iter().find(|tm| tm.at.temp == temp).copied();
+        interpolate(at(lo)?, at(hi)?, t.temp)
     };
     if files.iter().any(|tm| same(tm.at.vdd, t.vdd)) {
         return at_supply(t.vdd);
     }
-    let below = files
-        .iter()
-        .map(|tm| tm.at.vdd)
-        .filter(|&v| v < t.vdd)
-        .max_by(f64::total_cmp)?;
-    let above = files
-        .iter()
-        .map(|tm| tm.at.vdd)
-        .filter(|&v| v > t.vdd)
-        .min_by(f64::total_cmp)?;
-    interpolate_vdd(&at_supply(below)?, &at_supply(above)?, t.vdd)
+    let (lo, hi) = bracket(&mut files.iter().map(|tm| tm.at.vdd), t.vdd)?;
+    interpolate_vdd(&at_supply(lo)?, &at_supply(hi)?, t.vdd)
 }
 
 /// The temperatures (degC) and supplies (V) the built-in files of a technology's corner span:
