@@ -801,6 +801,36 @@ fn bad_conditions_are_refused_with_their_key() {
             "{cond}: {err}"
         );
     }
+    // A technology file's own conditions record: only corner, temp and vdd. Whether a value
+    // is interpolated is the tool's to say (the `between` and `between_vdd` of its reports).
+    let file = std::fs::read_to_string(
+        Path::new(env!("CARGO_MANIFEST_DIR"))
+            .join("configs/technologies/gf180mcu-3v3-typical-125-2v97.yaml"),
+    )
+    .unwrap();
+    let record = "conditions: {corner: typical, temp: 125, vdd: 2.97}";
+    assert!(file.contains(record));
+    for key in ["between", "between_vdd"] {
+        std::fs::write(
+            tmp.path().join("tech.yaml"),
+            file.replace(record, &record.replace('}', &format!(", {key}: [1, 2]}}"))),
+        )
+        .unwrap();
+        std::fs::write(
+            tmp.path().join("spec.yaml"),
+            "name: hub_cnt4\nwidth: 4\narchitecture: ripple\ntechnology: tech.yaml\n",
+        )
+        .unwrap();
+        let (code, err) = cli(&["describe", "spec.yaml"], tmp.path());
+        assert_eq!(code, 2, "{key}: {err}");
+        assert_eq!(err.lines().count(), 1, "{err}");
+        assert!(
+            err.contains("tech.yaml:")
+                && err.contains(&format!("conditions.{key}"))
+                && err.contains("unknown field"),
+            "{key}: {err}"
+        );
+    }
     // characterize: the option is named, nothing is written, ngspice never runs.
     for (args, key) in [
         (vec!["--corner", "xx"], "--corner"),
